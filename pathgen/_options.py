@@ -1,0 +1,71 @@
+"""Shared conventions: option checking, units, named tolerances.
+
+Conventions used everywhere in pathgen
+--------------------------------------
+* Lengths are millimetres inside; inches are converted at the boundary
+  (reading and writing).  ``MM_PER_INCH = 25.4`` exactly.
+* Angles are radians inside.
+* Counter-clockwise is positive: signed curvature is positive on a left
+  turn, closed outlines are normalized to counter-clockwise, and a positive
+  offset lies to the left of the direction of travel.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Iterable
+
+from .errors import InputError
+
+__all__ = [
+    "check_option",
+    "check_positive",
+    "MM_PER_INCH",
+    "UNITS",
+    "CLOSE_RTOL",
+]
+
+MM_PER_INCH = 25.4
+UNITS = ("mm", "inch")
+
+#: Relative tolerance (to the outline's size, the bounding-box diagonal)
+#: under which two points count as the same point.
+CLOSE_RTOL = 1e-9
+
+
+def check_option(name: str, value, valid: Iterable[str]) -> str:
+    """Return ``value`` if it is one of ``valid``, else raise InputError.
+
+    >>> check_option("end", "natural", ("natural", "clamped"))
+    'natural'
+    >>> check_option("end", "loose", ("natural", "clamped"))
+    Traceback (most recent call last):
+    ...
+    pathgen.errors.InputError: end='loose' is not one of: 'natural', 'clamped'
+    """
+    valid = tuple(valid)
+    if not isinstance(value, str) or value not in valid:
+        choices = ", ".join(repr(v) for v in valid)
+        raise InputError(f"{name}={value!r} is not one of: {choices}")
+    return value
+
+
+def check_positive(name: str, value, *, allow_zero: bool = False) -> float:
+    """Return ``value`` as float if finite and > 0 (or >= 0), else raise.
+
+    >>> check_positive("tolerance", 0.01)
+    0.01
+    >>> check_positive("tolerance", -1)
+    Traceback (most recent call last):
+    ...
+    pathgen.errors.InputError: tolerance must be a finite number > 0, got -1
+    """
+    try:
+        v = float(value)
+    except (TypeError, ValueError):
+        raise InputError(f"{name} must be a number, got {value!r}") from None
+    ok = math.isfinite(v) and (v >= 0 if allow_zero else v > 0)
+    if not ok:
+        bound = ">= 0" if allow_zero else "> 0"
+        raise InputError(f"{name} must be a finite number {bound}, got {value!r}")
+    return v

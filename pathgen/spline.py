@@ -1,0 +1,496 @@
+"""Parametric cubic splines through ordered 2-D points.
+
+:func:`fit` interpolates points P_0 .. P_{n-1} with a piecewise cubic
+P(t) = (x(t), y(t)) and returns an immutable :class:`Contour`.
+
+Parameters (``param``)
+    chord (default): t_{i+1} - t_i = |P_{i+1} - P_i|; fourth-order accurate
+    on smooth outlines.  centripetal: |P_{i+1} - P_i|^(1/2).  uniform: 1.
+
+End conditions (``end``, open outlines; closed ones are periodic)
+    not-a-knot (default): the third derivative is continuous at the second
+    and second-to-last points.  natural: P'' = 0 at both ends.  clamped:
+    P' at both ends given by ``tangents`` (derivatives with respect to t).
+
+Notes
+-----
+Moment form (Stoer & Bulirsch, Introduction to Numerical Analysis, §2.4):
+with h_j = t_{j+1} - t_j, M_j = P''(t_j), λ_j = h_j/(h_{j-1}+h_j),
+μ_j = 1 - λ_j, the interior rows are
+
+    μ_j M_{j-1} + 2 M_j + λ_j M_{j+1} = 6 P[t_{j-1}, t_j, t_{j+1}].
+
+Both coordinates share the matrix and are solved as two right-hand sides
+with LAPACK's tridiagonal solver (``dgtsv``).  Not-a-knot's end rows
+(h_1 M_0 - (h_0+h_1) M_1 + h_0 M_2 = 0) are eliminated so the system stays
+tridiagonal; the periodic system is cyclic tridiagonal and is solved by
+Sherman-Morrison (Numerical Recipes §2.7), i.e. one tridiagonal solve with
+three right-hand sides.  Time and memory are O(n).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from ._options import CLOSE_RTOL, check_option
+from .errors import InputError
+
+__all__ = ["fit", "Contour", "ENDS", "PARAMS", "as_points", "parameters"]
+
+ENDS = ("not-a-knot", "natural", "clamped")
+PARAMS = ("chord", "centripetal", "uniform")
+
+# Gauss-Legendre nodes and weights on [0, 1] for arc length.
+_GL_X, _GL_W = np.polynomial.legendre.leggauss(10)
+_GL_X = (_GL_X + 1.0) / 2.0
+_GL_W = _GL_W / 2.0
+
+
+def as_points(points, name: str = "points") -> np.ndarray:
+    """Validate ``points`` into a C-contiguous (n, 2) float64 array.
+
+    Raises InputError for a wrong shape, fewer than 2 points or a
+    non-finite coordinate (naming the first bad point).
+    """
+    try:
+        p = np.array(points, dtype=np.float64, order="C", copy=True)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{name} must be an (n, 2) array of numbers: {exc}") from None
+    if p.ndim != 2 or p.shape[1] != 2:
+        raise InputError(f"{name} must have shape (n, 2), got {p.shape}")
+    if len(p) < 2:
+        raise InputError(f"{name} needs at least 2 points, got {len(p)}")
+    bad = ~np.isfinite(p).all(axis=1)
+    if bad.any():
+        i = int(np.argmax(bad))
+        raise InputError(f"{name} row {i} is not finite: {p[i].tolist()}")
+    return p
+
+
+def _size(p: np.ndarray) -> float:
+    """The outline's size: its bounding-box diagonal."""
+    return float(np.hypot(*(p.max(axis=0) - p.min(axis=0))))
+
+
+def parameters(p: np.ndarray, param: str, closed: bool) -> np.ndarray:
+    """Breaks t_0 = 0 < t_1 < ... for points ``p`` (closed: n+1 values)."""
+    check_option("param", param, PARAMS)
+    q = np.vstack([p, p[:1]]) if closed else p
+    d = np.diff(q, axis=0)
+    dist = np.hypot(d[:, 0], d[:, 1])
+    tiny = dist <= CLOSE_RTOL * max(_size(p), np.finfo(float).tiny)
+    if tiny.any():
+        i = int(np.argmax(tiny))
+        j = (i + 1) % len(p)
+        raise InputError(
+            f"points rows {i} and {j} coincide ({p[i].tolist()}): remove repeated points"
+        )
+    if param == "chord":
+        h = dist
+    elif param == "centripetal":
+        h = np.sqrt(dist)
+    else:
+        h = np.ones_like(dist)
+    t = np.empty(len(h) + 1)
+    t[0] = 0.0
+    np.cumsum(h, out=t[1:])
+    return t
+
+
+def _tridiag_solve(dl, d, du, b):
+    """Solve the tridiagonal system (dl, d, du) x = b for b of shape (n, k)."""
+    if len(d) == 1:
+        return b / d[0]
+    from scipy.linalg.lapack import dgtsv
+
+    _, _, _, x, info = dgtsv(dl, d, du, b, True, True, True, True)
+    if info != 0:  # pragma: no cover - diagonally dominant systems do not fail
+        raise InputError(f"spline system is singular (LAPACK dgtsv info={info})")
+    return x
+
+
+def _moments(t: np.ndarray, y: np.ndarray, end: str, closed: bool, tangents) -> np.ndarray:
+    """Second derivatives M_j at the breaks, shape (len(t), 2)."""
+    h = np.diff(t)
+    n = len(h)  # intervals
+    slope = np.diff(y, axis=0) / h[:, None]
+    M = np.zeros((n + 1, 2))
+    if closed:
+        hm = np.concatenate([h[-1:], h[:-1]])  # h_{j-1}, wrapped
+        s_prev = np.concatenate([slope[-1:], slope[:-1]])
+        lam = h / (hm + h)
+        mu = 1.0 - lam
+        rhs = 6.0 * (slope - s_prev) / (hm + h)[:, None]
+        # cyclic: row j has mu_j at j-1, 2 at j, lam_j at j+1 (indices mod n)
+        beta = mu[0]  # A[0, n-1]
+        alpha = lam[-1]  # A[n-1, 0]
+        gamma = -2.0
+        d = np.full(n, 2.0)
+        d[0] -= gamma
+        d[-1] -= alpha * beta / gamma
+        b = np.empty((n, 3), order="F")
+        b[:, :2] = rhs
+        b[:, 2] = 0.0
+        b[0, 2] = gamma
+        b[-1, 2] = alpha
+        x = _tridiag_solve(mu[1:].copy(), d, lam[:-1].copy(), b)
+        ys, z = x[:, :2], x[:, 2]
+        vz = z[0] + beta / gamma * z[-1]
+        vy = ys[0] + beta / gamma * ys[-1]
+        M[:n] = ys - np.outer(z, vy / (1.0 + vz))
+        M[n] = M[0]
+        return M
+    if n == 1:
+        if end == "clamped":
+            d0, d1 = tangents
+            r = np.array([(slope[0] - d0) * 6.0 / h[0], (d1 - slope[0]) * 6.0 / h[0]])
+            M[:] = np.linalg.solve(np.array([[2.0, 1.0], [1.0, 2.0]]), r)
+        return M  # natural and not-a-knot: the straight line
+    hl, hr = h[:-1], h[1:]
+    lam = hr / (hl + hr)
+    mu = 1.0 - lam
+    rhs = np.empty((n - 1, 2), order="F")
+    np.multiply(slope[1:] - slope[:-1], (6.0 / (hl + hr))[:, None], out=rhs)
+    if end == "not-a-knot" and n == 2:
+        M[:] = rhs[0] / 3.0  # the parabola: constant second derivative
+        return M
+    if end == "natural":
+        M[1:n] = _tridiag_solve(mu[1:].copy(), np.full(n - 1, 2.0), lam[:-1].copy(), rhs)
+        return M
+    if end == "not-a-knot":
+        d = np.full(n - 1, 2.0)
+        du = lam[:-1].copy()
+        dl = mu[1:].copy()
+        r0 = h[0] / h[1]
+        r1 = h[-1] / h[-2]
+        d[0] = 2.0 + r0
+        d[-1] = 2.0 + r1
+        du[0] = 1.0 - r0
+        dl[-1] = 1.0 - r1
+        inner = _tridiag_solve(dl, d, du, rhs)
+        M[1:n] = inner
+        M[0] = ((h[0] + h[1]) * inner[0] - h[0] * inner[1]) / h[1]
+        M[n] = ((h[-2] + h[-1]) * inner[-1] - h[-1] * inner[-2]) / h[-2]
+        return M
+    # clamped: full (n+1)-row system with the two end rows
+    d0, d1 = tangents
+    d = np.full(n + 1, 2.0)
+    du = np.empty(n)
+    dl = np.empty(n)
+    du[0] = 1.0
+    du[1:] = lam
+    dl[-1] = 1.0
+    dl[:-1] = mu
+    b = np.empty((n + 1, 2), order="F")
+    b[1:n] = rhs
+    b[0] = 6.0 / h[0] * (slope[0] - d0)
+    b[n] = 6.0 / h[-1] * (d1 - slope[-1])
+    return _tridiag_solve(dl, d, du, b)
+
+
+def _coefficients(t, y, M) -> np.ndarray:
+    """Power-form coefficients, shape (4, m, 2), highest power first."""
+    h = np.diff(t)[:, None]
+    c = np.empty((4, len(h), 2))
+    np.subtract(M[1:], M[:-1], out=c[0])
+    c[0] /= 6.0 * h
+    np.multiply(M[:-1], 0.5, out=c[1])
+    np.subtract(y[1:], y[:-1], out=c[2])
+    c[2] /= h
+    c[2] -= h * (2.0 * M[:-1] + M[1:]) / 6.0
+    c[3] = y[:-1]
+    return c
+
+
+def fit(points, *, closed=None, end: str = "not-a-knot", param: str = "chord", tangents=None):
+    """Fit a parametric cubic spline through ordered 2-D points.
+
+    Parameters
+    ----------
+    points : array-like, shape (n, 2)
+        Ordered points along the outline, in mm (or any one length unit).
+    closed : bool or None
+        None: closed when the last point repeats the first (within 1e-9 of
+        the outline's size); the repeated point is dropped.  True: close the
+        outline (a repeated last point is dropped too).  False: open.
+    end : {"not-a-knot", "natural", "clamped"}
+        End condition of an open outline.  Closed outlines are periodic
+        (C2 across the seam).
+    param : {"chord", "centripetal", "uniform"}
+        How the parameter t advances from point to point.
+    tangents : pair of 2-vectors, required for ``end="clamped"``
+        dP/dt at the first and the last point (with chord parameters a unit
+        vector is the natural choice); must not be zero.
+
+    Returns
+    -------
+    Contour
+
+    Examples
+    --------
+    >>> c = fit([[0, 0], [1, 1], [2, 0]])          # not-a-knot: a parabola
+    >>> c.closed, len(c.breaks)
+    (False, 3)
+    >>> square = fit([[1, 0], [0, 1], [-1, 0], [0, -1]], closed=True)
+    >>> bool(abs(square.length - 2 * 3.14159) < 0.2)
+    True
+    """
+    p = as_points(points)
+    check_option("end", end, ENDS)
+    check_option("param", param, PARAMS)
+    size = _size(p)
+    repeats = bool(np.hypot(*(p[-1] - p[0])) <= CLOSE_RTOL * max(size, np.finfo(float).tiny))
+    if closed is None:
+        closed = repeats and len(p) > 2
+    closed = bool(closed)
+    if closed and repeats:
+        p = p[:-1]
+    if closed and len(p) < 3:
+        raise InputError(f"a closed outline needs at least 3 distinct points, got {len(p)}")
+    if end == "clamped" and not closed:
+        if tangents is None:
+            raise InputError('end="clamped" needs tangents=(start_vector, end_vector)')
+        try:
+            tan = np.array(tangents, dtype=np.float64)
+        except (TypeError, ValueError):
+            raise InputError("tangents must be two 2-vectors") from None
+        if tan.shape != (2, 2) or not np.isfinite(tan).all():
+            raise InputError(f"tangents must be two finite 2-vectors, got shape {tan.shape}")
+        if (np.hypot(tan[:, 0], tan[:, 1]) == 0).any():
+            raise InputError("tangents must not be zero vectors (a clamped end needs a direction)")
+    else:
+        tan = None
+    t = parameters(p, param, closed)
+    y = np.vstack([p, p[:1]]) if closed else p
+    M = _moments(t, y, end, closed, tan)
+    c = _coefficients(t, y, M)
+    return Contour(t, c, closed, p, end="periodic" if closed else end, param=param)
+
+
+def _readonly(a) -> np.ndarray:
+    a = np.asarray(a)
+    a.setflags(write=False)
+    return a
+
+
+@dataclass(frozen=True, eq=False, repr=False)
+class Contour:
+    """A piecewise cubic curve P(t), t in [breaks[0], breaks[-1]].
+
+    Attributes
+    ----------
+    breaks : (m+1,) increasing parameter values; for a fit, one per point
+        and, when closed, one more at the end of the seam.
+    coefficients : (4, m, 2); on piece i, P(t) = sum_k c[k, i] (t - breaks[i])**(3-k)
+        (the layout of ``scipy.interpolate.PPoly``).
+    closed : whether the curve returns to its start (evaluation wraps).
+    points : (n, 2) the points it was fitted through (mm).
+    corners : indices into ``breaks`` where the curve is only position
+        continuous (sharp corners between separately fitted pieces).
+    end, param : how it was fitted.
+    """
+
+    breaks: np.ndarray
+    coefficients: np.ndarray
+    closed: bool
+    points: np.ndarray
+    corners: tuple = ()
+    end: str = "not-a-knot"
+    param: str = "chord"
+
+    def __post_init__(self):
+        _readonly(self.breaks)
+        _readonly(self.coefficients)
+        _readonly(self.points)
+        object.__setattr__(self, "corners", tuple(int(i) for i in self.corners))
+
+    def __repr__(self):
+        kind = "closed" if self.closed else "open"
+        return (
+            f"Contour({kind}, {len(self.points)} points, {self.pieces} pieces, "
+            f"length={self.length:.6g})"
+        )
+
+    # -- evaluation ---------------------------------------------------------
+    @property
+    def pieces(self) -> int:
+        """Number of cubic pieces."""
+        return len(self.breaks) - 1
+
+    @property
+    def domain(self) -> tuple[float, float]:
+        return float(self.breaks[0]), float(self.breaks[-1])
+
+    def _locate(self, t: np.ndarray):
+        """Wrap (closed) or clip-to-extrapolate (open) t; piece index and offset."""
+        b = self.breaks
+        if self.closed:
+            t0, t1 = b[0], b[-1]
+            t = t0 + np.mod(t - t0, t1 - t0)
+        flat = t.ravel()
+        if flat.size > 1 and flat.size >= 4 * len(b) and np.all(flat[1:] >= flat[:-1]):
+            # sorted parameters: O(N + m) piece index without a per-point search
+            counts = np.diff(np.searchsorted(flat, b[1:-1], side="right"), prepend=0, append=flat.size)
+            idx = np.repeat(np.arange(len(b) - 1), counts).reshape(t.shape)
+        else:
+            idx = np.searchsorted(b, t, side="right") - 1
+            np.clip(idx, 0, len(b) - 2, out=idx)
+        return idx, t - b[idx]
+
+    def __call__(self, t, nu: int = 0) -> np.ndarray:
+        """P(t) or its nu-th derivative (nu = 0..3); returns t.shape + (2,).
+
+        A closed contour wraps around the seam; an open one extrapolates its
+        end pieces outside the domain.
+        """
+        if nu not in (0, 1, 2, 3):
+            raise InputError(f"nu must be 0, 1, 2 or 3, got {nu!r}")
+        t = np.asarray(t, dtype=np.float64)
+        idx, x = self._locate(t)
+        x = x[..., None]
+        c = self.coefficients
+        if nu == 0:
+            return ((c[0][idx] * x + c[1][idx]) * x + c[2][idx]) * x + c[3][idx]
+        if nu == 1:
+            return (3.0 * c[0][idx] * x + 2.0 * c[1][idx]) * x + c[2][idx]
+        if nu == 2:
+            return 6.0 * c[0][idx] * x + 2.0 * c[1][idx]
+        return 6.0 * c[0][idx] + 0.0 * x
+
+    def curvature(self, t) -> np.ndarray:
+        """Signed curvature κ(t) = (x'y'' - y'x'')/(x'^2 + y'^2)^(3/2), 1/mm.
+
+        Positive on a left (counter-clockwise) turn.
+        """
+        d1 = self(t, 1)
+        d2 = self(t, 2)
+        cross = d1[..., 0] * d2[..., 1] - d1[..., 1] * d2[..., 0]
+        speed2 = d1[..., 0] ** 2 + d1[..., 1] ** 2
+        return cross / speed2**1.5
+
+    def tangent(self, t) -> np.ndarray:
+        """Unit tangent at t, shape t.shape + (2,)."""
+        d1 = self(t, 1)
+        return d1 / np.linalg.norm(d1, axis=-1, keepdims=True)
+
+    def normal(self, t) -> np.ndarray:
+        """Unit left normal at t (the tangent turned +90°)."""
+        tg = self.tangent(t)
+        return np.stack([-tg[..., 1], tg[..., 0]], axis=-1)
+
+    # -- arc length ---------------------------------------------------------
+    def _speed(self, t) -> np.ndarray:
+        d1 = self(t, 1)
+        return np.hypot(d1[..., 0], d1[..., 1])
+
+    def _gl_local(self, idx: np.ndarray, x1: np.ndarray, sub: int) -> np.ndarray:
+        """∫ |P'| over piece ``idx`` from its start to local offset ``x1``.
+
+        Gauss-Legendre (10 nodes) on ``sub`` equal sub-steps; no piece search.
+        """
+        c = self.coefficients
+        a3 = 3.0 * c[0][idx][..., None, :]
+        a2 = 2.0 * c[1][idx][..., None, :]
+        a1 = c[2][idx][..., None, :]
+        w = np.asarray(x1, float) / sub
+        total = np.zeros_like(w)
+        for k in range(sub):
+            x = ((k + _GL_X) * w[..., None])[..., None]
+            d = (a3 * x + a2) * x + a1
+            total += (np.hypot(d[..., 0], d[..., 1]) * _GL_W).sum(axis=-1) * w
+        return total
+
+    @property
+    def _cum(self) -> np.ndarray:
+        """Cumulative arc length at the breaks (computed once, on demand)."""
+        cum = self.__dict__.get("_cum_cache")
+        if cum is None:
+            idx = np.arange(self.pieces)
+            h = np.diff(self.breaks)
+            sub = 1
+            lengths = self._gl_local(idx, h, sub)
+            while sub < 64:
+                finer = self._gl_local(idx, h, sub * 2)
+                done = np.abs(finer - lengths).max() <= 1e-13 * max(finer.sum(), 1e-300)
+                lengths, sub = finer, sub * 2
+                if done:
+                    break
+            cum = np.empty(len(self.breaks))
+            cum[0] = 0.0
+            np.cumsum(lengths, out=cum[1:])
+            self.__dict__["_sub"] = sub
+            self.__dict__["_cum_cache"] = _readonly(cum)
+        return cum
+
+    @property
+    def length(self) -> float:
+        """Total arc length (mm)."""
+        return float(self._cum[-1])
+
+    def arc_length(self, t) -> np.ndarray:
+        """Arc length from breaks[0] to t (closed: t wrapped into one turn)."""
+        t = np.asarray(t, dtype=np.float64)
+        cum = self._cum
+        idx, x = self._locate(t)
+        return cum[idx] + self._gl_local(idx, x, self.__dict__["_sub"])
+
+    def param_at(self, s) -> np.ndarray:
+        """Parameter t at arc length s from the start (Newton, vectorized).
+
+        Closed contours wrap s modulo the length; open ones clip s to
+        [0, length].
+        """
+        s = np.asarray(s, dtype=np.float64)
+        cum, b = self._cum, self.breaks
+        sub = self.__dict__["_sub"]
+        L = float(cum[-1])
+        s = np.mod(s, L) if self.closed else np.clip(s, 0.0, L)
+        idx = np.clip(np.searchsorted(cum, s, side="right") - 1, 0, len(b) - 2)
+        h = b[idx + 1] - b[idx]
+        frac = (s - cum[idx]) / np.maximum(cum[idx + 1] - cum[idx], 1e-300)
+        x = frac * h
+        c = self.coefficients
+        a3, a2, a1 = 3.0 * c[0][idx], 2.0 * c[1][idx], c[2][idx]
+        for _ in range(50):
+            err = cum[idx] + self._gl_local(idx, x, sub) - s
+            xe = x[..., None]
+            d = (a3 * xe + a2) * xe + a1
+            speed = np.maximum(np.hypot(d[..., 0], d[..., 1]), 1e-300)
+            x = np.clip(x - err / speed, 0.0, h)
+            if np.all(np.abs(err) <= 1e-13 * max(L, 1e-300)):
+                break
+        return b[idx] + x
+
+    # -- shape facts ----------------------------------------------------------
+    @property
+    def bbox(self) -> tuple[float, float, float, float]:
+        """(xmin, ymin, xmax, ymax) of the curve (exact: derivative roots)."""
+        c = self.coefficients
+        h = np.diff(self.breaks)
+        cand = [self(self.breaks)]
+        for k in range(2):
+            a, bq, cq = 3.0 * c[0, :, k], 2.0 * c[1, :, k], c[2, :, k]
+            disc = bq * bq - 4.0 * a * cq
+            ok = disc >= 0
+            sq = np.sqrt(np.where(ok, disc, 0.0))
+            with np.errstate(divide="ignore", invalid="ignore"):
+                quad = np.abs(a) > 1e-300
+                r1 = np.where(quad, (-bq + sq) / (2 * a), -cq / np.where(bq == 0, np.inf, bq))
+                r2 = np.where(quad, (-bq - sq) / (2 * a), -1.0)
+            for r in (r1, r2):
+                good = ok & np.isfinite(r) & (r > 0) & (r < h)
+                if good.any():
+                    cand.append(self(self.breaks[:-1][good] + r[good]))
+        pts = np.vstack(cand)
+        lo, hi = pts.min(axis=0), pts.max(axis=0)
+        return float(lo[0]), float(lo[1]), float(hi[0]), float(hi[1])
+
+    def sample(self, count: int) -> np.ndarray:
+        """``count`` parameter values evenly spaced in arc length."""
+        if self.closed:
+            s = np.linspace(0.0, self.length, count, endpoint=False)
+        else:
+            s = np.linspace(0.0, self.length, count)
+        return self.param_at(s)
