@@ -8,6 +8,12 @@ Conventions used everywhere in pathgen
 * Counter-clockwise is positive: signed curvature is positive on a left
   turn, closed outlines are normalized to counter-clockwise, and a positive
   offset lies to the left of the direction of travel.
+* Cutting side: "outside" cuts to the right of the direction of travel
+  (outside of a counter-clockwise closed outline), "inside" to the left
+  (a pocket or hole), "on" follows the line itself.  ``side_sign`` gives
+  the sign of the offset along the left normal: -1, +1, 0.  The tool of
+  radius r cannot reach where side_sign * curvature * r >= 1 (the contour
+  bends toward the tool with radius R <= r).
 """
 
 from __future__ import annotations
@@ -23,6 +29,8 @@ __all__ = [
     "MM_PER_INCH",
     "UNITS",
     "CLOSE_RTOL",
+    "SIDES",
+    "side_sign",
 ]
 
 MM_PER_INCH = 25.4
@@ -31,6 +39,18 @@ UNITS = ("mm", "inch")
 #: Relative tolerance (to the outline's size, the bounding-box diagonal)
 #: under which two points count as the same point.
 CLOSE_RTOL = 1e-9
+
+
+SIDES = ("outside", "inside", "on")
+
+
+def side_sign(side: str) -> int:
+    """Sign of the tool offset along the left normal for a cutting side.
+
+    >>> side_sign("outside"), side_sign("inside"), side_sign("on")
+    (-1, 1, 0)
+    """
+    return {"outside": -1, "inside": 1, "on": 0}[check_option("side", side, SIDES)]
 
 
 def check_option(name: str, value, valid: Iterable[str]) -> str:

@@ -30,7 +30,7 @@ three right-hand sides.  Time and memory are O(n).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import numpy as np
 
@@ -290,6 +290,8 @@ class Contour:
     corners : indices into ``breaks`` where the curve is only position
         continuous (sharp corners between separately fitted pieces).
     end, param : how it was fitted.
+    info : facts about the fit for the report (e.g. smoothing residuals:
+        "smooth", "max_residual", "rms_residual", in mm).
     """
 
     breaks: np.ndarray
@@ -299,6 +301,7 @@ class Contour:
     corners: tuple = ()
     end: str = "not-a-knot"
     param: str = "chord"
+    info: dict = field(default_factory=dict)
 
     def __post_init__(self):
         _readonly(self.breaks)
