@@ -338,8 +338,7 @@ class Contour:
             counts = np.diff(np.searchsorted(flat, b[1:-1], side="right"), prepend=0, append=flat.size)
             idx = np.repeat(np.arange(len(b) - 1), counts).reshape(t.shape)
         else:
-            idx = np.searchsorted(b, t, side="right") - 1
-            np.clip(idx, 0, len(b) - 2, out=idx)
+            idx = np.clip(np.searchsorted(b, t, side="right") - 1, 0, len(b) - 2)
         return idx, t - b[idx]
 
     def __call__(self, t, nu: int = 0) -> np.ndarray:
