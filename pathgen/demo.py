@@ -214,12 +214,19 @@ def make_part(name: str):
 
 
 def sample_text(name: str) -> str:
-    """The CSV text of sample ``name``: a comment, the units, ``x,y``, rows."""
+    """The CSV text of sample ``name``: a comment, the units, ``x,y``, rows.
+
+    A closed part's last row repeats its first (that is what marks a points
+    file closed).
+    """
     p = make_part(name)
     closed, what = PARTS[name]
     kind = "closed" if closed else "open"
     lines = [f"# {name}: {what} ({kind}, invented part)", "# units: mm", "x,y"]
-    lines += [f"{x:.4f},{y:.4f}" for x, y in p.tolist()]
+    rows = p.tolist()
+    if closed:  # a closed outline repeats its first point at the end
+        rows.append(rows[0])
+    lines += [f"{x:.4f},{y:.4f}" for x, y in rows]
     return "\n".join(lines) + "\n"
 
 
