@@ -1,0 +1,362 @@
+"""The ``pathgen`` command: a thin layer over :func:`pathgen.pipeline.run`.
+
+Commands: check, gcode, dxf, plot, demo, batch (``pathgen COMMAND --help``).
+
+Exit status
+-----------
+0  done.
+1  done, but the tool cannot cut some spot as drawn (see the report's tight
+   spots); a script should stop before cutting.
+2  bad input or usage: one line on stderr naming the file (and line) and
+   what is wrong; no output file is left behind.
+
+This module imports only the standard library at load time, so that
+``pathgen --help`` is instant; numpy, scipy, ezdxf and matplotlib load
+inside the commands that need them.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+
+from ._version import __version__
+
+__all__ = ["main", "CAUTION"]
+
+CAUTION = (
+    "CAUTION: pathgen does not know your machine, fixturing, tool stick-out, material or "
+    "work offsets. Verify every program by simulation or an air cut, following your shop's "
+    "practice and local safety rules, before cutting."
+)
+
+EXIT_OK, EXIT_TIGHT, EXIT_BAD = 0, 1, 2
+
+_DESCRIPTION = """\
+From ordered outline points to a smooth contour, a machinability check and a
+toolpath: G-code, DXF, a report and a picture.
+
+Lengths are in mm (or inch with --units inch), feeds in mm/min (or inch/min),
+acceleration in mm/s^2.
+
+exit status: 0 done; 1 done, but the tool cannot reach some spot (see the
+report); 2 bad input or usage (one line on stderr, no output file).
+"""
+
+_EPILOG = """\
+example:
+  pathgen gcode samples/bracket.csv -o bracket.nc --tool-diameter 6 --machine samples/router.toml
+
+""" + CAUTION
+
+_COMMANDS = {
+    "check": (
+        "read, fit and check the points; print the summary and the tight spots",
+        "pathgen check samples/hook.csv --tool-diameter 6",
+    ),
+    "gcode": (
+        "the whole job: write the program (and its report beside it)",
+        "pathgen gcode samples/bracket.csv -o bracket.nc --tool-diameter 6 --depth 3 --step-down 1",
+    ),
+    "dxf": (
+        "write the drawing: points, contour, tool path, tight spots",
+        "pathgen dxf samples/profile.csv -o profile.dxf --tool-diameter 6",
+    ),
+    "plot": (
+        "draw the picture (PNG or SVG)",
+        "pathgen plot samples/bracket.csv -o bracket.png --tool-diameter 6",
+    ),
+    "demo": (
+        "write the sample parts and a machine profile into DIR and run the whole job on them",
+        "pathgen demo pathgen-demo",
+    ),
+    "batch": (
+        "run the whole job on every points file of a folder, in parallel",
+        "pathgen batch parts/ -o programs/ --tool-diameter 6 --machine samples/router.toml",
+    ),
+}
+
+
+class _UsageError(Exception):
+    """Bad command-line usage (argparse would otherwise exit by itself)."""
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):  # one line, our exit code, no usage dump
+        raise _UsageError(f"{self.prog}: {message}")
+
+
+def _pair(text: str):
+    parts = text.replace(";", ",").split(",")
+    try:
+        x, y = (float(p) for p in parts)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected X,Y (two numbers), got {text!r}") from None
+    return (x, y)
+
+
+def _number(text: str) -> float:
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
+
+
+def _add_shared(p: argparse.ArgumentParser, *, output: str | None) -> None:
+    """The options every job command shares (one spelling each)."""
+    g = p.add_argument_group("input and fit")
+    shape = g.add_mutually_exclusive_group()
+    shape.add_argument("--closed", dest="closed", action="store_const", const=True, default=None,
+                       help="treat the outline as closed (default: closed when the last point repeats the first)")
+    shape.add_argument("--open", dest="closed", action="store_const", const=False,
+                       help="treat the outline as open")
+    g.add_argument("--end", choices=("not-a-knot", "natural"), default="not-a-knot",
+                   help="end condition of an open outline (default: not-a-knot)")
+    g.add_argument("--param", choices=("chord", "centripetal", "uniform"), default="chord",
+                   help="how the spline parameter advances between points (default: chord)")
+    g.add_argument("--units", choices=("mm", "inch"), default="mm",
+                   help="units of the points and of every length option (default: mm)")
+    g.add_argument("--smooth", type=_number, metavar="TOL",
+                   help="smooth noisy points, keeping the contour within TOL of every point")
+    g.add_argument("--corner-angle", type=_number, metavar="DEG",
+                   help="turning angle above which a point is a sharp corner")
+    g.add_argument("--layer", metavar="NAME", help="DXF input: the layer that holds the outline")
+
+    g = p.add_argument_group("machine, tool and cut")
+    g.add_argument("--machine", metavar="PROFILE.toml", help="machine profile (feed, acceleration, block rate)")
+    g.add_argument("--tool-diameter", type=_number, metavar="D", help="cutter diameter")
+    g.add_argument("--side", choices=("outside", "inside", "on"), default="outside",
+                   help="cut outside the outline, inside it (a pocket or hole) or on it (default: outside)")
+    g.add_argument("--feed", type=_number, metavar="F", help="programmed cutting feed per minute")
+    g.add_argument("--accel", type=_number, metavar="A", help="machine path acceleration per second squared")
+    g.add_argument("--tolerance", type=_number, default=0.01, metavar="E",
+                   help="chord tolerance: largest distance of the moves from the curve (default: 0.01)")
+    g.add_argument("--moves", choices=("arcs", "lines"), default="arcs",
+                   help="write the path as arcs (G2/G3 and G1) or lines only (default: arcs)")
+
+    g = p.add_argument_group("toolpath")
+    g.add_argument("--depth", type=_number, metavar="Z", help="total cut depth")
+    g.add_argument("--step-down", type=_number, metavar="DZ", help="depth of each pass")
+    g.add_argument("--safe-height", type=_number, metavar="H", help="clearance height for rapid moves")
+    g.add_argument("--seam", type=_pair, metavar="X,Y", help="start a closed cut nearest to this point")
+    g.add_argument("--lead", choices=("arc", "line", "none"), default="arc",
+                   help="lead-in and lead-out move (default: arc)")
+
+    g = p.add_argument_group("output")
+    if output:
+        g.add_argument("-o", "--output", metavar=output,
+                       help=f"file to write (default: the input's name with {output.split('.')[-1]!r}, in the current folder)")
+    g.add_argument("--force", action="store_true", help="overwrite existing files")
+    g.add_argument("--json", action="store_true", help="print the report as JSON on stdout (nothing else)")
+    g.add_argument("--quiet", action="store_true", help="print nothing but errors and the caution")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    """The argument parser (standard library only)."""
+    parser = _Parser(prog="pathgen", description=_DESCRIPTION, epilog=_EPILOG,
+                     formatter_class=argparse.RawDescriptionHelpFormatter)
+    parser.add_argument("--version", action="version", version=f"pathgen {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND", parser_class=_Parser)
+    outputs = {"check": None, "gcode": "PART.nc", "dxf": "PART.dxf", "plot": "PART.png|PART.svg"}
+    for name, (summary, example) in _COMMANDS.items():
+        p = sub.add_parser(name, help=summary, description=summary[0].upper() + summary[1:] + ".",
+                           epilog=f"example:\n  {example}\n\n{CAUTION}",
+                           formatter_class=argparse.RawDescriptionHelpFormatter)
+        if name in outputs:
+            p.add_argument("points", metavar="POINTS", help="points file (.csv .txt .xy .dxf)")
+            _add_shared(p, output=outputs[name])
+        elif name == "demo":
+            p.add_argument("directory", metavar="DIR", nargs="?", default="pathgen-demo",
+                           help="folder to write into (default: pathgen-demo)")
+            _add_shared(p, output=None)
+        else:  # batch
+            p.add_argument("directory", metavar="DIR", help="folder of points files (.csv .txt .xy .dxf)")
+            _add_shared(p, output="OUTDIR")
+            p.add_argument("--jobs", type=int, metavar="N", help="worker processes (default: all CPU cores)")
+    return parser
+
+
+# -- formatting -----------------------------------------------------------------
+def _fmt_len(v, units="mm") -> str:
+    import math
+
+    if v is None:
+        return "-"
+    if isinstance(v, float) and math.isinf(v):
+        return "straight"
+    return f"{v:.3f} {units}"
+
+
+def _fmt_time(seconds) -> str:
+    if seconds is None:
+        return "-"
+    m, s = divmod(float(seconds), 60.0)
+    return f"{int(m)} min {s:04.1f} s" if m else f"{s:.1f} s"
+
+
+def _summary_lines(result) -> list[str]:
+    """A short, plain summary of a pipeline result."""
+    f = result.facts
+    kind = "closed" if f["closed"] else "open"
+    x, y = f["min_radius_at"]
+    lines = [
+        f"{result.source}: {f['points']} points, {kind}, {f['pieces']} pieces, {f['corners']} corners",
+        f"  length          {_fmt_len(f['length'])}",
+        f"  smallest radius {_fmt_len(f['min_radius'])} at x={x:.3f} y={y:.3f} (s={f['min_radius_s']:.3f} mm)",
+    ]
+    text = _report_text(result)
+    if text:
+        lines += ["", text.rstrip("\n")]
+    tp = result.toolpath
+    if tp is not None:
+        lines.append(f"  program         {tp.block_count} moves, deviation {tp.deviation:.4f} mm "
+                     f"(tolerance {tp.tolerance:.4f} mm)")
+    for kind_, p in result.files.items():
+        lines.append(f"  wrote {kind_:<11} {p}")
+    return lines
+
+
+def _report_text(result) -> str:
+    rep = result.report
+    if rep is None:
+        return ""
+    for name in ("text", "to_text", "as_text"):
+        fn = getattr(rep, name, None)
+        if callable(fn):
+            return fn()
+    return str(rep)
+
+
+def _report_json(result) -> str:
+    import json
+
+    rep = result.report
+    data = None
+    for name in ("to_json", "as_json"):
+        fn = getattr(rep, name, None)
+        if callable(fn):
+            out = fn()
+            return out if isinstance(out, str) else json.dumps(out, indent=2, sort_keys=True)
+    for name in ("to_dict", "as_dict"):
+        fn = getattr(rep, name, None)
+        if callable(fn):
+            data = fn()
+            break
+    payload = {"source": result.source, "contour": result.facts}
+    if data is not None:
+        payload["report"] = data
+    if result.files:
+        payload["files"] = {k: str(v) for k, v in result.files.items()}
+    return json.dumps(payload, indent=2, sort_keys=True, allow_nan=False, default=_json_default)
+
+
+def _json_default(o):
+    import math
+
+    if isinstance(o, float) and not math.isfinite(o):
+        return None
+    return str(o)
+
+
+def _jsonable_facts(facts: dict) -> dict:
+    import math
+
+    return {k: (None if isinstance(v, float) and not math.isfinite(v) else v) for k, v in facts.items()}
+
+
+# -- commands -------------------------------------------------------------------
+def _run_options(a) -> dict:
+    """Pipeline keyword arguments from parsed options."""
+    return dict(
+        closed=a.closed, end=a.end, param=a.param, units=a.units, smooth=a.smooth,
+        corner_angle=a.corner_angle, layer=a.layer, machine=a.machine,
+        tool_diameter=a.tool_diameter, feed=a.feed, accel=a.accel, side=a.side,
+        tolerance=a.tolerance, moves=a.moves, depth=a.depth, step_down=a.step_down,
+        safe_height=a.safe_height, seam=a.seam, lead=a.lead, force=a.force,
+    )
+
+
+def _default_output(points: str, suffix: str) -> str:
+    from pathlib import Path
+
+    return str(Path(Path(points).name).with_suffix(suffix))
+
+
+def _emit(result, a, *, caution: str, out=sys.stdout, err=sys.stderr) -> int:
+    """Print a result: JSON alone on stdout, or the summary (unless quiet).
+
+    ``caution``: "always" (a program was written: on stdout with the
+    summary, else on stderr) or "text" (only with the text summary).
+    """
+    text = not (a.json or a.quiet)
+    if a.json:
+        result = result.__class__(**{**result.__dict__, "facts": _jsonable_facts(result.facts)})
+        out.write(_report_json(result) + "\n")
+    elif text:
+        out.write("\n".join(_summary_lines(result)) + "\n")
+        if result.tool_cannot_reach:
+            out.write("The tool cannot cut some spot as drawn (exit status 1): see the tight spots.\n")
+    if caution == "always" or (caution == "text" and text):
+        (out if text else err).write(CAUTION + "\n")
+    return result.status
+
+
+def _cmd_job(a, out, err) -> int:
+    from .pipeline import run
+
+    opts = _run_options(a)
+    if a.command == "gcode":
+        target = a.output or _default_output(a.points, ".nc")
+        opts["gcode"] = target
+        opts["report"] = str(_report_path(target))
+    elif a.command == "dxf":
+        opts["dxf"] = a.output or _default_output(a.points, ".dxf")
+    elif a.command == "plot":
+        opts["plot"] = a.output or _default_output(a.points, ".png")
+    result = run(a.points, **opts)
+    caution = {"gcode": "always", "check": "text"}.get(a.command, "")
+    return _emit(result, a, caution=caution, out=out, err=err)
+
+
+def _report_path(program):
+    from pathlib import Path
+
+    p = Path(program)
+    return p.with_name(p.stem + ".report.json")
+
+
+def _commands():
+    return {"check": _cmd_job, "gcode": _cmd_job, "dxf": _cmd_job, "plot": _cmd_job}
+
+
+def _one_line(exc: BaseException) -> str:
+    text = str(exc).strip() or exc.__class__.__name__
+    return " ".join(text.split())
+
+
+def main(argv=None, *, out=None, err=None) -> int:
+    """Run the command line; return the exit status (0, 1 or 2)."""
+    out = out or sys.stdout
+    err = err or sys.stderr
+    parser = build_parser()
+    try:
+        a = parser.parse_args(argv)
+    except _UsageError as exc:
+        err.write(f"{_one_line(exc)} (see pathgen --help)\n")
+        return EXIT_BAD
+    except SystemExit as exc:  # --help and --version exit 0 through argparse
+        return int(exc.code or 0)
+    if a.command is None:
+        parser.print_help(out)
+        return EXIT_BAD
+    from .errors import PathgenError
+
+    try:
+        return _commands()[a.command](a, out, err)
+    except (PathgenError, OSError) as exc:
+        err.write(f"pathgen {a.command}: error: {_one_line(exc)}\n")
+        return EXIT_BAD
+    except KeyboardInterrupt:
+        err.write(f"pathgen {a.command}: interrupted\n")
+        return 130

@@ -1,0 +1,337 @@
+"""The whole job in one call: read → fit → check → toolpath → write.
+
+:func:`run` is the one place that wires pathgen's stages in order; the
+command line is a thin layer over it.  Each stage is a pure function of
+the previous stage's value, and :class:`Result` keeps every value so a
+notebook can look at any of them.
+
+Lengths are mm inside.  With ``units="inch"`` the points *and every length
+option* (tool diameter, tolerance, depths, seam, smoothing) are read as
+inches and feeds as inch/min; they are converted to mm at this boundary.
+
+Nothing is written unless asked for (``gcode=``, ``dxf=``, ``report=``,
+``plot=``).  Before any file is written, every target is checked: an
+existing file is refused unless ``force=True``, so a refused run leaves
+no file behind, and each writer writes atomically.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from ._options import MM_PER_INCH, SIDES, UNITS, check_option, check_positive
+from .errors import InputError, PathgenError
+
+__all__ = ["run", "Result", "MOVES", "LEADS", "contour_facts"]
+
+MOVES = ("arcs", "lines")
+LEADS = ("arc", "line", "none")
+POINT_SUFFIXES = (".csv", ".txt", ".xy", ".dxf")
+
+
+@dataclass(frozen=True, eq=False)
+class Result:
+    """What :func:`run` made.
+
+    Attributes
+    ----------
+    source : the points file's path, or ``"<array>"``.
+    outline : the cleaned input (``pathgen.points.Outline``), or None when
+        the input stage is not available.
+    contour : the fitted :class:`pathgen.spline.Contour` (mm).
+    report : the machinability report (``pathgen.checks.report.CheckReport``)
+        or None when not checked.
+    toolpath : the :class:`pathgen.path.model.Toolpath`, or None when no
+        program or tool path was asked for.
+    files : kind ("gcode", "dxf", "report", "report_text", "plot") → path written.
+    facts : plain numbers about the contour (see :func:`contour_facts`).
+    timings : stage → wall seconds.
+    """
+
+    source: str
+    outline: object
+    contour: object
+    report: object = None
+    toolpath: object = None
+    files: dict = field(default_factory=dict)
+    facts: dict = field(default_factory=dict)
+    timings: dict = field(default_factory=dict)
+
+    @property
+    def tool_cannot_reach(self) -> bool:
+        """True when the report says the tool cannot cut some spot as drawn."""
+        return bool(getattr(self.report, "tool_cannot_reach", False))
+
+    @property
+    def status(self) -> int:
+        """0: done; 1: done, but the tool cannot reach some spot."""
+        return 1 if self.tool_cannot_reach else 0
+
+
+def contour_facts(contour, *, per_piece: int = 8) -> dict:
+    """Points, closedness, length and the smallest radius of a contour.
+
+    The curvature is sampled ``per_piece`` times on every cubic piece
+    (sorted parameters, so no piece search); the smallest radius is
+    ``1 / max |κ|`` over those samples, with its place (x, y) and its
+    arc-length position ``s`` from the start, all in mm.
+
+    >>> from pathgen.spline import fit
+    >>> import numpy as np
+    >>> a = np.linspace(0, 2 * np.pi, 64, endpoint=False)
+    >>> f = contour_facts(fit(np.c_[10 * np.cos(a), 10 * np.sin(a)], closed=True))
+    >>> f["closed"], round(f["length"], 3), round(f["min_radius"], 3)
+    (True, 62.832, 10.0)
+    """
+    import numpy as np
+
+    b = np.asarray(contour.breaks)
+    u = np.arange(per_piece) / per_piece
+    t = (b[:-1, None] + np.diff(b)[:, None] * u).ravel()
+    if not contour.closed:
+        t = np.append(t, b[-1])
+    k = np.abs(contour.curvature(t))
+    i = int(np.argmax(k))
+    kmax = float(k[i])
+    xy = contour(t[i : i + 1])[0]
+    return {
+        "points": int(len(contour.points)),
+        "closed": bool(contour.closed),
+        "pieces": int(contour.pieces),
+        "corners": len(contour.corners),
+        "length": float(contour.length),
+        "min_radius": (1.0 / kmax) if kmax > 0 else math.inf,
+        "min_radius_at": [float(xy[0]), float(xy[1])],
+        "min_radius_s": float(contour.arc_length(t[i : i + 1])[0]),
+    }
+
+
+def _import(module: str):
+    """A later stage's module, or None while it does not exist yet."""
+    import importlib
+
+    try:
+        return importlib.import_module(module)
+    except ModuleNotFoundError as exc:
+        if exc.name == module:
+            return None
+        raise
+
+
+def _read_plain(path: Path):
+    """Read ``x,y`` rows (comments ``#``, one optional header) as mm.
+
+    Only used while :mod:`pathgen.points` is not available.
+    """
+    import numpy as np
+
+    rows = []
+    header_seen = False
+    try:
+        text = path.read_text(encoding="utf-8-sig")
+    except UnicodeDecodeError:
+        raise InputError(f"{path}: not a text file (not UTF-8)") from None
+    for lineno, line in enumerate(text.splitlines(), 1):
+        s = line.strip()
+        if not s or s.startswith("#"):
+            continue
+        parts = [p for p in s.replace(";", ",").replace("\t", ",").replace(" ", ",").split(",") if p]
+        try:
+            vals = [float(p) for p in parts[:2]]
+        except ValueError:
+            if not rows and not header_seen:
+                header_seen = True
+                continue
+            raise InputError(f"{path}:{lineno}: not a pair of numbers: {s[:60]!r}") from None
+        if len(vals) < 2 or not all(map(math.isfinite, vals)):
+            raise InputError(f"{path}:{lineno}: need two finite numbers, got {s[:60]!r}")
+        rows.append(vals)
+    if len(rows) < 2:
+        raise InputError(f"{path}: needs at least 2 points, found {len(rows)}")
+    return np.asarray(rows, dtype=np.float64)
+
+
+def _check_targets(targets: dict, force: bool) -> dict:
+    """Resolve output paths; refuse existing files unless ``force``."""
+    out = {}
+    for kind, p in targets.items():
+        if p is None:
+            continue
+        p = Path(p)
+        if p.exists() and not force:
+            raise InputError(f"{p}: file exists; pass force=True (--force) to overwrite it")
+        if p.is_dir():
+            raise InputError(f"{p}: is a folder, not a file name")
+        if not p.parent.is_dir():
+            raise InputError(f"{p.parent}: no such folder for the output {p.name}")
+        out[kind] = p
+    return out
+
+
+def _length(name, value, scale, *, allow_zero=False):
+    if value is None:
+        return None
+    return check_positive(name, value, allow_zero=allow_zero) * scale
+
+
+def run(
+    points,
+    *,
+    closed=None,
+    end: str = "not-a-knot",
+    param: str = "chord",
+    units: str = "mm",
+    smooth=None,
+    corner_angle=None,
+    layer=None,
+    machine=None,
+    tool_diameter=None,
+    feed=None,
+    accel=None,
+    side: str = "outside",
+    tolerance: float = 0.01,
+    moves: str = "arcs",
+    depth=None,
+    step_down=None,
+    safe_height=None,
+    seam=None,
+    lead: str = "arc",
+    gcode=None,
+    dxf=None,
+    report=None,
+    plot=None,
+    force: bool = False,
+    progress=None,
+) -> Result:
+    """Run the whole job on a points file or an (n, 2) array.
+
+    Parameters
+    ----------
+    points : str, Path or array-like (n, 2)
+        A points file (.csv .txt .xy .dxf) or the points themselves.
+    closed : bool or None
+        None: decided by the input (a repeated first point closes it).
+    end, param : the fit's end condition and parametrization
+        (see :func:`pathgen.spline.fit`).
+    units : {"mm", "inch"}
+        Units of the points and of every length option (feeds per minute).
+    smooth : float or None
+        Smoothing tolerance (units): the contour stays within it of every
+        point.  None interpolates the points exactly.
+    corner_angle : float or None
+        Turning angle (degrees) above which a point is a sharp corner;
+        None for the input stage's default.
+    layer : str or None
+        DXF input: the layer holding the outline.
+    machine : str, Path, Machine or None
+        A machine profile (TOML file) or object; None for the defaults.
+    tool_diameter, feed, accel : float or None
+        Override the tool diameter (units), programmed feed (units/min) and
+        machine acceleration (units/s²).
+    side : {"outside", "inside", "on"}
+    tolerance : float
+        Chord tolerance (units): the written moves stay within it of the
+        exact tool-center curve.
+    moves : {"arcs", "lines"}
+    depth, step_down, safe_height : float or None
+        Total cut depth, depth per pass, clearance height (units).
+    seam : (x, y) or None
+        Start a closed cut at the contour point nearest to (x, y).
+    lead : {"arc", "line", "none"}
+    gcode, dxf, report, plot : path or None
+        Files to write.  ``report`` names the JSON report; a text version
+        is written beside it with the suffix ``.txt``.
+    force : bool
+        Overwrite existing files.
+    progress : callable(str) or None
+        Called with each stage's name as it starts (for long work).
+
+    Returns
+    -------
+    Result
+    """
+    check_option("units", units, UNITS)
+    check_option("side", side, SIDES)
+    check_option("moves", moves, MOVES)
+    check_option("lead", lead, LEADS)
+    scale = MM_PER_INCH if units == "inch" else 1.0
+    tol_mm = check_positive("tolerance", tolerance) * scale
+    tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
+    smooth_mm = _length("smooth", smooth, scale)
+    if seam is not None:
+        try:
+            sx, sy = (float(v) * scale for v in seam)
+        except (TypeError, ValueError):
+            raise InputError(f"seam must be two numbers x,y, got {seam!r}") from None
+        if not (math.isfinite(sx) and math.isfinite(sy)):
+            raise InputError(f"seam must be finite, got {seam!r}")
+        seam = (sx, sy)
+    targets = _check_targets({"gcode": gcode, "dxf": dxf, "report": report, "plot": plot}, force)
+    if "report" in targets:
+        txt = targets["report"].with_suffix(".txt")
+        targets.update(_check_targets({"report_text": txt}, force))
+
+    timings = {}
+    note = progress or (lambda stage: None)
+
+    def timed(stage, fn, *a, **kw):
+        note(stage)
+        t0 = time.perf_counter()
+        value = fn(*a, **kw)
+        timings[stage] = time.perf_counter() - t0
+        return value
+
+    # -- read ----------------------------------------------------------------
+    if isinstance(points, (str, os.PathLike)):
+        source = str(points)
+        path = Path(points)
+        if not path.is_file():
+            raise InputError(f"{path}: no such file")
+        if path.suffix.lower() not in POINT_SUFFIXES:
+            raise InputError(f"{path}: unknown kind of points file; use one of {', '.join(POINT_SUFFIXES)}")
+    else:
+        source, path = "<array>", None
+    pts_mod = _import("pathgen.points")
+    outline = None
+    if pts_mod is not None:
+        if path is not None:
+            kw = {"units": units}
+            if layer is not None:
+                kw["layer"] = layer
+            outline = timed("read", pts_mod.read_points, path, **kw)
+        else:
+            outline = timed("read", pts_mod.clean_points, points, units=units)
+        xy = outline.points
+    elif path is not None:
+        if layer is not None or path.suffix.lower() == ".dxf":
+            raise InputError(f"{path}: DXF input is not available in this build")
+        xy = timed("read", _read_plain, path) * scale
+    else:
+        from .spline import as_points
+
+        xy = as_points(points) * scale
+
+    # -- fit -----------------------------------------------------------------
+    out_mod = _import("pathgen.outline")
+    if out_mod is not None and outline is not None:
+        kw = {"end": end, "param": param}
+        if closed is not None:
+            kw["closed"] = closed
+        if smooth_mm is not None:
+            kw["smooth"] = smooth_mm
+        if corner_angle is not None:
+            kw["corner_angle"] = corner_angle
+        contour = timed("fit", out_mod.fit_outline, outline, **kw)
+    else:
+        if smooth_mm is not None or corner_angle is not None:
+            raise InputError("smoothing and corner detection are not available in this build")
+        from .spline import fit
+
+        contour = timed("fit", fit, xy, closed=closed, end=end, param=param)
+
+    facts = timed("facts", contour_facts, contour)
+    return Result(source, outline, contour, facts=facts, timings=timings, files={})
