@@ -3,15 +3,21 @@
 All lengths in mm, feeds in mm/min, acceleration in mm/s², block rate in
 blocks per second.  Defaults are conservative (a small hobby router):
 they under-promise rather than over-promise what a machine can do.
+:func:`load_machine` reads a profile from a TOML file (``samples/router.toml``
+and ``samples/mill.toml`` are documented examples).
 """
 
 from __future__ import annotations
 
+import math
+import re
 from dataclasses import dataclass
+from pathlib import Path
 
-from .._options import SIDES, check_option, check_positive
+from .._options import MM_PER_INCH, SIDES, UNITS, check_option, check_positive
+from ..errors import InputError
 
-__all__ = ["Machine", "Tool", "Cut", "DEFAULT_MACHINE"]
+__all__ = ["Machine", "Tool", "Cut", "DEFAULT_MACHINE", "load_machine"]
 
 
 @dataclass(frozen=True)
@@ -68,3 +74,121 @@ class Cut:
 
 
 DEFAULT_MACHINE = Machine()
+
+
+_NUMERIC_FIELDS = ("max_feed", "max_accel", "block_rate", "rapid_feed")
+_KEYS = _NUMERIC_FIELDS + ("name", "units")
+
+
+def _toml_line(text: str, key: str) -> int | None:
+    """1-based line of ``key = ...`` in TOML text (None when not found)."""
+    pattern = re.compile(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=")
+    for number, line in enumerate(text.splitlines(), start=1):
+        if pattern.match(line):
+            return number
+    return None
+
+
+def _read_toml(path: Path) -> tuple[dict, str]:
+    try:
+        import tomllib
+    except ModuleNotFoundError:  # pragma: no cover - Python 3.10
+        import tomli as tomllib
+    try:
+        raw = path.read_bytes()
+    except FileNotFoundError:
+        raise InputError(f"{path}: no such machine profile") from None
+    except OSError as exc:
+        raise InputError(f"{path}: cannot read machine profile ({exc.strerror})") from None
+    try:
+        text = raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        raise InputError(f"{path}: not UTF-8 text (byte {exc.start})") from None
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise InputError(f"{path}: not valid TOML: {exc}") from None
+    return data, text
+
+
+def load_machine(path=None, **overrides) -> Machine:
+    """A :class:`Machine` from a TOML profile, with keyword overrides.
+
+    Parameters
+    ----------
+    path : str, Path or None
+        A TOML file with any of the keys ``name`` (text), ``units`` ("mm"
+        or "inch": the unit of the numbers in the file), ``max_feed``
+        (units/min), ``max_accel`` (units/s²), ``block_rate`` (blocks/s)
+        and ``rapid_feed`` (units/min).  Missing keys take the defaults of
+        :class:`Machine`; unknown keys are refused (a typo would silently
+        fall back to a default).  None: the defaults only.
+    **overrides
+        ``max_feed``, ``max_accel``, ``block_rate``, ``rapid_feed`` (always
+        mm and minutes/seconds) or ``name``; a value of None is ignored, so
+        unset command-line options can be passed straight through.
+
+    Returns
+    -------
+    Machine
+        Lengths in mm.
+
+    Raises
+    ------
+    InputError
+        Unreadable file, invalid TOML, unknown key, or a value that is not
+        a finite number > 0; the message names the file, line and key.
+
+    Examples
+    --------
+    >>> load_machine(max_accel=800).max_accel
+    800.0
+    >>> load_machine(accel=800)
+    Traceback (most recent call last):
+    ...
+    pathgen.errors.InputError: unknown machine setting 'accel'; valid: max_feed, max_accel, block_rate, rapid_feed, name
+    """
+    values: dict = {}
+    if path is not None:
+        path = Path(path)
+        data, text = _read_toml(path)
+
+        def where(key):
+            line = _toml_line(text, key)
+            return f"{path}, line {line}" if line else f"{path}"
+
+        for key, value in data.items():
+            if key not in _KEYS:
+                valid = ", ".join(_KEYS)
+                raise InputError(f"{where(key)}: unknown key {key!r}; valid keys: {valid}")
+        units = data.get("units", "mm")
+        if units not in UNITS:
+            raise InputError(f"{where('units')}: units = {units!r} is not one of: 'mm', 'inch'")
+        scale = MM_PER_INCH if units == "inch" else 1.0
+        if "name" in data:
+            if not isinstance(data["name"], str):
+                raise InputError(f"{where('name')}: name must be text, got {data['name']!r}")
+            values["name"] = data["name"]
+        for key in _NUMERIC_FIELDS:
+            if key not in data:
+                continue
+            value = data[key]
+            bad = isinstance(value, bool) or not isinstance(value, (int, float))
+            if bad or not (math.isfinite(value) and value > 0):
+                raise InputError(
+                    f"{where(key)}: {key} must be a finite number > 0, got {value!r}"
+                )
+            values[key] = float(value) * (1.0 if key == "block_rate" else scale)
+    for key, value in overrides.items():
+        if key not in _NUMERIC_FIELDS + ("name",):
+            valid = ", ".join(_NUMERIC_FIELDS + ("name",))
+            raise InputError(f"unknown machine setting {key!r}; valid: {valid}")
+        if value is None:
+            continue
+        if key == "name":
+            values["name"] = str(value)
+        else:
+            if isinstance(value, bool):
+                raise InputError(f"{key} must be a finite number > 0, got {value!r}")
+            values[key] = check_positive(key, value)
+    return Machine(**values)
