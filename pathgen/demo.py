@@ -52,17 +52,34 @@ PARTS = {
     "hook": (True, "hanger plate with a 4 mm wire slot (inner radius 2 mm)"),
 }
 
-# A machine profile for a small router, used when the checks' own sample
-# profile (samples/router.toml) is not at hand.  Feeds mm/min,
-# acceleration mm/s^2, block rate blocks/s.
+# A copy of samples/router.toml (the machine profile sample), so that an
+# installed pathgen can write it too; a test keeps the two the same.
 ROUTER_TOML = """\
-# A small hobby router (invented figures, within common practice).
+# Machine profile: a small gantry router (an invented example for pathgen).
+# Load it with `pathgen ... --machine samples/router.toml` or
+# pathgen.load_machine("samples/router.toml").  Every key is optional: a
+# missing key takes pathgen's conservative default (shown in brackets).
+# Unknown keys are refused, so a typo cannot slip through.
+# These numbers are examples, not your machine: take yours from its manual.
+
 name = "small router"
+
+# Unit of the lengths below: "mm" or "inch".  Feeds are per minute,
+# acceleration per second squared.  ["mm"]
 units = "mm"
-max_feed = 3000.0
-max_accel = 500.0
-block_rate = 250.0
-rapid_feed = 5000.0
+
+# Highest cutting feed the machine runs, mm/min.  [3000]
+max_feed = 4000.0
+
+# Path acceleration limit, mm/s², used both for speeding up along the path
+# and for the centripetal acceleration v²/R on curves.  [500]
+max_accel = 300.0
+
+# Motion blocks (G-code lines) the controller processes per second.  [250]
+block_rate = 400.0
+
+# Rapid traverse speed, mm/min (for the cycle-time estimate).  [5000]
+rapid_feed = 8000.0
 """
 
 

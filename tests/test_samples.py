@@ -102,3 +102,9 @@ def test_bracket_dent_is_within_reach():
 def test_unknown_part_is_refused():
     with pytest.raises(ValueError, match="part='gear' is not one of"):
         demo.make_part("gear")
+
+
+def test_embedded_router_profile_is_the_sample():
+    # demo writes ROUTER_TOML when samples/ is not at hand (installed package):
+    # it must stay a copy of samples/router.toml.
+    assert demo.ROUTER_TOML == (SAMPLES / "router.toml").read_text()
