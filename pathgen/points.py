@@ -1,0 +1,537 @@
+"""Reading and cleaning outline points.
+
+:func:`read_points` reads a text file (.csv, .txt, .xy, any other suffix
+but .dxf) or a DXF drawing and returns an :class:`Outline`;
+:func:`clean_points` applies the same cleaning to a numpy array.
+
+Text files
+    One point per line, ``x`` and ``y`` separated by a comma, a semicolon,
+    a tab or spaces.  Allowed around the numbers: one header row (the first
+    non-comment line, when it is not numeric), comment lines starting with
+    ``#``, blank lines, a UTF-8 byte-order mark, CRLF line ends, quotes
+    around fields.  A third column (z) is ignored and the steps say so.
+    Decimal commas (``12,5;3,75``) are read when the column separator is a
+    semicolon, a tab or spaces, which makes them unambiguous; with commas
+    between the columns they are refused, never guessed.
+
+DXF drawings (read with ezdxf)
+    POINT entities in drawing order, or the vertices of one LWPOLYLINE or
+    POLYLINE (its closed flag gives closedness).  When the drawing holds
+    more than one candidate outline, name its layer (``layer=``).
+
+Cleaning, each step recorded in ``Outline.steps``
+    inch converted to mm; consecutive repeated points (closer than
+    ``MERGE_RTOL`` times the outline's size) merged; a last point repeating
+    the first closes the outline and is dropped; closed outlines given
+    clockwise are reversed to counter-clockwise.  Refused with
+    :class:`~pathgen.errors.InputError`: fewer than 2 distinct points,
+    non-finite values, coordinates beyond ``MAX_COORD_MM``, closed outlines
+    whose points all lie on one line.  Warned about (``Outline.warnings``):
+    a jump much longer than the typical spacing, a closed outline that
+    crosses itself.
+"""
+
+from __future__ import annotations
+
+import io
+import os
+import re
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ._options import MM_PER_INCH, UNITS, check_option
+from .errors import InputError
+
+__all__ = [
+    "Outline",
+    "read_points",
+    "clean_points",
+    "MERGE_RTOL",
+    "MAX_COORD_MM",
+    "JUMP_RATIO",
+    "MAX_LINE_CHARS",
+]
+
+#: Consecutive points closer than this times the outline's size (its
+#: bounding-box diagonal) are merged: 0.1 µm on a 100 mm part.
+MERGE_RTOL = 1e-6
+#: Coordinates beyond ±1 km (in mm) are refused as absurd.
+MAX_COORD_MM = 1e6
+#: A step longer than this many times the median step is reported.
+JUMP_RATIO = 10.0
+#: Longest line accepted in a text file of points (characters).
+MAX_LINE_CHARS = 1000
+
+_NUMBER = re.compile(r"^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$")
+_SPECIAL = re.compile(r"^[+-]?(nan|inf|infinity)$", re.IGNORECASE)
+
+
+@dataclass(frozen=True, eq=False)
+class Outline:
+    """Cleaned outline points, ready to fit.
+
+    Attributes
+    ----------
+    points : (n, 2) float64, mm, read-only
+        The kept points in order (counter-clockwise when closed).
+    closed : bool
+        Whether the outline returns to its first point.
+    source : str
+        File name, or "array".
+    units : {"mm", "inch"}
+        The units of the input (``points`` are always mm).
+    steps : tuple of str
+        The reading and cleaning steps taken, plain sentences.
+    warnings : tuple of str
+        Things the user should look at (possible disorder, self-crossing).
+    line_numbers : (n,) int array or None
+        The file line (1-based) of each kept point; None for arrays and DXF.
+    """
+
+    points: np.ndarray
+    closed: bool
+    source: str = "array"
+    units: str = "mm"
+    steps: tuple = ()
+    warnings: tuple = ()
+    line_numbers: np.ndarray | None = field(default=None)
+
+    def __post_init__(self):
+        self.points.setflags(write=False)
+        if self.line_numbers is not None:
+            self.line_numbers.setflags(write=False)
+
+    def __len__(self):
+        return len(self.points)
+
+    def where(self, i: int) -> str:
+        """Where point ``i`` came from: "part.csv line 7" or "point 7"."""
+        if self.line_numbers is not None:
+            return f"{self.source} line {int(self.line_numbers[i])}"
+        return f"{self.source} point {int(i)}"
+
+
+# -- text files ---------------------------------------------------------------
+
+
+def _fail(name: str, line: int | None, message: str):
+    where = f"{name} line {line}" if line is not None else name
+    raise InputError(f"{where}: {message}")
+
+
+def _decode(raw: bytes, name: str) -> str:
+    """Bytes to text; refuse binary data and very long lines, naming the line."""
+    if raw.startswith(b"\xef\xbb\xbf"):
+        raw = raw[3:]
+    buf = np.frombuffer(raw, dtype=np.uint8)
+    control = (buf < 32) & (buf != 9) & (buf != 10) & (buf != 13) | (buf == 127)
+    if control.any():
+        at = int(np.argmax(control))
+        line = raw.count(b"\n", 0, at) + 1
+        what = "a NUL byte" if buf[at] == 0 else f"control byte 0x{buf[at]:02x}"
+        _fail(name, line, f"holds {what}: this is not a text file of points")
+    ends = np.flatnonzero(buf == 10)
+    lengths = np.diff(ends, prepend=-1, append=len(buf)) - 1
+    if len(lengths) and lengths.max() > MAX_LINE_CHARS:
+        i = int(np.argmax(lengths > MAX_LINE_CHARS))
+        _fail(name, i + 1, f"line is {int(lengths[i])} bytes long (at most "
+              f"{MAX_LINE_CHARS}): this is not a file of points")
+    try:
+        return raw.decode("utf-8")
+    except UnicodeDecodeError as exc:
+        line = raw.count(b"\n", 0, exc.start) + 1
+        _fail(name, line, f"byte 0x{raw[exc.start]:02x} is not UTF-8 text: "
+                          "this is not a text file of points")
+
+
+def _split(line: str, sep: str | None) -> list[str]:
+    parts = line.split(sep) if sep is not None else line.split()
+    return [p.strip().strip('"').strip("'").strip() for p in parts]
+
+
+def _layout(line: str, number: int, name: str):
+    """Column separator and decimal mark implied by one point line.
+
+    Returns (sep, decimal): sep is ";", "\t", "," or None (spaces);
+    decimal is "," when decimal commas are possible, else None.
+    """
+    if ";" in line:
+        return ";", ","
+    if "\t" in line:
+        return "\t", ","
+    if "," in line:
+        if re.search(r"\d,\d", line) and re.search(r"\d +[+\-.\d]", line) \
+                and not re.search(r",\s", line):
+            return None, ","  # "12,5 3,75": spaces between the columns
+        if re.search(r"\d,\d", line) and len(line.split(",")) == 4:
+            _fail(name, number, f"{line!r} has 4 comma-separated values: decimal "
+                  "commas cannot be told from column separators; use ';' or a tab "
+                  "between the columns, or '.' as the decimal mark")
+        return ",", None
+    return None, ","
+
+
+def _same_layout(a, b) -> bool:
+    return a == b or {a, b} <= {None, "\t"}
+
+
+def _is_number(tok: str) -> bool:
+    return bool(_NUMBER.match(tok) or _SPECIAL.match(tok))
+
+
+def _parse_line(line: str, number: int, name: str, sep, decimal, ncols):
+    toks = _split(line, sep)
+    if decimal == ",":
+        toks = [t.replace(",", ".") for t in toks]
+    for t in toks:
+        if not _is_number(t):
+            what = repr(t) if t else "an empty field"
+            _fail(name, number, f"{what} is not a number")
+    if ncols is not None and len(toks) != ncols:
+        _fail(name, number, f"{len(toks)} values, expected {ncols} like the first "
+              "point line (mixed separators or a missing value?)")
+    return [float(t) for t in toks]
+
+
+def _read_text(path: str, name: str):
+    try:
+        with open(path, "rb") as f:
+            raw = f.read()
+    except OSError as exc:
+        raise InputError(f"{name}: cannot read the file ({exc.strerror})") from None
+    text = _decode(raw, name)
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    n_lines = text.count("\n") + (0 if text.endswith("\n") or not text else 1)
+    steps = []
+    # scan the first lines: the first content line is a header when it holds
+    # no number at all
+    header = first = None
+    pos = i = 0
+    while pos < len(text):
+        nl = text.find("\n", pos)
+        nl = len(text) if nl < 0 else nl
+        s = text[pos:nl].strip()
+        if s and not s.startswith("#"):
+            if header is None:
+                sep, dec = _layout(s, i + 1, name)
+                toks = _split(s, sep)
+                if not any(_is_number(t) or _is_number(t.replace(",", ".")) for t in toks):
+                    header = (i, s)
+                    pos, i = nl + 1, i + 1
+                    continue
+            first, fl = i, s
+            break
+        pos, i = nl + 1, i + 1
+    if first is None:
+        if header is not None:
+            _fail(name, header[0] + 1, "a header and no points after it")
+        _fail(name, None, "no points (the file is empty or holds only comments)")
+    sep, dec = _layout(fl, first + 1, name)
+    ncols = len(_parse_line(fl, first + 1, name, sep, dec, None))
+    if ncols not in (2, 3):
+        _fail(name, first + 1, f"{ncols} value{'s' if ncols > 1 else ''}, expected "
+              "x y (or x y z) on each line")
+    if header is not None:
+        steps.append(f"skipped the header on line {header[0] + 1}: {header[1]!r}")
+    body = text[pos:]
+    decimal_commas = dec == "," and "," in body
+    if decimal_commas:
+        body = body.replace(",", ".")
+    if '"' in body or "'" in body:
+        body = body.replace('"', "").replace("'", "")
+    data = None
+    try:
+        data = np.loadtxt(io.StringIO(body), delimiter=sep, comments="#", ndmin=2,
+                          dtype=np.float64)
+    except ValueError:
+        pass
+    if data is not None and data.shape == (n_lines - first, ncols):
+        numbers = np.arange(first + 1, n_lines + 1)
+    else:
+        # careful pass, line by line: name the bad line, or number each point
+        lines = text.split("\n")
+        rows, nums = [], []
+        for i in range(first, len(lines)):
+            s = lines[i].strip()
+            if not s or s.startswith("#"):
+                continue
+            lsep, _ = _layout(s, i + 1, name)
+            if not _same_layout(lsep, sep) and ncols > 1:
+                names = {";": "';'", ",": "','", "\t": "tabs", None: "spaces"}
+                _fail(name, i + 1, f"{s!r} is separated by {names[lsep]}, but line "
+                      f"{first + 1} by {names[sep]} (mixed separators)")
+            rows.append(_parse_line(s, i + 1, name, sep, dec, ncols))
+            nums.append(i + 1)
+        data = np.array(rows, dtype=np.float64).reshape(-1, ncols)
+        numbers = np.array(nums, dtype=np.int64)
+    skipped = n_lines - len(data) - (header is not None)
+    sep_name = {";": "semicolons", ",": "commas", "\t": "tabs", None: "spaces"}[sep]
+    steps.insert(0, f"read {len(data)} points from {name} (lines {numbers[0]}-"
+                    f"{numbers[-1]}, columns separated by {sep_name})")
+    if decimal_commas:
+        steps.append("read decimal commas as decimal points (the columns are not "
+                     "separated by commas)")
+    if skipped > 0:
+        steps.append(f"skipped {skipped} comment or blank line{'s' if skipped > 1 else ''}")
+    if ncols == 3:
+        steps.append("ignored the third column (z) on every line")
+    return data[:, :2], numbers, steps
+
+
+# -- DXF drawings -------------------------------------------------------------
+
+
+def _read_dxf(path: str, name: str, layer):
+    import ezdxf
+
+    try:
+        doc = ezdxf.readfile(path)
+    except Exception as exc:  # OSError for non-DXF text, ezdxf's structure errors
+        msg = str(exc).splitlines()[0] if str(exc) else type(exc).__name__
+        msg = msg.replace(f"'{path}'", repr(name))
+        raise InputError(f"{name}: not a readable DXF drawing ({msg})") from None
+    msp = doc.modelspace()
+    candidates = []  # (layer, description, points, closed)
+    points_by_layer: dict[str, list] = {}
+    for e in msp:
+        kind = e.dxftype()
+        lay = e.dxf.get("layer", "0")
+        if kind == "POINT":
+            loc = e.dxf.location
+            points_by_layer.setdefault(lay, []).append((loc.x, loc.y))
+        elif kind == "LWPOLYLINE":
+            pts = np.array([(v[0], v[1]) for v in e.get_points("xy")], dtype=np.float64)
+            bulge = any(abs(v[4]) > 0 for v in e.get_points("xyseb"))
+            candidates.append((lay, f"LWPOLYLINE {e.dxf.handle}", pts, bool(e.closed), bulge))
+        elif kind == "POLYLINE" and (e.is_2d_polyline or e.is_3d_polyline):
+            pts = np.array([(v.dxf.location.x, v.dxf.location.y) for v in e.vertices],
+                           dtype=np.float64).reshape(-1, 2)
+            bulge = any(abs(v.dxf.get("bulge", 0.0)) > 0 for v in e.vertices)
+            candidates.append((lay, f"POLYLINE {e.dxf.handle}", pts, bool(e.is_closed), bulge))
+    for lay, pts in points_by_layer.items():
+        candidates.append((lay, f"{len(pts)} POINT entities", np.array(pts, dtype=np.float64),
+                           None, False))
+    if layer is not None:
+        layers = sorted({c[0] for c in candidates})
+        candidates = [c for c in candidates if c[0] == layer]
+        if not candidates:
+            listed = ", ".join(repr(x) for x in layers) or "none"
+            raise InputError(f"{name}: no points or polylines on layer {layer!r} "
+                             f"(layers with outlines: {listed})")
+    if not candidates:
+        raise InputError(f"{name}: no POINT, LWPOLYLINE or POLYLINE entities in the "
+                         "model space: nothing to read as an outline")
+    if len(candidates) > 1:
+        listed = "; ".join(f"{c[1]} on layer {c[0]!r}" for c in candidates[:8])
+        more = f" and {len(candidates) - 8} more" if len(candidates) > 8 else ""
+        fix = ("choose one with layer= (--layer)" if len({c[0] for c in candidates}) > 1
+               else "keep one outline per layer")
+        raise InputError(f"{name}: {len(candidates)} candidate outlines ({listed}{more}): {fix}")
+    lay, what, pts, closed, bulge = candidates[0]
+    steps = [f"read {len(pts)} points from {name} ({what} on layer {lay!r})"]
+    warnings = []
+    if bulge:
+        warnings.append(f"{name}: the polyline has arc segments (bulges); only its "
+                        "vertices are used, the arcs between them are not")
+    insunits = doc.header.get("$INSUNITS", 0)
+    return pts, closed, steps, warnings, {1: "inch", 4: "mm"}.get(insunits)
+
+
+def read_points(path, *, units: str = "mm", layer=None, closed=None) -> Outline:
+    """Read outline points from a text file or a DXF drawing.
+
+    Parameters
+    ----------
+    path : str or os.PathLike
+        A text file of points (.csv, .txt, .xy, ...) or a .dxf drawing.
+    units : {"mm", "inch"}
+        Units of the coordinates in the file; converted to mm.
+    layer : str or None
+        DXF only: the layer of the outline to read when there are several.
+    closed : bool or None
+        None: closed when the last point repeats the first (text files) or
+        the polyline's closed flag is set (DXF).  True/False forces it.
+
+    Returns
+    -------
+    Outline
+
+    Raises
+    ------
+    InputError
+        With the file name and line: ``"part.csv line 7: 'abc' is not a number"``.
+    """
+    check_option("units", units, UNITS)
+    path = os.fspath(path)
+    name = os.path.basename(path)
+    if not os.path.isfile(path):
+        raise InputError(f"{name}: no such file ({path})")
+    if path.lower().endswith(".dxf"):
+        pts, dxf_closed, steps, warnings, declared = _read_dxf(path, name, layer)
+        if declared is not None and declared != units:
+            warnings.append(f"{name} declares its units as {declared} ($INSUNITS) but "
+                            f"units={units!r} was given; read as {units}")
+        if closed is None:
+            closed = dxf_closed
+        return clean_points(pts, closed=closed, units=units, source=name,
+                            steps=steps, warnings=warnings)
+    if layer is not None:
+        raise InputError(f"{name}: layer= applies to DXF drawings only")
+    pts, numbers, steps = _read_text(path, name)
+    return clean_points(pts, closed=closed, units=units, source=name,
+                        line_numbers=numbers, steps=steps)
+
+
+# -- cleaning -----------------------------------------------------------------
+
+
+def clean_points(points, *, closed=None, units: str = "mm", source: str = "array",
+                 line_numbers=None, steps=(), warnings=(), merge_tol=None,
+                 check_crossing: bool = True) -> Outline:
+    """Validate and clean outline points given as an array.
+
+    Parameters
+    ----------
+    points : array-like, shape (n, 2)
+        Ordered points along the outline, in ``units``.
+    closed : bool or None
+        None: closed when the last point repeats the first.
+    units : {"mm", "inch"}
+        Units of ``points``; the Outline holds mm.
+    source : str
+        Name used in messages ("array" or a file name).
+    line_numbers : (n,) ints or None
+        File line of each point, for messages.
+    steps, warnings : sequences of str
+        Steps and warnings so far (from reading), kept in front.
+    merge_tol : float or None
+        Distance (mm) under which consecutive points are merged; default
+        ``MERGE_RTOL`` times the outline's size.
+    check_crossing : bool
+        Warn when a closed outline crosses itself (shapely ``is_simple``).
+
+    Returns
+    -------
+    Outline
+
+    Examples
+    --------
+    >>> o = clean_points([[0, 0], [0, 1], [1, 1], [1, 0], [0, 0]])
+    >>> o.closed, len(o), o.points[1].tolist()
+    (True, 4, [1.0, 0.0])
+    >>> o.steps[-1]
+    'the points ran clockwise: reversed to counter-clockwise'
+    """
+    check_option("units", units, UNITS)
+    steps, warnings = list(steps), list(warnings)
+    try:
+        p = np.array(points, dtype=np.float64, order="C", copy=True)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{source}: points must be an (n, 2) array of numbers: {exc}") from None
+    if p.ndim != 2 or p.shape[1] != 2:
+        raise InputError(f"{source}: points must have shape (n, 2), got {p.shape}")
+    if line_numbers is not None:
+        nums = np.array(line_numbers, dtype=np.int64).reshape(-1)
+    else:
+        nums = None
+
+    def where(i):
+        if nums is not None:
+            return f"{source} line {int(nums[i])}"
+        return f"{source} point {int(i)}"
+
+    def label(i):
+        return where(i).rsplit(" ", 2)[-2] + " " + where(i).rsplit(" ", 1)[-1]
+
+    if len(p) == 0:
+        raise InputError(f"{source}: no points")
+    bad = ~np.isfinite(p)
+    if bad.any():
+        i = int(np.argmax(bad.any(axis=1)))
+        raise InputError(f"{where(i)}: {p[i].tolist()} is not a finite number "
+                         "(NaN or infinity)")
+    if units == "inch":
+        p *= MM_PER_INCH
+        steps.append("converted inch to mm (x 25.4)")
+    big = np.abs(p) > MAX_COORD_MM
+    if big.any():
+        i = int(np.argmax(big.any(axis=1)))
+        v = float(p[i][big[i]][0])
+        raise InputError(f"{where(i)}: coordinate {v:.6g} mm is absurd (beyond "
+                         f"±{MAX_COORD_MM:.0f} mm = 1 km); check the units and columns")
+    size = float(np.hypot(*(p.max(axis=0) - p.min(axis=0))))
+    tol = MERGE_RTOL * size if merge_tol is None else float(merge_tol)
+    # merge consecutive repeats (repeat until no close pair remains)
+    while len(p) > 1:
+        d = np.hypot(*np.diff(p, axis=0).T)
+        drop = np.flatnonzero(d <= tol) + 1
+        if not len(drop):
+            break
+        count = len(drop)
+        shown = ", ".join(where(i).rsplit(" ", 1)[-1] for i in drop[:5])
+        label = "lines" if nums is not None else "points"
+        more = f" and {count - 5} more" if count > 5 else ""
+        steps.append(f"merged {count} repeated point{'s' if count > 1 else ''} into the "
+                     f"point before (closer than {tol:.3g} mm; {label} {shown}{more})")
+        keep = np.ones(len(p), bool)
+        keep[drop] = False
+        p = p[keep]
+        if nums is not None:
+            nums = nums[keep]
+    if len(p) < 2:
+        raise InputError(f"{source}: only 1 distinct point ({where(0)}, "
+                         f"{len(points)} given); an outline needs at least 2")
+    repeats = len(p) > 2 and float(np.hypot(*(p[-1] - p[0]))) <= tol
+    if closed is None:
+        closed = repeats
+    closed = bool(closed)
+    if closed and repeats:
+        steps.append(f"the last point ({where(len(p) - 1)}) repeats the first: "
+                     "the outline is closed; dropped the repeat")
+        p = p[:-1]
+        if nums is not None:
+            nums = nums[:-1]
+    elif closed:
+        steps.append("closed the outline (from the last point back to the first)")
+    if closed and len(p) < 3:
+        raise InputError(f"{source}: a closed outline needs at least 3 distinct points, "
+                         f"got {len(p)}")
+    if closed:
+        c = p - p.mean(axis=0)
+        # distance of every point from the best line through them (principal axis)
+        _, _, vt = np.linalg.svd(c, full_matrices=False)
+        off = np.abs(c @ vt[1])
+        if off.max() <= max(tol, 1e-12 * size):
+            raise InputError(f"{source}: all {len(p)} points of the closed outline lie on "
+                             "one straight line: it encloses no area")
+        x, y = p[:, 0] - p[0, 0], p[:, 1] - p[0, 1]
+        area = 0.5 * float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
+        if area < 0:
+            order = np.concatenate([[0], np.arange(len(p) - 1, 0, -1)])
+            p = p[order]
+            if nums is not None:
+                nums = nums[order]
+            steps.append("the points ran clockwise: reversed to counter-clockwise")
+    # warnings: jumps and self-crossing
+    q = np.vstack([p, p[:1]]) if closed else p
+    d = np.hypot(*np.diff(q, axis=0).T)
+    if len(d) >= 4:
+        med = float(np.median(d))
+        jumps = np.flatnonzero(d > JUMP_RATIO * med)
+        if len(jumps):
+            i = int(jumps[np.argmax(d[jumps])])
+            j = (i + 1) % len(p)
+            n_more = f" ({len(jumps)} such gaps)" if len(jumps) > 1 else ""
+            warnings.append(
+                f"{where(i)}: a gap of {d[i]:.4g} mm to the next point ({label(j)}), "
+                f"{d[i] / med:.0f}x the median spacing {med:.4g} mm{n_more}; check that "
+                "the points are in order along the outline (a long straight edge is fine)")
+    if closed and check_crossing and len(p) >= 4:
+        import shapely
+
+        if not shapely.is_simple(shapely.linearrings(p)):
+            warnings.append(f"{source}: the closed outline crosses itself")
+    return Outline(points=p, closed=closed, source=source, units=units,
+                   steps=tuple(steps), warnings=tuple(warnings), line_numbers=nums)
