@@ -340,8 +340,11 @@ def main(argv=None, *, out=None, err=None) -> int:
     out = out or sys.stdout
     err = err or sys.stderr
     parser = build_parser()
+    import contextlib
+
     try:
-        a = parser.parse_args(argv)
+        with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+            a = parser.parse_args(argv)
     except _UsageError as exc:
         err.write(f"{_one_line(exc)} (see pathgen --help)\n")
         return EXIT_BAD

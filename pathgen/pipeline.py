@@ -299,13 +299,11 @@ def run(
     outline = None
     if pts_mod is not None:
         if path is not None:
-            kw = {"units": units}
-            if layer is not None:
-                kw["layer"] = layer
-            outline = timed("read", pts_mod.read_points, path, **kw)
+            outline = timed("read", pts_mod.read_points, path, units=units, layer=layer, closed=closed)
         else:
-            outline = timed("read", pts_mod.clean_points, points, units=units)
+            outline = timed("read", pts_mod.clean_points, points, units=units, closed=closed)
         xy = outline.points
+        closed = outline.closed
     elif path is not None:
         if layer is not None or path.suffix.lower() == ".dxf":
             raise InputError(f"{path}: DXF input is not available in this build")

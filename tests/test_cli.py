@@ -1,0 +1,196 @@
+"""The command line: help, usage errors, exit codes, output on every sample.
+
+Most tests call ``pathgen.cli.main([...])`` in-process (fast); a few run
+the real ``python -m pathgen`` in a subprocess.
+"""
+
+from __future__ import annotations
+
+import io
+import json
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+
+from pathgen.cli import CAUTION, main
+
+ROOT = Path(__file__).resolve().parent.parent
+SAMPLES = ROOT / "samples"
+SAMPLE_CSV = sorted(SAMPLES.glob("*.csv"))
+BAD = sorted((ROOT / "tests" / "data" / "bad").glob("*"))
+COMMANDS = ("check", "gcode", "dxf", "plot", "demo", "batch")
+SHARED = (
+    "--closed", "--open", "--end", "--param", "--units", "--smooth", "--corner-angle",
+    "--tolerance", "--moves", "--tool-diameter", "--side", "--feed", "--accel", "--machine",
+    "--depth", "--step-down", "--safe-height", "--seam", "--lead", "--force", "--json", "--quiet",
+)
+
+
+def call(*args):
+    """Run main in-process; return (status, stdout, stderr)."""
+    out, err = io.StringIO(), io.StringIO()
+    status = main([str(a) for a in args], out=out, err=err)
+    return status, out.getvalue(), err.getvalue()
+
+
+def rows_of(path: Path) -> np.ndarray:
+    """Independent reading of a sample file ('#' comments, 'x,y' header)."""
+    lines = [ln for ln in path.read_text().splitlines() if ln and not ln.startswith("#")][1:]
+    return np.array([[float(v) for v in ln.split(",")] for ln in lines])
+
+
+def assert_one_line_error(status, out, err, *, names=None):
+    """Exit 2, exactly one line on stderr, no traceback, nothing on stdout."""
+    assert status == 2, (status, out, err)
+    assert err.endswith("\n") and err.count("\n") == 1, err
+    assert "Traceback" not in err
+    assert out == ""
+    if names is not None:
+        assert names in err, err
+
+
+# -- help, version, speed of import -------------------------------------------
+def test_cli_module_imports_no_heavy_library():
+    # `pathgen --help` must stay fast: the heavy libraries load lazily
+    # (each costs 0.2-1.2 s to import on this kind of machine; measured in
+    # benchmarks/e2e.py, never asserted as a time here).
+    code = (
+        "import sys, pathgen.cli, pathgen.__main__;"
+        "print(sorted(m for m in ('numpy','scipy','ezdxf','matplotlib','shapely') if m in sys.modules))"
+    )
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, cwd=ROOT, check=True)
+    assert out.stdout.strip() == "[]"
+
+
+def test_help_lists_every_command_with_an_example():
+    status, out, err = call("--help")
+    assert status == 0 and err == ""
+    for name in COMMANDS:
+        assert name in out
+    assert "example:" in out and "exit status" in out
+    assert CAUTION in " ".join(out.split())
+
+
+@pytest.mark.parametrize("command", COMMANDS)
+def test_every_command_help_is_complete(command):
+    status, out, err = call(command, "--help")
+    assert status == 0 and err == ""
+    assert f"example:\n  pathgen {command}" in out
+    flat = " ".join(out.split())
+    assert CAUTION in flat
+    for option in SHARED:
+        assert option in out, option
+    if command not in ("check", "demo"):
+        assert "-o " in out and "--output" in out
+
+
+def test_version():
+    import pathgen
+
+    status, out, _ = call("--version")
+    assert status == 0 and out.strip() == f"pathgen {pathgen.__version__}"
+
+
+# -- usage errors: one line, exit 2 ---------------------------------------------
+@pytest.mark.parametrize(
+    "args, says",
+    [
+        (["check"], "POINTS"),
+        (["frobnicate"], "frobnicate"),
+        (["check", "samples/plate.csv", "--moves", "curves"], "--moves"),
+        (["check", "samples/plate.csv", "--seam", "3"], "--seam"),
+        (["check", "samples/plate.csv", "--tolerance", "fine"], "--tolerance"),
+        (["check", "samples/plate.csv", "--closed", "--open"], "--open"),
+        (["check", "samples/plate.csv", "--bogus"], "--bogus"),
+    ],
+)
+def test_usage_errors(args, says):
+    assert_one_line_error(*call(*args), names=says)
+
+
+def test_no_command_prints_help_and_fails():
+    status, out, err = call()
+    assert status == 2 and "COMMAND" in out
+
+
+@pytest.mark.parametrize(
+    "args, says",
+    [
+        (["check", "no/such/file.csv"], "no/such/file.csv"),
+        (["check", str(SAMPLES / "plate.csv"), "--tolerance", "-1"], "tolerance"),
+        (["check", str(SAMPLES / "plate.csv"), "--tool-diameter", "nan"], "tool diameter"),
+        (["check", str(SAMPLES / "plate.csv"), "--seam", "inf,0"], "seam"),
+        (["check", str(SAMPLES / "router.toml")], "router.toml"),
+    ],
+)
+def test_bad_values_are_one_line_errors(args, says):
+    assert_one_line_error(*call(*args), names=says)
+
+
+# -- check on every sample ----------------------------------------------------------
+@pytest.mark.parametrize("path", SAMPLE_CSV, ids=lambda p: p.name)
+def test_check_json_on_every_sample(path):
+    status, out, err = call("check", path, "--json")
+    assert status in (0, 1)
+    data = json.loads(out)  # stdout is pure JSON
+    facts = data["contour"]
+    p = rows_of(path)
+    closed = bool(np.array_equal(p[0], p[-1]))
+    assert facts["closed"] == closed
+    assert facts["points"] == len(p) - closed
+    # A curve through the points is at least as long as the polygon through
+    # them (the straight segment is the shortest path); dense smooth samples
+    # exceed it only slightly.
+    q = np.vstack([p[:-1], p[:1]]) if closed else p
+    polygon = float(np.sum(np.hypot(*np.diff(q, axis=0).T)))
+    assert polygon <= facts["length"] <= 1.01 * polygon
+    assert 0 < facts["min_radius"]
+
+
+@pytest.mark.parametrize("path", SAMPLE_CSV, ids=lambda p: p.name)
+def test_check_text_on_every_sample(path):
+    status, out, err = call("check", path)
+    assert status in (0, 1)
+    assert out.startswith(f"{path}: ")
+    assert "smallest radius" in out and "length" in out
+    assert CAUTION in out
+
+
+def test_check_quiet_and_json_keep_stdout_clean():
+    path = SAMPLES / "bracket.csv"
+    assert call("check", path, "--quiet")[1] == ""
+    status, out, err = call("check", path, "--json")
+    json.loads(out)
+    assert CAUTION not in out
+
+
+def test_check_is_deterministic_in_a_subprocess():
+    cmd = [sys.executable, "-m", "pathgen", "check", "samples/bracket.csv", "--json"]
+    a = subprocess.run(cmd, capture_output=True, cwd=ROOT, check=False)
+    b = subprocess.run(cmd, capture_output=True, cwd=ROOT, check=False)
+    assert a.returncode in (0, 1)
+    assert a.stdout == b.stdout and len(a.stdout) > 100
+
+
+def test_bad_input_in_a_subprocess_has_no_traceback():
+    bad = ROOT / "tests" / "data" / "bad" / "nan.csv"
+    r = subprocess.run([sys.executable, "-m", "pathgen", "check", str(bad)],
+                       capture_output=True, text=True, cwd=ROOT, check=False)
+    assert r.returncode == 2 and r.stdout == ""
+    assert r.stderr.count("\n") == 1 and "nan.csv" in r.stderr and "Traceback" not in r.stderr
+
+
+# -- the bad-input corpus through every command -------------------------------------
+@pytest.mark.skipif(not BAD, reason="bad-input corpus tests/data/bad/ not present")
+@pytest.mark.parametrize("command", ["check", "gcode", "dxf", "plot"])
+@pytest.mark.parametrize("bad", BAD, ids=lambda p: p.name)
+def test_bad_corpus_through_every_command(bad, command, tmp_path):
+    args = [command, bad]
+    if command != "check":
+        suffix = {"gcode": ".nc", "dxf": ".dxf", "plot": ".png"}[command]
+        args += ["-o", tmp_path / f"out{suffix}", "--tool-diameter", "6"]
+    assert_one_line_error(*call(*args), names=bad.name)
+    assert list(tmp_path.iterdir()) == []  # no output file, no temporary file
