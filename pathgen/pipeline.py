@@ -122,39 +122,6 @@ def _import(module: str):
         raise
 
 
-def _read_plain(path: Path):
-    """Read ``x,y`` rows (comments ``#``, one optional header) as mm.
-
-    Only used while :mod:`pathgen.points` is not available.
-    """
-    import numpy as np
-
-    rows = []
-    header_seen = False
-    try:
-        text = path.read_text(encoding="utf-8-sig")
-    except UnicodeDecodeError:
-        raise InputError(f"{path}: not a text file (not UTF-8)") from None
-    for lineno, line in enumerate(text.splitlines(), 1):
-        s = line.strip()
-        if not s or s.startswith("#"):
-            continue
-        parts = [p for p in s.replace(";", ",").replace("\t", ",").replace(" ", ",").split(",") if p]
-        try:
-            vals = [float(p) for p in parts[:2]]
-        except ValueError:
-            if not rows and not header_seen:
-                header_seen = True
-                continue
-            raise InputError(f"{path}:{lineno}: not a pair of numbers: {s[:60]!r}") from None
-        if len(vals) < 2 or not all(map(math.isfinite, vals)):
-            raise InputError(f"{path}:{lineno}: need two finite numbers, got {s[:60]!r}")
-        rows.append(vals)
-    if len(rows) < 2:
-        raise InputError(f"{path}: needs at least 2 points, found {len(rows)}")
-    return np.asarray(rows, dtype=np.float64)
-
-
 def _check_targets(targets: dict, force: bool) -> dict:
     """Resolve output paths; refuse existing files unless ``force``."""
     out = {}
@@ -295,27 +262,17 @@ def run(
             raise InputError(f"{path}: unknown kind of points file; use one of {', '.join(POINT_SUFFIXES)}")
     else:
         source, path = "<array>", None
-    pts_mod = _import("pathgen.points")
-    outline = None
-    if pts_mod is not None:
-        if path is not None:
-            outline = timed("read", pts_mod.read_points, path, units=units, layer=layer, closed=closed)
-        else:
-            outline = timed("read", pts_mod.clean_points, points, units=units, closed=closed)
-        xy = outline.points
-        closed = outline.closed
-    elif path is not None:
-        if layer is not None or path.suffix.lower() == ".dxf":
-            raise InputError(f"{path}: DXF input is not available in this build")
-        xy = timed("read", _read_plain, path) * scale
-    else:
-        from .spline import as_points
+    from .points import clean_points, read_points
 
-        xy = as_points(points) * scale
+    if path is not None:
+        outline = timed("read", read_points, path, units=units, layer=layer, closed=closed)
+    else:
+        outline = timed("read", clean_points, points, units=units, closed=closed)
+    closed = outline.closed
 
     # -- fit -----------------------------------------------------------------
     out_mod = _import("pathgen.outline")
-    if out_mod is not None and outline is not None:
+    if out_mod is not None:
         kw = {"end": end, "param": param}
         if closed is not None:
             kw["closed"] = closed
@@ -329,7 +286,7 @@ def run(
             raise InputError("smoothing and corner detection are not available in this build")
         from .spline import fit
 
-        contour = timed("fit", fit, xy, closed=closed, end=end, param=param)
+        contour = timed("fit", fit, outline.points, closed=closed, end=end, param=param)
 
     facts = timed("facts", contour_facts, contour)
     return Result(source, outline, contour, facts=facts, timings=timings, files={})
