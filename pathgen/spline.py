@@ -42,6 +42,10 @@ __all__ = ["fit", "Contour", "ENDS", "PARAMS", "as_points", "parameters"]
 ENDS = ("not-a-knot", "natural", "clamped")
 PARAMS = ("chord", "centripetal", "uniform")
 
+# Evaluation works in chunks that stay in the processor's cache.
+_PIECE_CHUNK = 2048
+_POINT_CHUNK = 16384
+
 # Gauss-Legendre nodes and weights on [0, 1] for arc length.
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(10)
 _GL_X = (_GL_X + 1.0) / 2.0
@@ -62,31 +66,37 @@ def as_points(points, name: str = "points") -> np.ndarray:
         raise InputError(f"{name} must have shape (n, 2), got {p.shape}")
     if len(p) < 2:
         raise InputError(f"{name} needs at least 2 points, got {len(p)}")
-    bad = ~np.isfinite(p).all(axis=1)
-    if bad.any():
-        i = int(np.argmax(bad))
+    if not np.isfinite(p).all():
+        i = int(np.argmax(~np.isfinite(p).all(axis=1)))
         raise InputError(f"{name} row {i} is not finite: {p[i].tolist()}")
     return p
 
 
-def _size(p: np.ndarray) -> float:
+def _columns(p: np.ndarray):
+    """x and y of (n, 2) points as two contiguous 1-D arrays."""
+    return np.ascontiguousarray(p[:, 0]), np.ascontiguousarray(p[:, 1])
+
+
+def _size(x: np.ndarray, y: np.ndarray) -> float:
     """The outline's size: its bounding-box diagonal."""
-    return float(np.hypot(*(p.max(axis=0) - p.min(axis=0))))
+    return float(np.hypot(x.max() - x.min(), y.max() - y.min()))
 
 
-def parameters(p: np.ndarray, param: str, closed: bool) -> np.ndarray:
-    """Breaks t_0 = 0 < t_1 < ... for points ``p`` (closed: n+1 values)."""
-    check_option("param", param, PARAMS)
-    q = np.vstack([p, p[:1]]) if closed else p
-    d = np.diff(q, axis=0)
-    dist = np.hypot(d[:, 0], d[:, 1])
-    tiny = dist <= CLOSE_RTOL * max(_size(p), np.finfo(float).tiny)
-    if tiny.any():
-        i = int(np.argmax(tiny))
-        j = (i + 1) % len(p)
-        raise InputError(
-            f"points rows {i} and {j} coincide ({p[i].tolist()}): remove repeated points"
-        )
+def _steps(x, y, closed):
+    """Coordinate differences between consecutive points (closed: wrapping)."""
+    if closed:
+        x = np.concatenate([x, x[:1]])
+        y = np.concatenate([y, y[:1]])
+    return x, y, np.diff(x), np.diff(y)
+
+
+def _breaks(dx, dy, param, size):
+    """Breaks from the steps; raise naming the first coincident pair."""
+    dist = np.sqrt(dx * dx + dy * dy)
+    tol = CLOSE_RTOL * max(size, np.finfo(float).tiny)
+    if (dist <= tol).any():
+        i = int(np.argmax(dist <= tol))
+        return None, (i, i + 1)
     if param == "chord":
         h = dist
     elif param == "centripetal":
@@ -96,7 +106,23 @@ def parameters(p: np.ndarray, param: str, closed: bool) -> np.ndarray:
     t = np.empty(len(h) + 1)
     t[0] = 0.0
     np.cumsum(h, out=t[1:])
+    return t, None
+
+
+def parameters(p: np.ndarray, param: str, closed: bool) -> np.ndarray:
+    """Breaks t_0 = 0 < t_1 < ... for points ``p`` (closed: n+1 values)."""
+    check_option("param", param, PARAMS)
+    x, y = _columns(p)
+    _, _, dx, dy = _steps(x, y, closed)
+    t, clash = _breaks(dx, dy, param, _size(x, y))
+    if clash is not None:
+        _coincide(p, *clash)
     return t
+
+
+def _coincide(p, i, j):
+    j = j % len(p)
+    raise InputError(f"points rows {i} and {j} coincide ({p[i].tolist()}): remove repeated points")
 
 
 def _tridiag_solve(dl, d, du, b):
@@ -111,96 +137,111 @@ def _tridiag_solve(dl, d, du, b):
     return x
 
 
-def _moments(t: np.ndarray, y: np.ndarray, end: str, closed: bool, tangents) -> np.ndarray:
-    """Second derivatives M_j at the breaks, shape (len(t), 2)."""
-    h = np.diff(t)
+def _moments(h: np.ndarray, slopes, end: str, closed: bool, tangents) -> np.ndarray:
+    """Second derivatives M_j at the breaks, shape (2, len(h) + 1).
+
+    ``slopes`` are the two coordinates' divided differences (Δy/h per piece).
+    """
     n = len(h)  # intervals
-    slope = np.diff(y, axis=0) / h[:, None]
-    M = np.zeros((n + 1, 2))
+    M = np.zeros((2, n + 1))
     if closed:
         hm = np.concatenate([h[-1:], h[:-1]])  # h_{j-1}, wrapped
-        s_prev = np.concatenate([slope[-1:], slope[:-1]])
-        lam = h / (hm + h)
+        hs = hm + h
+        lam = h / hs
         mu = 1.0 - lam
-        rhs = 6.0 * (slope - s_prev) / (hm + h)[:, None]
-        # cyclic: row j has mu_j at j-1, 2 at j, lam_j at j+1 (indices mod n)
+        # cyclic: row j has mu_j at j-1, 2 at j, lam_j at j+1 (indices mod n);
+        # Sherman-Morrison with u = (γ, 0, …, α), v = (1, 0, …, β/γ)
         beta = mu[0]  # A[0, n-1]
         alpha = lam[-1]  # A[n-1, 0]
         gamma = -2.0
         d = np.full(n, 2.0)
         d[0] -= gamma
         d[-1] -= alpha * beta / gamma
-        b = np.empty((n, 3), order="F")
-        b[:, :2] = rhs
-        b[:, 2] = 0.0
+        b = np.zeros((n, 3), order="F")
+        for k, sl in enumerate(slopes):
+            np.subtract(sl[1:], sl[:-1], out=b[1:, k])
+            b[0, k] = sl[0] - sl[-1]
+            b[:, k] *= 6.0 / hs
         b[0, 2] = gamma
         b[-1, 2] = alpha
         x = _tridiag_solve(mu[1:].copy(), d, lam[:-1].copy(), b)
-        ys, z = x[:, :2], x[:, 2]
-        vz = z[0] + beta / gamma * z[-1]
-        vy = ys[0] + beta / gamma * ys[-1]
-        M[:n] = ys - np.outer(z, vy / (1.0 + vz))
-        M[n] = M[0]
+        z = x[:, 2]
+        factor = beta / gamma
+        vz = z[0] + factor * z[-1]
+        for k in range(2):
+            vy = x[0, k] + factor * x[-1, k]
+            M[k, :n] = x[:, k] - (vy / (1.0 + vz)) * z
+        M[:, n] = M[:, 0]
         return M
     if n == 1:
         if end == "clamped":
-            d0, d1 = tangents
-            r = np.array([(slope[0] - d0) * 6.0 / h[0], (d1 - slope[0]) * 6.0 / h[0]])
-            M[:] = np.linalg.solve(np.array([[2.0, 1.0], [1.0, 2.0]]), r)
+            r = np.array([[(sl[0] - tg) * 6.0 / h[0], (tg2 - sl[0]) * 6.0 / h[0]]
+                          for sl, tg, tg2 in zip(slopes, tangents[0], tangents[1])])
+            M[:] = np.linalg.solve(np.array([[2.0, 1.0], [1.0, 2.0]]), r.T).T
         return M  # natural and not-a-knot: the straight line
     hl, hr = h[:-1], h[1:]
     lam = hr / (hl + hr)
     mu = 1.0 - lam
+    six_over = 6.0 / (hl + hr)
+    if end == "clamped":
+        b = np.empty((n + 1, 2), order="F")
+        for k, sl in enumerate(slopes):
+            np.subtract(sl[1:], sl[:-1], out=b[1:n, k])
+            b[1:n, k] *= six_over
+            b[0, k] = 6.0 / h[0] * (sl[0] - tangents[0][k])
+            b[n, k] = 6.0 / h[-1] * (tangents[1][k] - sl[-1])
+        d = np.full(n + 1, 2.0)
+        du = np.empty(n)
+        dl = np.empty(n)
+        du[0] = 1.0
+        du[1:] = lam
+        dl[-1] = 1.0
+        dl[:-1] = mu
+        M[:] = _tridiag_solve(dl, d, du, b).T
+        return M
     rhs = np.empty((n - 1, 2), order="F")
-    np.multiply(slope[1:] - slope[:-1], (6.0 / (hl + hr))[:, None], out=rhs)
+    for k, sl in enumerate(slopes):
+        np.subtract(sl[1:], sl[:-1], out=rhs[:, k])
+        rhs[:, k] *= six_over
     if end == "not-a-knot" and n == 2:
-        M[:] = rhs[0] / 3.0  # the parabola: constant second derivative
+        M[:] = (rhs[0] / 3.0)[:, None]  # the parabola: constant second derivative
         return M
+    d = np.full(n - 1, 2.0)
+    du = lam[:-1].copy()
+    dl = mu[1:].copy()
     if end == "natural":
-        M[1:n] = _tridiag_solve(mu[1:].copy(), np.full(n - 1, 2.0), lam[:-1].copy(), rhs)
+        M[:, 1:n] = _tridiag_solve(dl, d, du, rhs).T
         return M
-    if end == "not-a-knot":
-        d = np.full(n - 1, 2.0)
-        du = lam[:-1].copy()
-        dl = mu[1:].copy()
-        r0 = h[0] / h[1]
-        r1 = h[-1] / h[-2]
-        d[0] = 2.0 + r0
-        d[-1] = 2.0 + r1
-        du[0] = 1.0 - r0
-        dl[-1] = 1.0 - r1
-        inner = _tridiag_solve(dl, d, du, rhs)
-        M[1:n] = inner
-        M[0] = ((h[0] + h[1]) * inner[0] - h[0] * inner[1]) / h[1]
-        M[n] = ((h[-2] + h[-1]) * inner[-1] - h[-1] * inner[-2]) / h[-2]
-        return M
-    # clamped: full (n+1)-row system with the two end rows
-    d0, d1 = tangents
-    d = np.full(n + 1, 2.0)
-    du = np.empty(n)
-    dl = np.empty(n)
-    du[0] = 1.0
-    du[1:] = lam
-    dl[-1] = 1.0
-    dl[:-1] = mu
-    b = np.empty((n + 1, 2), order="F")
-    b[1:n] = rhs
-    b[0] = 6.0 / h[0] * (slope[0] - d0)
-    b[n] = 6.0 / h[-1] * (d1 - slope[-1])
-    return _tridiag_solve(dl, d, du, b)
+    # not-a-knot: eliminate h1 M0 - (h0+h1) M1 + h0 M2 = 0 and its mirror
+    r0 = h[0] / h[1]
+    r1 = h[-1] / h[-2]
+    d[0] = 2.0 + r0
+    d[-1] = 2.0 + r1
+    du[0] = 1.0 - r0
+    dl[-1] = 1.0 - r1
+    inner = _tridiag_solve(dl, d, du, rhs)
+    M[:, 1:n] = inner.T
+    M[:, 0] = ((h[0] + h[1]) * inner[0] - h[0] * inner[1]) / h[1]
+    M[:, n] = ((h[-2] + h[-1]) * inner[-1] - h[-1] * inner[-2]) / h[-2]
+    return M
 
 
-def _coefficients(t, y, M) -> np.ndarray:
-    """Power-form coefficients, shape (4, m, 2), highest power first."""
-    h = np.diff(t)[:, None]
-    c = np.empty((4, len(h), 2))
-    np.subtract(M[1:], M[:-1], out=c[0])
-    c[0] /= 6.0 * h
-    np.multiply(M[:-1], 0.5, out=c[1])
-    np.subtract(y[1:], y[:-1], out=c[2])
-    c[2] /= h
-    c[2] -= h * (2.0 * M[:-1] + M[1:]) / 6.0
-    c[3] = y[:-1]
+def _coefficients(h, ys, slopes, M) -> np.ndarray:
+    """Power-form coefficients per coordinate, shape (2, 4, m), highest power first."""
+    m = len(h)
+    c = np.empty((2, 4, m))
+    for k in range(2):
+        Mk = M[k]
+        np.subtract(Mk[1:], Mk[:-1], out=c[k, 0])
+        c[k, 0] /= 6.0 * h
+        np.multiply(Mk[:-1], 0.5, out=c[k, 1])
+        # b = Δy/h − h(2M_i + M_{i+1})/6
+        np.multiply(Mk[:-1], 2.0, out=c[k, 2])
+        c[k, 2] += Mk[1:]
+        c[k, 2] *= h
+        c[k, 2] *= -1.0 / 6.0
+        c[k, 2] += slopes[k]
+        c[k, 3] = ys[k][:m]
     return c
 
 
@@ -240,15 +281,17 @@ def fit(points, *, closed=None, end: str = "not-a-knot", param: str = "chord", t
     p = as_points(points)
     check_option("end", end, ENDS)
     check_option("param", param, PARAMS)
-    size = _size(p)
-    repeats = bool(np.hypot(*(p[-1] - p[0])) <= CLOSE_RTOL * max(size, np.finfo(float).tiny))
+    x, y = _columns(p)
+    size = _size(x, y)
+    repeats = bool(np.hypot(x[-1] - x[0], y[-1] - y[0]) <= CLOSE_RTOL * max(size, np.finfo(float).tiny))
     if closed is None:
         closed = repeats and len(p) > 2
     closed = bool(closed)
     if closed and repeats:
-        p = p[:-1]
+        p, x, y = p[:-1], x[:-1], y[:-1]
     if closed and len(p) < 3:
         raise InputError(f"a closed outline needs at least 3 distinct points, got {len(p)}")
+    tan = None
     if end == "clamped" and not closed:
         if tangents is None:
             raise InputError('end="clamped" needs tangents=(start_vector, end_vector)')
@@ -260,13 +303,15 @@ def fit(points, *, closed=None, end: str = "not-a-knot", param: str = "chord", t
             raise InputError(f"tangents must be two finite 2-vectors, got shape {tan.shape}")
         if (np.hypot(tan[:, 0], tan[:, 1]) == 0).any():
             raise InputError("tangents must not be zero vectors (a clamped end needs a direction)")
-    else:
-        tan = None
-    t = parameters(p, param, closed)
-    y = np.vstack([p, p[:1]]) if closed else p
-    M = _moments(t, y, end, closed, tan)
-    c = _coefficients(t, y, M)
-    return Contour(t, c, closed, p, end="periodic" if closed else end, param=param)
+    xs, ys_, dx, dy = _steps(x, y, closed)
+    t, clash = _breaks(dx, dy, param, size)
+    if clash is not None:
+        _coincide(p, *clash)
+    h = np.diff(t)
+    slopes = (dx / h, dy / h)
+    M = _moments(h, slopes, end, closed, tan)
+    c = _coefficients(h, (xs, ys_), slopes, M)
+    return Contour(t, c.transpose(1, 2, 0), closed, _readonly(p), end="periodic" if closed else end, param=param)
 
 
 def _readonly(a) -> np.ndarray:
@@ -304,10 +349,22 @@ class Contour:
     info: dict = field(default_factory=dict)
 
     def __post_init__(self):
-        _readonly(self.breaks)
-        _readonly(self.coefficients)
-        _readonly(self.points)
-        object.__setattr__(self, "corners", tuple(int(i) for i in self.corners))
+        breaks = np.ascontiguousarray(self.breaks, dtype=np.float64)
+        coef = np.asarray(self.coefficients, dtype=np.float64)
+        if breaks.ndim != 1 or coef.shape != (4, len(breaks) - 1, 2):
+            raise InputError(
+                f"a contour needs breaks (m+1,) and coefficients (4, m, 2), got {breaks.shape} and {coef.shape}"
+            )
+        # stored per coordinate, (2, 4, m) contiguous: evaluation gathers
+        # contiguous rows; ``coefficients`` is a (4, m, 2) view of the same memory
+        per_coord = _readonly(np.ascontiguousarray(coef.transpose(2, 0, 1)))
+        set_ = object.__setattr__
+        set_(self, "breaks", _readonly(breaks))
+        set_(self, "coefficients", per_coord.transpose(1, 2, 0))
+        pts = np.asarray(self.points, dtype=np.float64)
+        set_(self, "points", pts if not pts.flags.writeable else _readonly(pts.copy()))
+        set_(self, "corners", tuple(int(i) for i in self.corners))
+        self.__dict__["_c"] = per_coord
 
     def __repr__(self):
         kind = "closed" if self.closed else "open"
@@ -326,40 +383,78 @@ class Contour:
     def domain(self) -> tuple[float, float]:
         return float(self.breaks[0]), float(self.breaks[-1])
 
+    def _wrap(self, t: np.ndarray) -> np.ndarray:
+        """Closed contours: map t into [t0, t1] (only when some t lies outside)."""
+        if self.closed and t.size:
+            t0, t1 = self.breaks[0], self.breaks[-1]
+            if t.min() < t0 or t.max() > t1:
+                return t0 + np.mod(t - t0, t1 - t0)
+        return t
+
     def _locate(self, t: np.ndarray):
-        """Wrap (closed) or clip-to-extrapolate (open) t; piece index and offset."""
+        """Piece index and local offset of (wrapped) parameters t."""
+        t = self._wrap(t)
         b = self.breaks
-        if self.closed:
-            t0, t1 = b[0], b[-1]
-            t = t0 + np.mod(t - t0, t1 - t0)
-        flat = t.ravel()
-        if flat.size > 1 and flat.size >= 4 * len(b) and np.all(flat[1:] >= flat[:-1]):
-            # sorted parameters: O(N + m) piece index without a per-point search
-            counts = np.diff(np.searchsorted(flat, b[1:-1], side="right"), prepend=0, append=flat.size)
-            idx = np.repeat(np.arange(len(b) - 1), counts).reshape(t.shape)
-        else:
-            idx = np.clip(np.searchsorted(b, t, side="right") - 1, 0, len(b) - 2)
+        idx = np.clip(np.searchsorted(b, t, side="right") - 1, 0, len(b) - 2)
         return idx, t - b[idx]
+
+    def _poly(self, nu: int):
+        """Per-coordinate Horner coefficients of the nu-th derivative, (2, 4-nu, m)."""
+        key = f"_poly{nu}"
+        cached = self.__dict__.get(key)
+        if cached is None:
+            c = self.__dict__["_c"]
+            scale = {0: (1.0, 1.0, 1.0, 1.0), 1: (3.0, 2.0, 1.0), 2: (6.0, 2.0), 3: (6.0,)}[nu]
+            cached = c[:, : 4 - nu] * np.array(scale)[None, :, None] if nu else c
+            self.__dict__[key] = cached
+        return cached
 
     def __call__(self, t, nu: int = 0) -> np.ndarray:
         """P(t) or its nu-th derivative (nu = 0..3); returns t.shape + (2,).
 
         A closed contour wraps around the seam; an open one extrapolates its
-        end pieces outside the domain.
+        end pieces outside the domain.  At a break the piece to the right
+        is used (the third derivative jumps there).
         """
         if nu not in (0, 1, 2, 3):
             raise InputError(f"nu must be 0, 1, 2 or 3, got {nu!r}")
         t = np.asarray(t, dtype=np.float64)
-        idx, x = self._locate(t)
-        x = x[..., None]
-        c = self.coefficients
-        if nu == 0:
-            return ((c[0][idx] * x + c[1][idx]) * x + c[2][idx]) * x + c[3][idx]
-        if nu == 1:
-            return (3.0 * c[0][idx] * x + 2.0 * c[1][idx]) * x + c[2][idx]
-        if nu == 2:
-            return 6.0 * c[0][idx] * x + 2.0 * c[1][idx]
-        return 6.0 * c[0][idx] + 0.0 * x
+        flat = self._wrap(t.ravel())
+        out = np.empty((flat.size, 2))
+        poly = self._poly(nu)
+        b = self.breaks
+        m = len(b) - 1
+        if flat.size >= 4 * m and flat.size > 1 and not (flat[1:] < flat[:-1]).any():
+            # sorted parameters: each piece's points form one run; expand the
+            # piece coefficients with np.repeat instead of a gather per point
+            first = np.searchsorted(flat, b[1:-1], side="left")
+            bounds = np.concatenate([[0], first, [flat.size]])
+            counts = np.diff(bounds)
+            for a in range(0, m, _PIECE_CHUNK):
+                e = min(a + _PIECE_CHUNK, m)
+                s0, s1 = bounds[a], bounds[e]
+                if s0 == s1:
+                    continue
+                cc = counts[a:e]
+                x = flat[s0:s1] - np.repeat(b[a:e], cc)
+                for k in range(2):
+                    r = np.repeat(poly[k, 0, a:e], cc)
+                    for row in poly[k, 1:]:
+                        r *= x
+                        r += np.repeat(row[a:e], cc)
+                    out[s0:s1, k] = r
+        else:
+            for s0 in range(0, flat.size, _POINT_CHUNK):
+                tc = flat[s0 : s0 + _POINT_CHUNK]
+                idx = np.clip(np.searchsorted(b, tc, side="right") - 1, 0, m - 1)
+                x = tc - b.take(idx)
+                for k in range(2):
+                    r = poly[k, 0].take(idx)
+                    for row in poly[k, 1:]:
+                        r *= x
+                        r += row.take(idx)
+                    out[s0 : s0 + len(tc), k] = r
+        return out.reshape(t.shape + (2,))
 
     def curvature(self, t) -> np.ndarray:
         """Signed curvature κ(t) = (x'y'' - y'x'')/(x'^2 + y'^2)^(3/2), 1/mm.
@@ -395,7 +490,7 @@ class Contour:
         c = self.coefficients
         a3 = 3.0 * c[0][idx][..., None, :]
         a2 = 2.0 * c[1][idx][..., None, :]
-        a1 = c[2][idx][..., None, :]
+        a1 = c[2][idx][..., None, :]  # (…, 1, 2): broadcast over the nodes
         w = np.asarray(x1, float) / sub
         total = np.zeros_like(w)
         for k in range(sub):
