@@ -326,8 +326,102 @@ def _report_path(program):
     return p.with_name(p.stem + ".report.json")
 
 
+def _progress_bar(err, quiet: bool):
+    """A one-line progress bar on stderr, only when it is a terminal."""
+    isatty = getattr(err, "isatty", None)
+    if quiet or not (callable(isatty) and isatty()):
+        return None
+
+    def show(done, total):
+        width = 30
+        fill = int(width * done / max(total, 1))
+        err.write(f"\r[{'#' * fill}{'.' * (width - fill)}] {done}/{total} files")
+        if done == total:
+            err.write("\n")
+        err.flush()
+
+    return show
+
+
+def _table(rows) -> str:
+    """The batch summary table (plain text, fixed columns)."""
+    head = ("file", "length mm", "smallest R mm", "tight spots", "blocks", "est. time", "status")
+
+    def cell(v, fmt):
+        return "-" if v is None else fmt(v)
+
+    body = []
+    for r in rows:
+        body.append((
+            r["file"],
+            cell(r["length"], lambda v: f"{v:.3f}"),
+            cell(r["min_radius"], lambda v: "straight" if v == float("inf") else f"{v:.3f}"),
+            cell(r["tight_spots"], str),
+            cell(r["blocks"], str),
+            cell(r["time"], _fmt_time),
+            r["status"],
+        ))
+    widths = [max(len(head[i]), *(len(b[i]) for b in body)) if body else len(head[i]) for i in range(len(head))]
+    lines = []
+    for row in (head, *body):
+        cells = [row[0].ljust(widths[0])] + [c.rjust(w) for c, w in zip(row[1:-1], widths[1:-1])] + [row[-1]]
+        lines.append("  ".join(cells).rstrip())
+    lines.insert(1, "  ".join("-" * w for w in widths))
+    errors = [f"  {r['file']}: {r['message']}" for r in rows if r["exit"] == 2]
+    if errors:
+        lines += ["", "skipped (bad input):", *errors]
+    return "\n".join(lines) + "\n"
+
+
+def _emit_rows(rows, a, out, err) -> int:
+    import json
+
+    worst = max((r["exit"] for r in rows), default=EXIT_OK)
+    if a.json:
+        clean = [{k: (None if isinstance(v, float) and v in (float("inf"), float("-inf")) else v)
+                  for k, v in r.items()} for r in rows]
+        out.write(json.dumps({"files": clean, "exit": worst}, indent=2, sort_keys=True) + "\n")
+    elif not a.quiet:
+        out.write(_table(rows))
+        done = sum(r["exit"] < 2 for r in rows)
+        out.write(f"{done} of {len(rows)} files done\n")
+    text = not (a.json or a.quiet)
+    (out if text else err).write(CAUTION + "\n")
+    return worst
+
+
+def _cmd_batch(a, out, err) -> int:
+    from .pipeline import points_files, run_batch
+
+    if a.output is None:
+        raise _UsageError("pathgen batch: -o/--output OUTDIR is required")
+    files = points_files(a.directory)
+    if not files:
+        from .errors import InputError
+
+        raise InputError(f"{a.directory}: no points files (.csv .txt .xy .dxf) in this folder")
+    rows = run_batch(a.directory, a.output, jobs=a.jobs, files=files,
+                     progress=_progress_bar(err, a.quiet), **_run_options(a))
+    return _emit_rows(rows, a, out, err)
+
+
+def _cmd_demo(a, out, err) -> int:
+    from .demo import run_demo
+
+    opts = _run_options(a)
+    for key in ("machine", "tool_diameter"):  # demo defaults unless given
+        if opts[key] is None:
+            del opts[key]
+    rows = run_demo(a.directory, progress=_progress_bar(err, a.quiet), **opts)
+    status = _emit_rows(rows, a, out, err)
+    if not (a.json or a.quiet):
+        out.write(f"wrote the samples, router.toml and every output into {a.directory}/\n")
+    return status
+
+
 def _commands():
-    return {"check": _cmd_job, "gcode": _cmd_job, "dxf": _cmd_job, "plot": _cmd_job}
+    return {"check": _cmd_job, "gcode": _cmd_job, "dxf": _cmd_job, "plot": _cmd_job,
+            "batch": _cmd_batch, "demo": _cmd_demo}
 
 
 def _one_line(exc: BaseException) -> str:
@@ -357,6 +451,9 @@ def main(argv=None, *, out=None, err=None) -> int:
 
     try:
         return _commands()[a.command](a, out, err)
+    except _UsageError as exc:
+        err.write(f"{_one_line(exc)} (see pathgen {a.command} --help)\n")
+        return EXIT_BAD
     except (PathgenError, OSError) as exc:
         err.write(f"pathgen {a.command}: error: {_one_line(exc)}\n")
         return EXIT_BAD

@@ -27,7 +27,8 @@ hook
     Closed, points ~1 apart (0.4 around the slot end), noise sigma 0.003.
 
 ``pathgen demo DIR`` writes these files and a machine profile into DIR
-and runs the whole job on them (see :func:`run_demo`).
+and runs the whole job on them (see :func:`run_demo`).  Regenerate
+``samples/`` with ``python -m pathgen.demo samples``.
 
 Examples
 --------
@@ -258,24 +259,62 @@ def _atomic_write(path: Path, text: str) -> None:
             tmp.unlink()
 
 
-def write_samples(directory) -> list[Path]:
-    """Write every sample part as ``DIR/<name>.csv``; return the paths."""
+def _refuse_existing(paths, force: bool) -> None:
+    from .errors import InputError
+
+    if force:
+        return
+    for p in paths:
+        if p.exists():
+            raise InputError(f"{p} already exists; pass force=True (--force) to overwrite it")
+
+
+def write_samples(directory, *, force: bool = False, machine: bool = False) -> list[Path]:
+    """Write every sample part as ``DIR/<name>.csv`` (and, with
+    ``machine=True``, the router profile as ``DIR/router.toml``).
+
+    Existing files are refused (before anything is written) unless
+    ``force``.  Returns the paths written, parts first.
+    """
     d = Path(directory)
+    if d.exists() and not d.is_dir():
+        from .errors import InputError
+
+        raise InputError(f"{d}: exists and is not a folder")
+    texts = {d / f"{name}.csv": sample_text(name) for name in PARTS}
+    if machine:
+        texts[d / "router.toml"] = ROUTER_TOML
+    _refuse_existing(texts, force)
     d.mkdir(parents=True, exist_ok=True)
-    out = []
-    for name in PARTS:
-        path = d / f"{name}.csv"
-        _atomic_write(path, sample_text(name))
-        out.append(path)
-    return out
+    for path, text in texts.items():
+        _atomic_write(path, text)
+    return list(texts)
 
 
-def run_demo(directory, **options):  # filled in below once the pipeline exists
-    raise NotImplementedError
+def run_demo(directory, *, force: bool = False, jobs=None, progress=None, **options) -> list[dict]:
+    """Write the sample parts and a router profile into ``directory`` and
+    run the whole job on each part: program, report, drawing, picture.
+
+    Unless given in ``options``, the job uses the router profile written
+    there and a 6 mm tool, so the hook's 2 mm slot shows a spot the tool
+    cannot reach.  Returns the batch rows (see
+    :func:`pathgen.pipeline.run_batch`).
+    """
+    from .pipeline import OUTPUT_SUFFIXES, run_batch
+
+    d = Path(directory)
+    outputs = tuple(OUTPUT_SUFFIXES)
+    names = [d / f"{n}{suffix}" for n in PARTS for suffix in (*OUTPUT_SUFFIXES.values(), ".report.txt")]
+    _refuse_existing(names, force)
+    paths = write_samples(d, force=force, machine=True)
+    options.setdefault("machine", d / "router.toml")
+    options.setdefault("tool_diameter", 6.0)
+    return run_batch(d, d, files=paths[:-1], jobs=jobs, outputs=outputs, progress=progress,
+                     force=force, **options)
 
 
 if __name__ == "__main__":  # pragma: no cover - regenerate samples/
     import sys
 
-    for p in write_samples(sys.argv[1] if len(sys.argv) > 1 else "samples"):
+    for p in write_samples(sys.argv[1] if len(sys.argv) > 1 else "samples", force=True):
         print(p)

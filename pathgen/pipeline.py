@@ -237,6 +237,21 @@ def run(
         if not (math.isfinite(sx) and math.isfinite(sy)):
             raise InputError(f"seam must be finite, got {seam!r}")
         seam = (sx, sy)
+    from .checks.machine import Cut, Machine, Tool, load_machine
+
+    if gcode is not None and tool_mm is None and side != "on":
+        raise InputError(f"a program cutting {side} the outline needs the tool diameter "
+                         "(tool_diameter=, --tool-diameter), or side='on' (--side on) to follow the line")
+    overrides = {"max_accel": _length("accel", accel, scale)}
+    if isinstance(machine, Machine):
+        mach = load_machine(None, **{**machine.__dict__, **{k: v for k, v in overrides.items() if v}})
+    else:
+        mach = load_machine(machine, **overrides)
+    tool = Tool(tool_mm if tool_mm is not None else 0.0)
+    cut_kw = {"side": side, "tolerance": tol_mm}
+    if feed is not None:
+        cut_kw["feed"] = check_positive("feed", feed) * scale
+    cut = Cut(**cut_kw)
     targets = _check_targets({"gcode": gcode, "dxf": dxf, "report": report, "plot": plot}, force)
     if "report" in targets:
         txt = targets["report"].with_suffix(".txt")
@@ -290,3 +305,117 @@ def run(
 
     facts = timed("facts", contour_facts, contour)
     return Result(source, outline, contour, facts=facts, timings=timings, files={})
+
+
+# -- many files -----------------------------------------------------------------
+#: Outputs :func:`run_batch` can write for each file, with their suffixes.
+OUTPUT_SUFFIXES = {"gcode": ".nc", "report": ".report.json", "dxf": ".dxf", "plot": ".png"}
+
+
+def points_files(directory) -> list[Path]:
+    """The points files (.csv .txt .xy .dxf) of a folder, sorted by name."""
+    d = Path(directory)
+    if not d.is_dir():
+        raise InputError(f"{d}: no such folder")
+    return sorted(p for p in d.iterdir() if p.is_file() and p.suffix.lower() in POINT_SUFFIXES)
+
+
+def _output_stems(files: list[Path]) -> list[str]:
+    """Output names: the stem, or the full name when two stems collide."""
+    from collections import Counter
+
+    count = Counter(p.stem for p in files)
+    return [p.stem if count[p.stem] == 1 else p.name.replace(".", "_") for p in files]
+
+
+def batch_row(result: Result | None, source, *, error: str | None = None) -> dict:
+    """One line of the batch table: file, length, smallest radius, tight
+    spots, blocks, estimated time (s), status and exit code."""
+    row = {"file": str(source), "length": None, "min_radius": None, "tight_spots": None,
+           "blocks": None, "time": None, "status": "error", "exit": 2, "message": error or ""}
+    if result is None:
+        return row
+    rep, tp = result.report, result.toolpath
+    row.update(length=result.facts["length"], min_radius=result.facts["min_radius"])
+    spots = getattr(rep, "tight_spots", None)
+    if spots is not None:
+        row["tight_spots"] = len(spots)
+    if tp is not None:
+        row["blocks"] = int(tp.block_count)
+        row["time"] = float(tp.time) if tp.time else None
+    if row["time"] is None and rep is not None:
+        t = getattr(rep, "cycle_time", None)
+        row["time"] = float(t) if t is not None else None
+    row["exit"] = result.status
+    row["status"] = "tool cannot reach" if result.status == 1 else "ok"
+    return row
+
+
+def _batch_one(source: Path, outdir: Path, stem: str, outputs: tuple, options: dict) -> dict:
+    """Run one file of a batch; a bad file becomes an error row."""
+    targets = {k: outdir / (stem + OUTPUT_SUFFIXES[k]) for k in outputs}
+    try:
+        result = run(source, **targets, **options)
+    except (PathgenError, OSError) as exc:
+        return batch_row(None, source.name, error=" ".join(str(exc).split()))
+    return batch_row(result, source.name)
+
+
+def run_batch(directory, outdir, *, jobs=None, outputs=("gcode", "report"), progress=None,
+              files=None, **options) -> list[dict]:
+    """Run the whole job on every points file of ``directory``, in parallel.
+
+    Parameters
+    ----------
+    directory : path
+        Folder of points files (.csv .txt .xy .dxf); not searched recursively.
+    outdir : path
+        Folder for the outputs (created if missing): for ``part.csv``,
+        ``part.nc``, ``part.report.json`` and ``part.report.txt`` (and
+        ``part.dxf``, ``part.png`` when asked for in ``outputs``).
+    jobs : int or None
+        Worker processes; None uses every CPU core.  1 runs in this process.
+    outputs : tuple of "gcode", "report", "dxf", "plot"
+    progress : callable(done, total) or None
+        Called as files finish.
+    files : list of paths or None
+        Run these instead of the folder's files.
+    **options
+        Passed to :func:`run` for every file.
+
+    Returns
+    -------
+    list of dict
+        One row per file, in file-name order (see :func:`batch_row`); a bad
+        file gives a row with ``status="error"``, ``exit=2`` and the message,
+        and never stops the batch.
+    """
+    files = [Path(f) for f in files] if files is not None else points_files(directory)
+    for k in outputs:
+        check_option("output", k, OUTPUT_SUFFIXES)
+    out = Path(outdir)
+    if out.exists() and not out.is_dir():
+        raise InputError(f"{out}: exists and is not a folder")
+    out.mkdir(parents=True, exist_ok=True)
+    stems = _output_stems(files)
+    tick = progress or (lambda done, total: None)
+    total = len(files)
+    if jobs is not None and (not isinstance(jobs, int) or jobs < 1):
+        raise InputError(f"jobs must be a whole number >= 1, got {jobs!r}")
+    workers = min(jobs or os.cpu_count() or 1, max(total, 1))
+    if workers <= 1:
+        rows = []
+        for i, (f, s) in enumerate(zip(files, stems)):
+            rows.append(_batch_one(f, out, s, tuple(outputs), options))
+            tick(i + 1, total)
+        return rows
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+
+    rows: list = [None] * total
+    with ProcessPoolExecutor(max_workers=workers) as pool:
+        futures = {pool.submit(_batch_one, f, out, s, tuple(outputs), options): i
+                   for i, (f, s) in enumerate(zip(files, stems))}
+        for done, fut in enumerate(as_completed(futures), 1):
+            rows[futures[fut]] = fut.result()
+            tick(done, total)
+    return rows
