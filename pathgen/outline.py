@@ -1,0 +1,504 @@
+"""Outlines with sharp corners and straight edges, fitted piece by piece.
+
+:func:`fit_outline` turns an :class:`~pathgen.points.Outline` (or an
+(n, 2) array) into one :class:`~pathgen.spline.Contour`:
+
+1. Corners.  The turning angle at point i is the signed angle between the
+   steps P_i - P_{i-1} and P_{i+1} - P_i.  Where |angle| exceeds
+   ``corner_angle`` (degrees, default :data:`DEFAULT_CORNER_ANGLE`) the
+   point is a corner; ``corners=`` forces more, ``corner_angle=None`` turns
+   detection off.  With ``smooth`` the steps are taken over a support of
+   about 10·smooth mm on each side (so noise does not look like corners)
+   and the sharpest point of each run above the threshold is kept.
+2. Straight edges.  A piece between two corners (or an open end) whose
+   points all lie within the straight tolerance of the chord becomes an
+   exact straight line.  Without ``smooth``, runs of at least 3 collinear
+   points (within the tolerance, at least ``STRAIGHT_MIN_RATIO`` of the
+   outline's size long) inside a piece become straight lines too, and the
+   curved stretches next to them start tangent to them (G1).
+3. Curves.  Each remaining stretch is a cubic spline with the chosen end
+   condition at corners and open ends ("not-a-knot" by default), the
+   line's direction where it meets a straight edge; a closed outline with
+   neither corners nor straight edges is one periodic spline
+   (:func:`pathgen.spline.fit`).  With ``smooth=TOL`` the curved stretches
+   are smoothing splines (:mod:`pathgen.smooth`) with the largest
+   smoothing that keeps every point within TOL mm, pinned at corners.
+
+The pieces share one increasing parameter (chord length by default), one
+break per point, so the result evaluates, measures and reports curvature
+like a single spline; ``Contour.corners`` lists the breaks at the corners.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from ._options import check_option, check_positive
+from .errors import InputError
+
+__all__ = [
+    "fit_outline",
+    "turning_angles",
+    "find_corners",
+    "straight_runs",
+    "DEFAULT_CORNER_ANGLE",
+    "STRAIGHT_RTOL",
+    "STRAIGHT_MIN_RATIO",
+]
+
+#: Default corner threshold, degrees.  A smooth curve sampled with 10 or
+#: more points per full turn turns at most 36° per point and is never cut;
+#: corners of polygons with up to 8 sides (45° or more) are found.
+DEFAULT_CORNER_ANGLE = 40.0
+#: Points within this times the outline's size of a line count as on it
+#: (0.14 µm on a 100 mm × 100 mm part).
+STRAIGHT_RTOL = 1e-6
+#: Shortest straight run found inside a curved piece, relative to the size.
+STRAIGHT_MIN_RATIO = 0.01
+_ENDS = ("not-a-knot", "natural", "clamped")
+
+
+# -- corners ----------------------------------------------------------------
+
+
+def turning_angles(points, closed: bool, support: float = 0.0) -> np.ndarray:
+    """Signed turning angle at every point, radians (+ = left turn).
+
+    Parameters
+    ----------
+    points : (n, 2) mm
+    closed : bool
+        Closed outlines wrap around; open ones have angle 0 at both ends.
+    support : float, mm
+        0: the neighbouring points.  Otherwise the points about ``support``
+        mm before and after along the polyline (a k-cosine style support).
+
+    Examples
+    --------
+    >>> sq = np.array([[0, 0], [1, 0], [1, 1], [0, 1]], float)
+    >>> np.degrees(turning_angles(sq, True)).round(6).tolist()
+    [90.0, 90.0, 90.0, 90.0]
+    """
+    p = np.asarray(points, np.float64)
+    n = len(p)
+    if n < 3:
+        return np.zeros(n)
+    if support <= 0:
+        back = np.arange(n) - 1
+        fwd = np.arange(n) + 1
+    else:
+        q = np.vstack([p, p[:1]]) if closed else p
+        s = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(q, axis=0).T))])
+        if closed:
+            per = s[-1]
+            s3 = np.concatenate([s[:-1] - per, s[:-1], s[:-1] + per])
+            base = s[:-1]
+            back = np.searchsorted(s3, base - support, side="right") - 1 - n
+            fwd = np.searchsorted(s3, base + support, side="left") - n
+            back = np.minimum(back, np.arange(n) - 1)
+            fwd = np.maximum(fwd, np.arange(n) + 1)
+        else:
+            back = np.searchsorted(s, s - support, side="right") - 1
+            fwd = np.searchsorted(s, s + support, side="left")
+            back = np.clip(np.minimum(back, np.arange(n) - 1), 0, n - 1)
+            fwd = np.clip(np.maximum(fwd, np.arange(n) + 1), 0, n - 1)
+    if closed:
+        back, fwd = back % n, fwd % n
+    else:
+        back, fwd = np.clip(back, 0, n - 1), np.clip(fwd, 0, n - 1)
+    a = p - p[back]
+    b = p[fwd] - p
+    ang = np.arctan2(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0], (a * b).sum(axis=1))
+    if not closed:
+        ang[0] = ang[-1] = 0.0
+    return ang
+
+
+def find_corners(points, closed: bool, angle_deg=DEFAULT_CORNER_ANGLE,
+                 support: float = 0.0) -> np.ndarray:
+    """Indices of the points whose |turning angle| exceeds ``angle_deg``.
+
+    With a support > 0 (noisy points) only the sharpest point of each run
+    of consecutive points above the threshold is kept.
+
+    Examples
+    --------
+    >>> pts = np.array([[0, 0], [1, 0], [2, 0], [2, 1], [2, 2]], float)
+    >>> find_corners(pts, False).tolist()
+    [2]
+    """
+    if angle_deg is None:
+        return np.zeros(0, dtype=np.int64)
+    ang = np.abs(turning_angles(points, closed, support))
+    hit = ang > math.radians(angle_deg)
+    idx = np.flatnonzero(hit)
+    if support <= 0 or len(idx) == 0:
+        return idx
+    n = len(ang)
+    # runs of consecutive hits (closed: rotate so no run wraps)
+    shift = 0
+    if closed and hit.all():
+        return np.array([int(np.argmax(ang))])
+    if closed and hit[0] and hit[-1]:
+        shift = int(np.argmin(hit))  # first miss
+    h = np.roll(hit, -shift)
+    a = np.roll(ang, -shift)
+    edges = np.diff(np.concatenate([[0], h.astype(np.int8), [0]]))
+    starts, stops = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
+    best = np.array([s + int(np.argmax(a[s:e])) for s, e in zip(starts, stops)])
+    return np.sort((best + shift) % n)
+
+
+# -- straight runs ------------------------------------------------------------
+
+
+def _deviation(p: np.ndarray) -> np.ndarray:
+    """Distance of every point of ``p`` from the line through p[0] and p[-1]."""
+    d = p[-1] - p[0]
+    L = math.hypot(d[0], d[1])
+    r = p - p[0]
+    if L == 0.0:
+        return np.hypot(r[:, 0], r[:, 1])
+    return np.abs(r[:, 0] * d[1] - r[:, 1] * d[0]) / L
+
+
+def straight_runs(points, tol: float, min_length: float) -> list[tuple[int, int]]:
+    """Runs (i, j) of at least 3 points within ``tol`` of the chord P_i P_j.
+
+    Found by recursive splitting at the farthest point (Douglas-Peucker);
+    stretches shorter than ``min_length`` along the polyline are not split
+    further.  Runs are returned in order and do not overlap.
+
+    Examples
+    --------
+    >>> th = np.linspace(0, np.pi / 2, 7)
+    >>> arc = np.c_[np.cos(th), np.sin(th)]
+    >>> side = np.c_[np.linspace(1, 1, 5), np.linspace(-2, 0, 5)]
+    >>> straight_runs(np.vstack([side[:-1], arc]), 1e-9, 0.1)
+    [(0, 4)]
+    """
+    p = np.asarray(points, np.float64)
+    seg = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(p, axis=0).T))])
+    runs = []
+    stack = [(0, len(p) - 1)]
+    while stack:
+        i, j = stack.pop()
+        if j - i < 2 or seg[j] - seg[i] < min_length:
+            continue
+        dev = _deviation(p[i:j + 1])
+        k = int(np.argmax(dev))
+        if dev[k] <= tol:
+            if math.hypot(*(p[j] - p[i])) >= min_length:
+                runs.append((i, j))
+            continue
+        stack.append((k + i, j))
+        stack.append((i, k + i))
+    return sorted(runs)
+
+
+# -- one piece ------------------------------------------------------------------
+
+
+def _piece_moments(t, y, start, stop):
+    """Second derivatives of a cubic spline with separate end conditions.
+
+    ``start``/``stop``: "not-a-knot", "natural", or a 2-vector dP/dt.
+    Full (n+1)-row tridiagonal system; not-a-knot rows are made tridiagonal
+    by eliminating M_2 (M_{n-2}) with the neighbouring interior row.
+    """
+    from scipy.linalg.lapack import dgtsv
+
+    h = np.diff(t)
+    n = len(h)
+    slope = np.diff(y, axis=0) / h[:, None]
+    if n == 1:
+        start = "natural" if isinstance(start, str) else start
+        stop = "natural" if isinstance(stop, str) else stop
+    d = np.full(n + 1, 2.0)
+    du = np.zeros(n)
+    dl = np.zeros(n)
+    b = np.zeros((n + 1, 2), order="F")
+    if n >= 2:
+        hl, hr = h[:-1], h[1:]
+        lam = hr / (hl + hr)
+        du[1:] = lam
+        dl[:-1] = 1.0 - lam
+        b[1:n] = 6.0 * (slope[1:] - slope[:-1]) / (hl + hr)[:, None]
+    for side, cond in ((0, start), (1, stop)):
+        if side == 0:
+            row, inner, h0, h1, s = 0, 1, h[0], h[1] if n >= 2 else 0.0, slope[0]
+        else:
+            row, inner, h0, h1, s = n, n - 1, h[-1], h[-2] if n >= 2 else 0.0, slope[-1]
+        if isinstance(cond, str) and cond == "natural":
+            d[row] = 1.0
+            b[row] = 0.0
+            if side == 0:
+                du[0] = 0.0
+            else:
+                dl[-1] = 0.0
+        elif isinstance(cond, str):  # not-a-knot, n >= 2
+            d[row] = h1 - h0
+            off = -(h1 + 2.0 * h0)
+            b[row] = -h0 * b[inner]
+            if side == 0:
+                du[0] = off
+            else:
+                dl[-1] = off
+        else:
+            v = np.asarray(cond, np.float64)
+            d[row] = 2.0
+            if side == 0:
+                du[0] = 1.0
+                b[row] = 6.0 / h0 * (s - v)
+            else:
+                dl[-1] = 1.0
+                b[row] = 6.0 / h0 * (v - s)
+    _, _, _, M, info = dgtsv(dl, d, du, b)
+    if info != 0:  # pragma: no cover - guarded by distinct points
+        raise InputError(f"a piece of the outline could not be fitted (LAPACK info={info})")
+    return M
+
+
+def _line_coefficients(t, y) -> np.ndarray:
+    """Exact straight line from y[0] to y[-1], one linear piece per step."""
+    h = np.diff(t)
+    frac = (t - t[0]) / (t[-1] - t[0])
+    pts = y[0] + frac[:, None] * (y[-1] - y[0])
+    c = np.zeros((4, len(h), 2))
+    c[2] = np.diff(pts, axis=0) / h[:, None]
+    c[3] = pts[:-1]
+    return c
+
+
+# -- assembling the contour -----------------------------------------------------
+
+
+def _as_outline(outline, closed):
+    from .points import Outline, clean_points
+
+    if isinstance(outline, Outline):
+        if closed is not None and bool(closed) != outline.closed:
+            raise InputError("closed= contradicts the Outline's own closed flag; "
+                             "clean the points again with clean_points(closed=...)")
+        return outline
+    return clean_points(outline, closed=closed)
+
+
+def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
+                corner_angle=DEFAULT_CORNER_ANGLE, corners=None, smooth=None,
+                tangents=None, straight_tol=None, closed=None):
+    """Fit a contour through an outline with corners and straight edges.
+
+    Parameters
+    ----------
+    outline : Outline or array-like (n, 2)
+        Cleaned points (an array is cleaned with
+        :func:`pathgen.points.clean_points`), mm.
+    end : {"not-a-knot", "natural", "clamped"}
+        End condition of each curved piece at corners and open ends.
+        "clamped" needs ``tangents`` (open outlines: dP/dt at the first and
+        last point) and is "not-a-knot" at corners.
+    param : {"chord", "centripetal", "uniform"}
+        Parameter steps, as in :func:`pathgen.spline.fit`.
+    corner_angle : float or None, degrees
+        Turning angle above which a point is a corner (default 40°);
+        None: no detection.
+    corners : sequence of int or None
+        Point indices (into ``outline.points``) forced to be corners.
+    smooth : float or None, mm
+        Smoothing tolerance: every point stays within this distance of the
+        contour (measured); None interpolates.
+    tangents : pair of 2-vectors, for ``end="clamped"``.
+    straight_tol : float or None, mm
+        How far points may lie from a straight edge; default
+        ``STRAIGHT_RTOL`` × size, or ``smooth`` when smoothing.
+    closed : bool or None
+        For array input only, as in ``clean_points``.
+
+    Returns
+    -------
+    pathgen.spline.Contour
+        ``corners`` lists the break indices at corners (one break per
+        point; closed outlines have one more break at the end of the seam).
+        ``info`` holds "corners", "straight_runs" (pairs of point indices),
+        "corner_angle" (degrees), "smooth", "max_residual" and
+        "rms_residual" (mm; distances of the points from the contour).
+
+    Examples
+    --------
+    >>> c = fit_outline([[0, 0], [10, 0], [10, 5], [0, 5]], closed=True)
+    >>> c.corners, round(c.length, 9)
+    ((0, 1, 2, 3), 30.0)
+    """
+    from .smooth import power_form
+    from .spline import Contour, fit, parameters
+
+    o = _as_outline(outline, closed)
+    check_option("end", end, _ENDS)
+    p, closed = np.ascontiguousarray(o.points), o.closed
+    n = len(p)
+    size = float(np.hypot(*(p.max(axis=0) - p.min(axis=0))))
+    if corner_angle is not None:
+        corner_angle = check_positive("corner_angle", corner_angle)
+        if corner_angle >= 180.0:
+            raise InputError(f"corner_angle must be below 180 degrees, got {corner_angle}")
+    if smooth is not None:
+        smooth = check_positive("smooth", smooth)
+    tol = (straight_tol if straight_tol is not None
+           else smooth if smooth is not None else STRAIGHT_RTOL * size)
+    tol = check_positive("straight_tol", tol, allow_zero=True)
+    tan = None
+    if end == "clamped":
+        if closed:
+            end = "not-a-knot"
+        else:
+            try:
+                tan = np.array(tangents, dtype=np.float64).reshape(2, 2)
+            except (TypeError, ValueError):
+                raise InputError('end="clamped" needs tangents=(start_vector, '
+                                 'end_vector), two 2-vectors') from None
+            if not np.isfinite(tan).all() or (np.hypot(*tan.T) == 0).any():
+                raise InputError("tangents must be two finite, non-zero 2-vectors")
+    support = 10.0 * smooth if smooth is not None else 0.0
+    cs = find_corners(p, closed, corner_angle, support) if corner_angle is not None \
+        else np.zeros(0, np.int64)
+    if corners is not None:
+        try:
+            forced = np.array(corners, dtype=np.int64).reshape(-1)
+        except (TypeError, ValueError):
+            raise InputError(f"corners must be point indices (integers), got {corners!r}") \
+                from None
+        bad = (forced < 0) | (forced >= n)
+        if bad.any():
+            raise InputError(f"corners: index {int(forced[bad][0])} is outside the "
+                             f"outline's points 0..{n - 1}")
+        cs = np.union1d(cs, forced)
+    if not closed:
+        cs = cs[(cs > 0) & (cs < n - 1)]
+    cs = np.unique(cs)
+    hgl = np.diff(parameters(p, param, closed))  # one step per interval
+    facts = {"corner_angle": corner_angle, "smooth": smooth}
+
+    if closed and len(cs) == 0:
+        # rotate to the sharpest point so a straight run is not cut by the seam
+        start = int(np.argmax(np.abs(turning_angles(p, True))))
+    else:
+        start = int(cs[0]) if closed else 0
+    m = n if closed else n - 1  # intervals
+    order = (start + np.arange(m + 1)) % n
+    q = p[order]
+    hq = hgl[(start + np.arange(m)) % n] if closed else hgl
+    tq = np.concatenate([[0.0], np.cumsum(hq)])
+    # piece boundaries (rotated indices): corners, ends
+    bounds = np.sort((cs - start) % n) if len(cs) else np.zeros(0, np.int64)
+    bounds = np.unique(np.concatenate([[0], bounds, [m]]))
+    if closed and len(cs) == 0 and smooth is None:
+        runs_all = straight_runs(q, tol, STRAIGHT_MIN_RATIO * size)
+        if not runs_all:
+            c = fit(p, closed=True, param=param)
+            return _finish(c, p, closed, (), [], facts, None)
+        # start the loop at the beginning of a straight edge
+        start = (start + runs_all[0][0]) % n
+        order = (start + np.arange(m + 1)) % n
+        q = p[order]
+        hq = hgl[(start + np.arange(m)) % n]
+        tq = np.concatenate([[0.0], np.cumsum(hq)])
+    coeffs = np.empty((4, m, 2))
+    residual = np.zeros(m + 1)
+    runs_out = []
+    for a, b in zip(bounds[:-1], bounds[1:]):
+        seg = q[a:b + 1]
+        ts = tq[a:b + 1]
+        first_cond = end if (a > 0 or closed) else (tan[0] if tan is not None else end)
+        last_cond = end if (b < m or closed) else (tan[1] if tan is not None else end)
+        if first_cond == "clamped":
+            first_cond = "not-a-knot"
+        if last_cond == "clamped":
+            last_cond = "not-a-knot"
+        corner_free_loop = closed and len(cs) == 0
+        if not corner_free_loop and (b - a == 1 or _deviation(seg).max() <= tol):
+            coeffs[:, a:b] = _line_coefficients(ts, seg)
+            residual[a:b + 1] = _deviation(seg)
+            if b - a >= 2:
+                runs_out.append((a, b))
+            continue
+        inner = [] if smooth is not None else straight_runs(seg, tol, STRAIGHT_MIN_RATIO * size)
+        # alternate curved and straight stretches
+        cuts = [(0, "curve")]
+        for i, j in inner:
+            cuts.append((i, "line"))
+            cuts.append((j, "curve"))
+        cuts.append((b - a, "end"))
+        for k in range(len(cuts) - 1):
+            i, kind = cuts[k]
+            j = cuts[k + 1][0]
+            if j <= i:
+                continue
+            sub, tsub = seg[i:j + 1], ts[i:j + 1]
+            lo, hi = a + i, a + j
+            if kind == "line":
+                coeffs[:, lo:hi] = _line_coefficients(tsub, sub)
+                residual[lo:hi + 1] = _deviation(sub)
+                runs_out.append((lo, hi))
+                continue
+            v0 = math.hypot(*(sub[1] - sub[0])) / (tsub[1] - tsub[0])
+            v1 = math.hypot(*(sub[-1] - sub[-2])) / (tsub[-1] - tsub[-2])
+            c_start = first_cond if i == 0 else _unit(seg[i - 1], seg[i]) * v0
+            if j < b - a:
+                c_stop = _unit(seg[j], seg[j + 1]) * v1
+            elif corner_free_loop:  # back at the seam: the first straight edge
+                c_stop = _unit(q[0], q[1]) * v1
+            else:
+                c_stop = last_cond
+            if smooth is not None and len(sub) >= 3:
+                from .smooth import fit_within
+
+                fixed = np.zeros(len(sub), bool)
+                fixed[0] = fixed[-1] = True
+                if corner_free_loop:
+                    c_sm, f = fit_within(tsub, sub[:-1], smooth, periodic=True)
+                else:
+                    c_sm, f = fit_within(tsub, sub, smooth, fixed=fixed)
+                coeffs[:, lo:hi] = c_sm
+                residual[lo:lo + len(f["residuals"])] = f["residuals"]
+                facts.setdefault("lambda", []).append(f["lambda"])
+            else:
+                M = _piece_moments(tsub, sub, c_start, c_stop)
+                coeffs[:, lo:hi] = power_form(tsub, sub, M)
+    # undo the rotation: interval k of q is interval (start + k) % n of p
+    if closed:
+        coeffs = np.roll(coeffs, start, axis=1)
+        residual = np.roll(residual[:m], start)
+        hq_orig = hgl
+    else:
+        hq_orig = hq
+    breaks = np.concatenate([[0.0], np.cumsum(hq_orig)])
+    corner_breaks = tuple(sorted(int(i) for i in cs))
+    runs = [((int(i) + start) % n, (int(j) + start) % n) for i, j in runs_out]
+    c = Contour(breaks, coeffs, closed, p, corners=corner_breaks,
+                end="periodic" if closed and len(cs) == 0 else end, param=param)
+    return _finish(c, p, closed, corner_breaks, runs, facts,
+                   residual[:n] if smooth is not None else None)
+
+
+def _unit(p0, p1) -> np.ndarray:
+    """Unit direction from p0 to p1 (the tangent of a straight edge)."""
+    d = np.asarray(p1, float) - np.asarray(p0, float)
+    return d / math.hypot(d[0], d[1])
+
+
+def _finish(c, p, closed, corners, runs, facts, residual):
+    from .smooth import foot_distances
+
+    info = dict(facts)
+    info["corners"] = list(corners)
+    info["straight_runs"] = [list(r) for r in runs]
+    if residual is None:
+        t = c.breaks[: len(p)]
+        residual = foot_distances(c, p, t)
+    info["max_residual"] = float(residual.max())
+    info["rms_residual"] = float(np.sqrt(np.mean(residual**2)))
+    c.info.update(info)
+    return c

@@ -1,0 +1,244 @@
+"""Smoothing splines for noisy digitized points.
+
+A smoothing spline g through parameters t_0 < ... < t_{n-1} minimizes
+
+    sum_i w_i |P_i - g(t_i)|^2 + λ ∫ |g''(t)|^2 dt
+
+over cubic splines with knots at the t_i (natural ends for an open run,
+periodic for a closed outline).  Both coordinates share one λ and one
+matrix: they are solved as two right-hand sides.  :func:`fit_within`
+finds the largest λ that keeps every point within a distance ``tol`` of
+the curve, measuring the distances (foot points by Newton's method).
+
+Notes
+-----
+Reinsch's algorithm (C.H. Reinsch, "Smoothing by spline functions",
+Numer. Math. 10, 1967): with h_j = t_{j+1} - t_j, the values g and the
+interior second derivatives γ of a natural spline satisfy Qᵀg = Rγ, where
+Q is tridiagonal n×(n-2) with Q[j-1,j] = 1/h_{j-1}, Q[j,j] = -1/h_{j-1}
+- 1/h_j, Q[j+1,j] = 1/h_j, and R is tridiagonal with R[j,j] =
+(h_{j-1}+h_j)/3, R[j,j+1] = h_j/6; and ∫g''² = γᵀRγ.  The minimizer solves
+
+    (R + λ Qᵀ W⁻¹ Q) γ = Qᵀ P,      g = P - λ W⁻¹ Q γ,
+
+a banded (pentadiagonal) system; a periodic spline gives the same system
+with indices taken modulo n.  A weight w_i = ∞ (W⁻¹ = 0) pins the point:
+``fixed`` ends make pieces between corners meet exactly at the corners.
+With w = 1 this is the criterion of ``scipy.interpolate.make_smoothing_spline``
+(which picks λ per column by GCV unless ``lam`` is given).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .errors import InputError
+
+__all__ = ["smoothing_spline", "fit_within", "foot_distances", "power_form"]
+
+
+def smoothing_spline(t, y, lam: float, *, periodic: bool = False, fixed=None):
+    """Values and second derivatives of the smoothing spline for one λ.
+
+    Parameters
+    ----------
+    t : (n,) increasing parameters (periodic: n+1 values, the last closing
+        the loop).
+    y : (n, 2) points (periodic: the n distinct points).
+    lam : float >= 0
+        Smoothing weight λ (mm^3 per mm^2 of squared residual with chord
+        parameters); 0 interpolates.
+    periodic : bool
+        A closed loop (C2 across the seam) instead of natural ends.
+    fixed : (n,) bool or None
+        Points the spline must pass through exactly.
+
+    Returns
+    -------
+    g : (n, 2) the spline's values at t (periodic: n values).
+    M : (len(t), 2) its second derivatives at t (natural ends are 0).
+
+    Examples
+    --------
+    >>> t = np.arange(5.0)
+    >>> y = np.c_[t, t ** 2]
+    >>> g, M = smoothing_spline(t, y, 0.0)
+    >>> bool(np.allclose(g, y))
+    True
+    """
+    from scipy import sparse
+    from scipy.sparse.linalg import splu
+
+    t = np.asarray(t, np.float64)
+    y = np.asarray(y, np.float64)
+    h = np.diff(t)
+    n = len(y)
+    winv = np.ones(n) if fixed is None else np.where(np.asarray(fixed, bool), 0.0, 1.0)
+    if periodic:
+        cols = np.arange(n)
+        prev, nxt = (cols - 1) % n, (cols + 1) % n
+        hm, hj = h[prev], h
+        rows_r = np.concatenate([cols, cols, nxt])
+        cols_r = np.concatenate([cols, nxt, cols])
+        vals_r = np.concatenate([(hm + hj) / 3.0, hj / 6.0, hj / 6.0])
+        m = n
+    else:
+        if n < 3:
+            M = np.zeros((n, 2))
+            return y.copy(), M
+        cols = np.arange(n - 2)
+        prev, mid, nxt = cols, cols + 1, cols + 2
+        hm, hj = h[:-1], h[1:]
+        rows_r = np.concatenate([cols, cols[:-1], cols[1:]])
+        cols_r = np.concatenate([cols, cols[1:], cols[:-1]])
+        off = hj[:-1] / 6.0
+        vals_r = np.concatenate([(hm + hj) / 3.0, off, off])
+        m = n - 2
+    mid = cols if periodic else cols + 1
+    Q = sparse.coo_matrix(
+        (np.concatenate([1.0 / hm, -1.0 / hm - 1.0 / hj, 1.0 / hj]),
+         (np.concatenate([prev, mid, nxt]), np.concatenate([cols, cols, cols]))),
+        shape=(n, m)).tocsr()
+    R = sparse.coo_matrix((vals_r, (rows_r, cols_r)), shape=(m, m)).tocsc()
+    A = (R + lam * (Q.T @ sparse.diags(winv) @ Q)).tocsc()
+    gamma = splu(A).solve(np.asfortranarray(Q.T @ y))
+    g = y - lam * winv[:, None] * (Q @ gamma)
+    if periodic:
+        M = np.vstack([gamma, gamma[:1]])
+    else:
+        M = np.zeros((n, 2))
+        M[1:-1] = gamma
+    return g, M
+
+
+def power_form(t, y, M) -> np.ndarray:
+    """Cubic pieces from values ``y`` and second derivatives ``M`` at breaks ``t``.
+
+    Returns coefficients (4, m, 2), highest power first, in the local
+    variable t - t_i (``scipy.interpolate.PPoly`` layout):
+    c3 = (M_{i+1} - M_i)/(6h), c2 = M_i/2, c1 = (y_{i+1} - y_i)/h - h(2M_i + M_{i+1})/6.
+    """
+    h = np.diff(t)[:, None]
+    return np.stack([
+        (M[1:] - M[:-1]) / (6.0 * h),
+        0.5 * M[:-1],
+        (y[1:] - y[:-1]) / h - h * (2.0 * M[:-1] + M[1:]) / 6.0,
+        y[:-1],
+    ])
+
+
+def _coefficients(t, g, M, periodic):
+    return power_form(t, np.vstack([g, g[:1]]) if periodic else g, M)
+
+
+def foot_distances(contour, points, t) -> np.ndarray:
+    """Distance from each point to the contour, near its own parameter.
+
+    Newton's method on (C(u) - P)·C'(u) = 0 from u = t_i, kept within the
+    neighbouring breaks; the result never exceeds |C(t_i) - P_i|.
+
+    Parameters
+    ----------
+    contour : pathgen.spline.Contour
+    points : (n, 2) mm
+    t : (n,) starting parameters
+
+    Returns
+    -------
+    (n,) distances, mm.
+    """
+    p = np.asarray(points, np.float64)
+    t = np.asarray(t, np.float64)
+    b = contour.breaks
+    step = np.diff(b)
+    i = np.clip(np.searchsorted(b, t, side="right") - 1, 0, len(step) - 1)
+    prev = np.where(i >= 1, step[i - 1], step[-1] if contour.closed else step[0])
+    lo, hi = t - prev, t + step[i]
+    if not contour.closed:
+        lo, hi = np.maximum(lo, b[0]), np.minimum(hi, b[-1])
+    d0 = np.hypot(*(contour(t) - p).T)
+    u = t.copy()
+    for _ in range(6):
+        r = contour(u) - p
+        d1 = contour(u, 1)
+        d2 = contour(u, 2)
+        f = (r * d1).sum(axis=1)
+        df = (d1 * d1).sum(axis=1) + (r * d2).sum(axis=1)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            du = np.where(df > 0, f / df, 0.0)
+        u = np.clip(u - du, lo, hi)
+    d = np.hypot(*(contour(u) - p).T)
+    return np.minimum(d, d0)
+
+
+def _contour(t, c, periodic, y):
+    from .spline import Contour
+
+    return Contour(t, c, periodic, y)
+
+
+def fit_within(t, y, tol: float, *, periodic: bool = False, fixed=None, iterations: int = 12):
+    """The smoothing spline with the largest λ keeping every point within ``tol``.
+
+    Parameters
+    ----------
+    t, y, periodic, fixed : as in :func:`smoothing_spline`.
+    tol : float > 0
+        Largest allowed distance (mm) from any point to the curve, measured
+        with :func:`foot_distances`.
+    iterations : int
+        Bisection steps on log λ after bracketing (each halves the bracket
+        exponent; 12 steps pin λ within a factor of about 1.002).
+
+    Returns
+    -------
+    coefficients : (4, m, 2) piecewise cubic in ``scipy.interpolate.PPoly`` layout.
+    facts : dict with "lambda", "max_residual", "rms_residual" (mm) and
+        "residuals" ((n,) array, mm).
+    """
+    t = np.asarray(t, np.float64)
+    y = np.asarray(y, np.float64)
+    if not (np.isfinite(tol) and tol > 0):
+        raise InputError(f"smooth must be a finite distance > 0 mm, got {tol!r}")
+
+    def attempt(lam):
+        g, M = smoothing_spline(t, y, lam, periodic=periodic, fixed=fixed)
+        c = _coefficients(t, g, M, periodic)
+        d = foot_distances(_contour(t, c, periodic, y), y, t[: len(y)])
+        return c, d
+
+    base = float(np.mean(np.diff(t))) ** 3
+    c0, d0 = attempt(0.0)
+    best = (0.0, c0, d0)
+    lo_exp, hi_exp = None, None
+    e = 0.0
+    for _ in range(40):  # bracket: lo within tol, hi not
+        c, d = attempt(base * 10.0**e)
+        if d.max() <= tol:
+            best, lo_exp = (base * 10.0**e, c, d), e
+            if hi_exp is not None:
+                break
+            e += 2.0
+        else:
+            hi_exp = e
+            if lo_exp is not None:
+                break
+            e -= 2.0
+        if e < -30 or e > 30:
+            break
+    if lo_exp is not None and hi_exp is not None:
+        for _ in range(iterations):
+            mid = 0.5 * (lo_exp + hi_exp)
+            c, d = attempt(base * 10.0**mid)
+            if d.max() <= tol:
+                best, lo_exp = (base * 10.0**mid, c, d), mid
+            else:
+                hi_exp = mid
+    lam, c, d = best
+    facts = {
+        "lambda": lam,
+        "max_residual": float(d.max()) if len(d) else 0.0,
+        "rms_residual": float(np.sqrt(np.mean(d**2))) if len(d) else 0.0,
+        "residuals": d,
+    }
+    return c, facts
