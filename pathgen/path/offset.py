@@ -1,0 +1,440 @@
+"""Tool-radius offsets: regular stretches, corner joins and loop trimming.
+
+The tool center of a tool of radius r cutting on one side of the contour
+runs on q(t) = P(t) + d·N(t) with d = ±r (N the left normal).  Its
+curvature is κ/(1 - dκ) (Farouki & Neff 1990): where dκ reaches 1 the
+offset has a cusp, and beyond it a swallow-tail loop — the contour bends
+toward the tool tighter than the tool's radius and the tool cannot reach.
+Narrow gaps (two parts of the outline closer than the tool's diameter)
+give loops too, without any tight curvature.
+
+The offset is built in three steps:
+
+1. :func:`regular_windows` splits the parameter range at corners and
+   cuts out the stretches where 1 - dκ <= 0.001 (recorded as spots);
+2. the caller approximates each window (lines or offset biarcs);
+3. :func:`assemble` joins the windows: a corner the tool goes around gets
+   an arc of radius r about the corner (the exact offset of a sharp
+   corner); then every move that comes closer to the contour than r
+   (minus the tolerance) is a loop or overlap and is cut away, and the two
+   sides are joined at their exact intersection (line/line, line/arc or
+   arc/arc).  What was cut is recorded as a spot for the report.
+
+Distances to the contour come from a dense polyline of it and a k-d tree
+(``scipy.spatial.cKDTree``); no quadratic all-pairs distances.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from ..errors import InputError
+from .measure import Chain, arc_geometry, eval_side, sample_chain, unit_tangent_side
+from .model import ARC_CCW, ARC_CW, LINE
+
+__all__ = ["regular_windows", "assemble", "distance_to_contour"]
+
+_EPS_REG = 1e-3
+
+
+def _curvature(contour, t):
+    d1, d2 = contour(t, 1), contour(t, 2)
+    return (d1[..., 0] * d2[..., 1] - d1[..., 1] * d2[..., 0]) / np.hypot(d1[..., 0], d1[..., 1]) ** 3
+
+
+def regular_windows(contour, d: float, lo: float, hi: float):
+    """Windows [a, b] of [lo, hi] split at corners, without unreachable stretches.
+
+    Returns
+    -------
+    windows : (w, 2) array.
+    joins : list of (w - 1) labels for what lies between window i and i+1:
+        ("corner", t) or ("tight", spot dict).
+    spots : list of dicts {"x", "y", "reason": "tight", "radius"} for each
+        stretch where the contour's radius is below the tool's.
+    """
+    b = contour.breaks
+    cuts = []  # (t, label)
+    if contour.corners:
+        ct = b[list(contour.corners)]
+        if contour.closed:
+            period = b[-1] - b[0]
+            ct = np.concatenate([ct + k * period for k in (-1, 0, 1, 2)])
+        for t in np.sort(ct):
+            if lo < t < hi and not np.isclose(t, lo) and not np.isclose(t, hi):
+                cuts.append((float(t), float(t), ("corner", float(t))))
+    spots = []
+    if d != 0.0:
+        # grid: every break (unwrapped) plus 8 sub-steps
+        n = max(8, int(np.ceil(8 * contour.pieces * (hi - lo) / (b[-1] - b[0]))))
+        n = min(n, 2_000_000)
+        g = np.linspace(lo, hi, n + 1)
+        f = 1.0 - d * _curvature(contour, g) - _EPS_REG
+        bad = f <= 0
+        if np.any(bad):
+            edges = np.diff(bad.astype(np.int8))
+            starts = list(np.flatnonzero(edges == 1) + 1)
+            ends = list(np.flatnonzero(edges == -1))
+            if bad[0]:
+                starts.insert(0, 0)
+            if bad[-1]:
+                ends.append(len(g) - 1)
+            for i0, i1 in zip(starts, ends):
+                a = _root(contour, d, g[max(i0 - 1, 0)], g[i0]) if i0 > 0 else g[0]
+                z = _root(contour, d, g[i1], g[min(i1 + 1, len(g) - 1)]) if i1 < len(g) - 1 else g[-1]
+                seg = g[i0:i1 + 1]
+                k = _curvature(contour, seg)
+                m = int(np.argmax(d * k))
+                p = contour(seg[m])
+                spot = {"x": float(p[0]), "y": float(p[1]), "reason": "tight",
+                        "radius": float(1.0 / abs(k[m]))}
+                spots.append(spot)
+                cuts.append((float(a), float(z), ("tight", spot)))
+    cuts.sort(key=lambda c: c[0])
+    windows, joins = [], []
+    cur = lo
+    for a, z, label in cuts:
+        if a > cur:
+            windows.append((cur, a))
+            joins.append(label)
+        elif joins and windows:
+            joins[-1] = label if label[0] == "tight" else joins[-1]
+        cur = max(cur, z)
+    if cur < hi:
+        windows.append((cur, hi))
+    else:
+        joins = joins[:-1] if len(joins) >= len(windows) else joins
+    joins = joins[: max(len(windows) - 1, 0)]
+    if not windows:
+        raise InputError(
+            f"the tool (radius {abs(d):g} mm) cannot reach any part of the contour: "
+            "its radius is everywhere smaller than the tool's"
+        )
+    return np.array(windows), joins, spots
+
+
+def _root(contour, d, a, z):
+    """Bisection for 1 - dκ(t) = eps between a (regular) and z (not)."""
+    fa = 1.0 - d * _curvature(contour, a) - _EPS_REG
+    for _ in range(50):
+        m = 0.5 * (a + z)
+        fm = 1.0 - d * _curvature(contour, m) - _EPS_REG
+        if (fm > 0) == (fa > 0):
+            a, fa = m, fm
+        else:
+            z = m
+    return float(a if fa > 0 else z)
+
+
+def _corner_arc(contour, t, d):
+    """Arc about the corner point from the end of one offset side to the next."""
+    p = eval_side(contour, np.array([t]), 0, left=False)[0]
+    ta = unit_tangent_side(contour, np.array([t]), left=True)[0]
+    tb = unit_tangent_side(contour, np.array([t]), left=False)[0]
+    a = p + d * np.array([-ta[1], ta[0]])
+    bpt = p + d * np.array([-tb[1], tb[0]])
+    turn = float(np.arctan2(ta[0] * tb[1] - ta[1] * tb[0], ta @ tb))
+    if d * turn >= 0 or np.hypot(*(a - bpt)) <= 1e-12:
+        return None  # tool on the inner side of the corner: overlap, trimmed later
+    kind = ARC_CCW if turn > 0 else ARC_CW
+    return Chain(np.array([kind], np.int8), a[None], bpt[None], p[None], np.array([np.nan]), np.array([np.nan]))
+
+
+# -- distances to the contour ---------------------------------------------------
+def _contour_polyline(contour, tol, r):
+    """Dense points on the contour, chord sagitta <= tol/10 (capped at 2e6 points)."""
+    b = contour.breaks
+    h = np.diff(b)
+    mid = b[:-1] + 0.5 * h
+    k = np.maximum.reduce([np.abs(_curvature(contour, x)) for x in (b[:-1], mid, b[1:] - 1e-12 * h)])
+    d1 = contour(mid, 1)
+    length = np.hypot(d1[:, 0], d1[:, 1]) * h * 1.2
+    n = np.ceil(length * np.sqrt(np.maximum(k, 1.0 / max(r, 1e-3)) / (0.8 * tol))) + 1
+    n = np.clip(n, 2, 10_000).astype(np.int64)
+    total = n.sum()
+    if total > 2_000_000:
+        n = np.maximum((n * (2_000_000 / total)).astype(np.int64), 2)
+    owner = np.repeat(np.arange(len(h)), n)
+    j = np.arange(owner.size) - np.repeat(np.cumsum(n) - n, n)
+    t = b[owner] + h[owner] * j / n[owner]
+    t = np.concatenate([t, b[-1:]])
+    return contour(t), contour.closed
+
+
+class distance_to_contour:
+    """Callable: distance (mm) from points to the contour's dense polyline."""
+
+    def __init__(self, contour, tol, r):
+        from scipy.spatial import cKDTree
+
+        self.pts, closed = _contour_polyline(contour, tol, r)
+        if closed:
+            self.pts = self.pts[:-1]
+        self.closed = closed
+        self.tree = cKDTree(self.pts)
+
+    def __call__(self, x):
+        x = np.asarray(x, float)
+        _, i = self.tree.query(x)
+        n = len(self.pts)
+        best = np.hypot(*(x - self.pts[i]).T)
+        for j0 in (i - 1, i):
+            if self.closed:
+                a, b = self.pts[j0 % n], self.pts[(j0 + 1) % n]
+                valid = np.ones(len(x), bool)
+            else:
+                valid = (j0 >= 0) & (j0 + 1 < n)
+                a, b = self.pts[np.clip(j0, 0, n - 1)], self.pts[np.clip(j0 + 1, 0, n - 1)]
+            ab = b - a
+            L2 = np.einsum("ij,ij->i", ab, ab)
+            u = np.clip(np.einsum("ij,ij->i", x - a, ab) / np.where(L2 > 0, L2, 1.0), 0, 1)
+            dd = np.hypot(*(x - a - u[:, None] * ab).T)
+            best = np.where(valid, np.minimum(best, dd), best)
+        return best
+
+
+# -- intersections of two primitives --------------------------------------------
+def _on(chain, i, pts, eps):
+    """Mask of candidate points lying on primitive i (within eps mm)."""
+    s, e = chain.start[i], chain.end[i]
+    if chain.kind[i] == LINE:
+        ab = e - s
+        L2 = ab @ ab
+        u = (pts - s) @ ab / L2
+        L = np.sqrt(L2)
+        return (u >= -eps / L) & (u <= 1 + eps / L)
+    c = chain.center[i]
+    r, a0, sw = arc_geometry(s, e, c, chain.kind[i] == ARC_CCW)
+    ang = np.arctan2(pts[:, 1] - c[1], pts[:, 0] - c[0])
+    phi = np.mod((ang - a0) * np.sign(sw) + eps / r, 2 * np.pi) - eps / r
+    return phi <= abs(sw) + eps / r
+
+
+def _circle_of(chain, i):
+    if chain.kind[i] == LINE:
+        return None
+    c = chain.center[i]
+    return c, float(np.hypot(*(chain.start[i] - c)))
+
+
+def _intersections(chain, i, j, eps):
+    """Points where primitives i and j cross."""
+    ci, cj = _circle_of(chain, i), _circle_of(chain, j)
+    out = []
+    if ci is None and cj is None:
+        p, r_ = chain.start[i], chain.end[i] - chain.start[i]
+        q, s_ = chain.start[j], chain.end[j] - chain.start[j]
+        den = r_[0] * s_[1] - r_[1] * s_[0]
+        if abs(den) > 1e-15 * (r_ @ r_ + s_ @ s_):
+            u = ((q - p)[0] * s_[1] - (q - p)[1] * s_[0]) / den
+            out.append(p + u * r_)
+    elif ci is None or cj is None:
+        (c, r), li = (cj, i) if ci is None else (ci, j)
+        p, v = chain.start[li], chain.end[li] - chain.start[li]
+        f = p - c
+        a, bq, cq = v @ v, 2 * f @ v, f @ f - r * r
+        disc = bq * bq - 4 * a * cq
+        if disc >= 0:
+            for sgn in (-1, 1):
+                out.append(p + (-bq + sgn * np.sqrt(disc)) / (2 * a) * v)
+    else:
+        (c0, r0), (c1, r1) = ci, cj
+        dv = c1 - c0
+        dist = np.hypot(*dv)
+        if 0 < dist <= r0 + r1 and dist >= abs(r0 - r1):
+            a = (r0 * r0 - r1 * r1 + dist * dist) / (2 * dist)
+            h = np.sqrt(max(r0 * r0 - a * a, 0.0))
+            m = c0 + a * dv / dist
+            perp = np.array([-dv[1], dv[0]]) / dist
+            out += [m + h * perp, m - h * perp]
+    if not out:
+        return np.zeros((0, 2))
+    pts = np.array(out)
+    return pts[_on(chain, i, pts, eps) & _on(chain, j, pts, eps)]
+
+
+def _param_on(chain, i, x):
+    """Fraction (0..1) of point x along primitive i."""
+    s, e = chain.start[i], chain.end[i]
+    if chain.kind[i] == LINE:
+        ab = e - s
+        return float((x - s) @ ab / (ab @ ab))
+    r, a0, sw = arc_geometry(s, e, chain.center[i], chain.kind[i] == ARC_CCW)
+    ang = np.arctan2(x[1] - chain.center[i][1], x[0] - chain.center[i][0])
+    return float(np.mod((ang - a0) * np.sign(sw) + 1e-12, 2 * np.pi) / abs(sw))
+
+
+def _snap(chain, i, x):
+    """x moved exactly onto primitive i (onto its circle for arcs)."""
+    if chain.kind[i] == LINE:
+        return x
+    c = chain.center[i]
+    r = np.hypot(*(chain.start[i] - c))
+    v = x - c
+    return c + v * (r / np.hypot(*v))
+
+
+# -- assembling ------------------------------------------------------------------
+def assemble(contour, parts, joins, d, tol, *, closed):
+    """Join approximated windows into one simple tool-center chain.
+
+    Parameters
+    ----------
+    parts : list of Chain, one per window, in order.
+    joins : labels between consecutive parts (see :func:`regular_windows`);
+        for a closed path, the join between the last part and the first is
+        taken from the contour's seam (a corner there or none).
+    d : signed offset, mm.  tol : tolerance, mm.
+
+    Returns
+    -------
+    chain : Chain, the trimmed tool-center path.
+    spots : list of dicts for what was trimmed ("overlap" at corners and
+        narrow gaps).
+    """
+    pieces = []
+    gap_after = []
+    for i, part in enumerate(parts):
+        pieces.append(part)
+        gap_after += [False] * (len(part) - 1)
+        if i < len(joins) or (closed and i == len(parts) - 1):
+            label = joins[i] if i < len(joins) else ("seam", None)
+            arc = _corner_arc(contour, label[1], d) if label[0] == "corner" and d != 0 else None
+            if arc is not None:
+                gap_after.append(False)
+                pieces.append(arc)
+                gap_after.append(False)
+            else:
+                gap_after.append(label[0] == "tight" or (label[0] == "corner" and d != 0))
+        else:
+            gap_after.append(False)
+    chain = Chain.concat(pieces)
+    gap_after = np.array(gap_after[: len(chain)], bool)
+    if d == 0.0:
+        return chain, []
+    r = abs(d)
+    dist = distance_to_contour(contour, tol, r)
+    lengths = _lengths(chain)
+    step = np.sqrt(2.0 * r * tol)
+    counts = np.clip(np.ceil(lengths / step) + 2, 4, 4096).astype(np.int64)
+    pts, owner, _ = sample_chain(chain, counts)
+    dd = dist(pts)
+    first = np.cumsum(counts) - counts
+    mind = np.minimum.reduceat(dd, first)
+    bad = mind < r - 1.2 * tol - 1e-9
+    if np.all(bad):
+        raise InputError(
+            f"the tool (radius {r:g} mm) does not fit: every part of its path comes closer "
+            "to the contour than its radius"
+        )
+    k = len(chain)
+    if closed:
+        # start the scan at a good move after a good joint
+        good_start = (~bad) & np.roll(~bad, 1) & ~np.roll(gap_after, 1)
+        if not good_start[0]:
+            if not np.any(good_start):
+                good_start = ~bad
+            s0 = int(np.argmax(good_start))
+            order = np.roll(np.arange(k), -s0)
+            chain = chain.take(order)
+            bad, gap_after = bad[order], gap_after[order]
+    # trouble stretches: runs of bad moves, and gaps between good ones
+    spots = []
+    keep_start = chain.start.copy()
+    keep_end = chain.end.copy()
+    alive = ~bad
+    i = 0
+    eps = 1e-9 * max(1.0, float(np.abs(chain.start).max()))
+    while i < k:
+        if not bad[i] and not gap_after[i]:
+            i += 1
+            continue
+        if not bad[i] and gap_after[i]:
+            a_last, j = i, i + 1
+        else:
+            a_last = i - 1
+            j = i
+        while j < k and bad[j]:
+            j += 1
+        if j >= k and not closed:
+            break  # open path ends inside a loop: cut it there (below)
+        b_first = j % k
+        if a_last < 0:
+            i = j + 1
+            continue
+        lo_a = max(a_last - 8, 0)
+        a_idx = list(range(lo_a, min(a_last + 2, k)))
+        # unwrapped indices of the far side (a closed path wraps past its end)
+        b_top = j + 8 if closed else min(j + 8, k)
+        b_idx = [x for x in range(max(j - 1, a_last + 1), b_top) if x < k + lo_a]
+        best = None
+        for ia in a_idx:
+            for ibu in b_idx:
+                ib = ibu % k
+                if ib == ia:
+                    continue
+                for x in _intersections(chain, ia, ib, eps):
+                    key = (ia, _param_on(chain, ia, x))
+                    if best is None or key < best[0]:
+                        best = (key, ia, ibu, x)
+        if best is None:
+            gap = np.hypot(*(keep_start[b_first] - keep_end[a_last]))
+            if gap > 10 * tol:
+                x0 = keep_end[a_last]
+                raise InputError(
+                    f"the tool (radius {r:g} mm) cannot pass near ({x0[0]:.4f}, {x0[1]:.4f}): "
+                    "its path splits there; use a smaller tool"
+                )
+            # tiny gap: close it with a short line below
+            spots.append(_spot(keep_end[a_last], "overlap"))
+            i = j
+            continue
+        _, ia, ibu, x = best
+        ib = ibu % k
+        for m in range(ia + 1, ibu):
+            alive[m % k] = False
+        alive[ia] = True
+        alive[ib] = True
+        keep_end[ia] = _snap(chain, ia, x)
+        keep_start[ib] = _snap(chain, ib, x)
+        spots.append(_spot(x, "overlap"))
+        i = ibu + 1 if ibu < k else k
+    cut = Chain(chain.kind, keep_start, keep_end, chain.center, chain.t0, chain.t1).take(alive)
+    # drop degenerate remnants and bridge sub-tolerance gaps with lines
+    L = _lengths(cut)
+    cut = cut.take(L > 1e-9)
+    cut = _bridge(cut, closed)
+    return cut, spots
+
+
+def _spot(x, reason):
+    return {"x": float(x[0]), "y": float(x[1]), "reason": reason}
+
+
+def _lengths(chain):
+    L = np.hypot(*(chain.end - chain.start).T)
+    arcs = chain.kind != LINE
+    if np.any(arcs):
+        r, _, sw = arc_geometry(chain.start[arcs], chain.end[arcs], chain.center[arcs], chain.kind[arcs] == ARC_CCW)
+        L[arcs] = r * np.abs(sw)
+    return L
+
+
+def _bridge(chain, closed):
+    """Insert short lines where consecutive moves do not meet (after trimming)."""
+    if len(chain) < 2:
+        return chain
+    nxt = np.roll(chain.start, -1, axis=0) if closed else chain.start[1:]
+    gaps = np.hypot(*(nxt - chain.end[: len(nxt)]).T) > 1e-9
+    if not np.any(gaps):
+        return chain
+    idx = np.flatnonzero(gaps)
+    pieces, prev = [], 0
+    for i in idx:
+        pieces.append(chain.take(slice(prev, i + 1)))
+        s, e = chain.end[i], nxt[i]
+        pieces.append(Chain(np.array([LINE], np.int8), s[None], e[None], np.zeros((1, 2)),
+                            np.array([np.nan]), np.array([np.nan])))
+        prev = i + 1
+    pieces.append(chain.take(slice(prev, len(chain))))
+    return Chain.concat(pieces)
