@@ -251,9 +251,9 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
         raise ExportError("the toolpath has no moves: nothing to write")
     scale = 10**decimals
     tol_gap = 1.0 / scale
-    big = np.abs(np.concatenate([tp.start.ravel(), tp.end.ravel(), tp.center.ravel()]))
-    if big.size and big.max() > MAX_COORDINATE:
-        raise ExportError(f"a toolpath coordinate ({_num(big.max())} {units}) is beyond ±{MAX_COORDINATE:.0f} {units}")
+    big = max(float(np.abs(a).max()) for a in (tp.start, tp.end, tp.center))
+    if big > MAX_COORDINATE:
+        raise ExportError(f"a toolpath coordinate ({_num(big)} {units}) is beyond ±{MAX_COORDINATE:.0f} {units}")
     if n > 1:
         gap = np.abs(tp.start[1:] - tp.end[:-1]).max(axis=1)
         bad = np.flatnonzero(gap > tol_gap)
@@ -268,10 +268,9 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
     if np.any(cutting & ~(tp.feed > 0)):
         k = int(np.flatnonzero(cutting & ~(tp.feed > 0))[0])
         raise ExportError(f"move {k} is a cutting move with feed {_num(tp.feed[k])}: every cut needs a feed > 0")
-    zs = np.concatenate([tp.start[:, 2], tp.end[:, 2]])
     safe = _info_float(tp.info, "safe_height")
     if safe is None:
-        safe = float(zs.max())
+        safe = float(max(tp.start[:, 2].max(), tp.end[:, 2].max()))
     if cutting.any():
         plunge = _info_float(tp.info, "plunge_feed")
         if plunge is None or plunge <= 0:
@@ -326,21 +325,22 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
     # end equals its start is kept only if it really is a full circle
     same = np.all((q == prev) & prev_known, axis=1) | np.all(~given, axis=1)
     if arcs.any():
+        same_xy = np.all(q[:, :2] == prev[:, :2], axis=1)
         sweep = np.zeros(m)
-        ai = np.flatnonzero(arcs)
+        ai = np.flatnonzero(arcs & same_xy)  # only these can be a full circle or a speck
         src = source[ai]
         sweep[ai] = arc_sweep(tp.start[src, :2], tp.end[src, :2], tp.center[src], tp.kind[src] == ARC_CCW)
-        same_xy = np.all(q[:, :2] == prev[:, :2], axis=1)
         full = arcs & same_xy & (sweep > np.pi)
         drop = np.where(arcs, same_xy & ~full, same)
     else:
         full = np.zeros(m, bool)
         drop = same
     drop[0] = False
-    keep = ~drop
-    kind, q, given, center, feed, source, full = (
-        kind[keep], q[keep], given[keep], center[keep], feed[keep], source[keep], full[keep],
-    )
+    if drop.any():
+        keep = ~drop
+        kind, q, given, center, feed, source = (
+            kind[keep], q[keep], given[keep], center[keep], feed[keep], source[keep],
+        )
     m = len(kind)
     prev = np.empty_like(q)
     prev[1:] = q[:-1]
