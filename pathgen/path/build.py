@@ -33,7 +33,7 @@ from .._options import MM_PER_INCH, UNITS, check_option, check_positive, side_si
 from ..errors import InputError
 from .flatten import MOVES, approximate
 from .measure import Chain, arc_geometry
-from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath, move_lengths
+from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from .offset import assemble, regular_windows
 
 __all__ = ["make_toolpath", "contour_moves", "choose_seam", "DIRECTIONS", "LEADS"]
@@ -350,11 +350,12 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     end = np.vstack(ends)
     center = np.vstack(centers)
     feed_arr = np.concatenate(feeds)
-    path = Toolpath(kind, start, end, center, feed_arr)
-    lengths = move_lengths(path)
-    rapid = kind == RAPID
-    time_s = 60.0 * (float(np.sum(lengths[rapid])) / machine.rapid_feed
-                     + float(np.sum(lengths[~rapid] / np.where(rapid, 1.0, feed_arr)[~rapid])))
+    # feed per block from the machine's limits (curvature, acceleration,
+    # block rate), never above the programmed feed; and the planned time
+    from ..checks.feed import feeds_for_moves
+
+    feed_arr, time_s = feeds_for_moves(kind, start, end, center, feed=feed_arr, machine=machine)
+    feed_arr = np.where(kind == RAPID, 0.0, feed_arr)
     seam_xy = (float(S[0]), float(S[1]))
     info = {
         "moves": moves,
@@ -378,7 +379,7 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
             "arc": int(np.sum(kind >= ARC_CW)),
             "per_pass": int(len(chain)),
         },
-        "feeds": "programmed",
+        "feeds": "planned",
         **stats,
     }
     meta = dict(units="mm", tool_diameter=float(tool.diameter), side=cut.side, tolerance=float(tol),

@@ -275,6 +275,28 @@ def _snap(chain, i, x):
 
 
 # -- assembling ------------------------------------------------------------------
+def _cross(chain, a_idx, b_idx, eps):
+    """Earliest crossing along the A moves with any B move: (ia, ib, x) or None."""
+    best = None
+    for ia in a_idx:
+        for ib in b_idx:
+            if ib == ia:
+                continue
+            for x in _intersections(chain, ia, ib, eps):
+                key = (a_idx.index(ia), _param_on(chain, ia, x))
+                if best is None or key < best[0]:
+                    best = (key, ia, ib, x)
+    return None if best is None else best[1:]
+
+
+def _apply_cut(chain, alive, ks, ke, ia, ib, x, between):
+    for m in between:
+        alive[m] = False
+    alive[ia] = alive[ib] = True
+    ke[ia] = _snap(chain, ia, x)
+    ks[ib] = _snap(chain, ib, x)
+
+
 def assemble(contour, parts, joins, d, tol, *, closed):
     """Join approximated windows into one simple tool-center chain.
 
@@ -283,7 +305,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     parts : list of Chain, one per window, in order.
     joins : labels between consecutive parts (see :func:`regular_windows`);
         for a closed path, the join between the last part and the first is
-        taken from the contour's seam (a corner there or none).
+        the seam (smooth, or a corner when the seam was put on one).
     d : signed offset, mm.  tol : tolerance, mm.
 
     Returns
@@ -292,119 +314,95 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     spots : list of dicts for what was trimmed ("overlap" at corners and
         narrow gaps).
     """
-    pieces = []
-    gap_after = []
+    pieces, gaps, n = [], [], 0
+    labels = list(joins) + ([("seam", None)] if closed else [])
     for i, part in enumerate(parts):
         pieces.append(part)
-        gap_after += [False] * (len(part) - 1)
-        if i < len(joins) or (closed and i == len(parts) - 1):
-            label = joins[i] if i < len(joins) else ("seam", None)
-            arc = _corner_arc(contour, label[1], d) if label[0] == "corner" and d != 0 else None
+        n += len(part)
+        if i < len(labels):
+            label = labels[i]
+            arc = None
+            if label[0] == "corner" and d != 0:
+                arc = _corner_arc(contour, label[1], d)
+                if arc is None:
+                    gaps.append(n)
+            elif label[0] == "tight":
+                gaps.append(n)
             if arc is not None:
-                gap_after.append(False)
                 pieces.append(arc)
-                gap_after.append(False)
-            else:
-                gap_after.append(label[0] == "tight" or (label[0] == "corner" and d != 0))
-        else:
-            gap_after.append(False)
+                n += 1
     chain = Chain.concat(pieces)
-    gap_after = np.array(gap_after[: len(chain)], bool)
     if d == 0.0:
         return chain, []
+    k = len(chain)
     r = abs(d)
+    eps = 1e-9 * max(1.0, float(np.abs(chain.start).max()))
+    alive = np.ones(k, bool)
+    ks, ke = chain.start.copy(), chain.end.copy()
+    spots = []
+
+    def around(j, before, count):
+        out = []
+        m = j - 1 if before else j
+        while len(out) < count and (0 <= m < k or closed) and abs(m - j) <= k:
+            if alive[m % k]:
+                out.append(m % k)
+            m += -1 if before else 1
+            if not closed and not (0 <= m < k):
+                break
+        return out
+
+    # 1. overlaps at concave corners and tight spots: cut where the sides cross
+    for j in gaps:
+        j = j % k if closed else j
+        found = None
+        for count in (6, 24):
+            a_idx, b_idx = around(j, True, count), around(j, False, count)
+            if a_idx and b_idx:
+                found = _cross(chain, a_idx, b_idx, eps)
+            if found:
+                break
+        if found:
+            ia, ib, x = found
+            between = range(ia + 1, ib if ib > ia else ib + k)
+            _apply_cut(chain, alive, ks, ke, ia, ib, x, [m % k for m in between])
+            spots.append(_spot(x, "overlap"))
+    # 2. anything still closer to the contour than the tool radius (narrow gaps)
     dist = distance_to_contour(contour, tol, r)
-    lengths = _lengths(chain)
+    cur = Chain(chain.kind, ks, ke, chain.center, chain.t0, chain.t1)
     step = np.sqrt(2.0 * r * tol)
-    counts = np.clip(np.ceil(lengths / step) + 2, 4, 4096).astype(np.int64)
-    pts, owner, _ = sample_chain(chain, counts)
-    dd = dist(pts)
+    counts = np.clip(np.ceil(_lengths(cur) / step) + 2, 4, 4096).astype(np.int64)
+    pts, _, _ = sample_chain(cur, counts)
     first = np.cumsum(counts) - counts
-    mind = np.minimum.reduceat(dd, first)
-    bad = mind < r - 1.2 * tol - 1e-9
-    if np.all(bad):
+    bad = (np.minimum.reduceat(dist(pts), first) < r - 1.2 * tol - 1e-9) & alive
+    if np.all(bad[alive]):
         raise InputError(
             f"the tool (radius {r:g} mm) does not fit: every part of its path comes closer "
             "to the contour than its radius"
         )
-    k = len(chain)
-    if closed:
-        # start the scan at a good move after a good joint
-        good_start = (~bad) & np.roll(~bad, 1) & ~np.roll(gap_after, 1)
-        if not good_start[0]:
-            if not np.any(good_start):
-                good_start = ~bad
-            s0 = int(np.argmax(good_start))
-            order = np.roll(np.arange(k), -s0)
-            chain = chain.take(order)
-            bad, gap_after = bad[order], gap_after[order]
-    # trouble stretches: runs of bad moves, and gaps between good ones
-    spots = []
-    keep_start = chain.start.copy()
-    keep_end = chain.end.copy()
-    alive = ~bad
-    i = 0
-    eps = 1e-9 * max(1.0, float(np.abs(chain.start).max()))
-    while i < k:
-        if not bad[i] and not gap_after[i]:
-            i += 1
-            continue
-        if not bad[i] and gap_after[i]:
-            a_last, j = i, i + 1
-        else:
-            a_last = i - 1
-            j = i
-        while j < k and bad[j]:
-            j += 1
-        if j >= k and not closed:
-            break  # open path ends inside a loop: cut it there (below)
-        b_first = j % k
-        if a_last < 0:
-            i = j + 1
-            continue
-        lo_a = max(a_last - 8, 0)
-        a_idx = list(range(lo_a, min(a_last + 2, k)))
-        # unwrapped indices of the far side (a closed path wraps past its end)
-        b_top = j + 8 if closed else min(j + 8, k)
-        b_idx = [x for x in range(max(j - 1, a_last + 1), b_top) if x < k + lo_a]
-        best = None
-        for ia in a_idx:
-            for ibu in b_idx:
-                ib = ibu % k
-                if ib == ia:
-                    continue
-                for x in _intersections(chain, ia, ib, eps):
-                    key = (ia, _param_on(chain, ia, x))
-                    if best is None or key < best[0]:
-                        best = (key, ia, ibu, x)
-        if best is None:
-            gap = np.hypot(*(keep_start[b_first] - keep_end[a_last]))
-            if gap > 10 * tol:
-                x0 = keep_end[a_last]
-                raise InputError(
-                    f"the tool (radius {r:g} mm) cannot pass near ({x0[0]:.4f}, {x0[1]:.4f}): "
-                    "its path splits there; use a smaller tool"
-                )
-            # tiny gap: close it with a short line below
-            spots.append(_spot(keep_end[a_last], "overlap"))
-            i = j
-            continue
-        _, ia, ibu, x = best
-        ib = ibu % k
-        for m in range(ia + 1, ibu):
-            alive[m % k] = False
-        alive[ia] = True
-        alive[ib] = True
-        keep_end[ia] = _snap(chain, ia, x)
-        keep_start[ib] = _snap(chain, ib, x)
+    idx = np.flatnonzero(bad)
+    runs = np.split(idx, np.flatnonzero(np.diff(idx) > 1) + 1) if len(idx) else []
+    for run in runs:
+        if not np.all(bad[run]):
+            continue  # already cut by an earlier run
+        j0, j1 = int(run[0]), int(run[-1]) + 1
+        a_idx = [m for m in around(j0, True, 8)]
+        b_idx = [m for m in around(j1, False, 8)]
+        found = _cross(chain, a_idx + [m for m in run[:4]], [m for m in run[-4:]] + b_idx, eps)
+        if found is None:
+            x0 = ke[a_idx[0]] if a_idx else ks[j0]
+            raise InputError(
+                f"the tool (radius {r:g} mm) cannot pass near ({x0[0]:.4f}, {x0[1]:.4f}): "
+                "its path splits there; use a smaller tool"
+            )
+        ia, ib, x = found
+        between = range(ia + 1, ib if ib > ia else ib + k)
+        _apply_cut(chain, alive, ks, ke, ia, ib, x, [m % k for m in between])
+        bad[[m % k for m in between]] = False
         spots.append(_spot(x, "overlap"))
-        i = ibu + 1 if ibu < k else k
-    cut = Chain(chain.kind, keep_start, keep_end, chain.center, chain.t0, chain.t1).take(alive)
-    # drop degenerate remnants and bridge sub-tolerance gaps with lines
-    L = _lengths(cut)
-    cut = cut.take(L > 1e-9)
-    cut = _bridge(cut, closed)
-    return cut, spots
+    cut = Chain(chain.kind, ks, ke, chain.center, chain.t0, chain.t1).take(alive)
+    cut = cut.take(_lengths(cut) > 1e-9)
+    return _bridge(cut, closed), spots
 
 
 def _spot(x, reason):
