@@ -196,24 +196,26 @@ def _fmt_time(seconds) -> str:
 
 
 def _summary_lines(result) -> list[str]:
-    """A short, plain summary of a pipeline result."""
-    f = result.facts
-    kind = "closed" if f["closed"] else "open"
-    x, y = f["min_radius_at"]
-    lines = [
-        f"{result.source}: {f['points']} points, {kind}, {f['pieces']} pieces, {f['corners']} corners",
-        f"  length          {_fmt_len(f['length'])}",
-        f"  smallest radius {_fmt_len(f['min_radius'])} at x={x:.3f} y={y:.3f} (s={f['min_radius_s']:.3f} mm)",
-    ]
+    """A short, plain summary: the report's text when there is a report,
+    else the contour's facts; then the program and the files written."""
     text = _report_text(result)
     if text:
-        lines += ["", text.rstrip("\n")]
+        lines = [f"{result.source}:", text.rstrip("\n")]
+    else:
+        f = result.facts
+        kind = "closed" if f["closed"] else "open"
+        x, y = f["min_radius_at"]
+        lines = [
+            f"{result.source}: {f['points']} points, {kind}, {f['pieces']} pieces, {f['corners']} corners",
+            f"  length          {_fmt_len(f['length'])}",
+            f"  smallest radius {_fmt_len(f['min_radius'])} at x={x:.3f} y={y:.3f} (s={f['min_radius_s']:.3f} mm)",
+        ]
     tp = result.toolpath
     if tp is not None:
-        lines.append(f"  program         {tp.block_count} moves, deviation {tp.deviation:.4f} mm "
-                     f"(tolerance {tp.tolerance:.4f} mm)")
+        lines.append(f"program: {tp.block_count} moves, measured deviation {tp.deviation:.4f} {tp.units} "
+                     f"(tolerance {tp.tolerance:.4f} {tp.units})")
     for kind_, p in result.files.items():
-        lines.append(f"  wrote {kind_:<11} {p}")
+        lines.append(f"wrote {kind_}: {p}")
     return lines
 
 

@@ -111,7 +111,7 @@ def contour_facts(contour, *, per_piece: int = 8) -> dict:
 
 
 def _import(module: str):
-    """A later stage's module, or None while it does not exist yet."""
+    """A stage's module, or None while it does not exist yet."""
     import importlib
 
     try:
@@ -286,25 +286,40 @@ def run(
     closed = outline.closed
 
     # -- fit -----------------------------------------------------------------
-    out_mod = _import("pathgen.outline")
-    if out_mod is not None:
-        kw = {"end": end, "param": param}
-        if closed is not None:
-            kw["closed"] = closed
-        if smooth_mm is not None:
-            kw["smooth"] = smooth_mm
-        if corner_angle is not None:
-            kw["corner_angle"] = corner_angle
-        contour = timed("fit", out_mod.fit_outline, outline, **kw)
-    else:
-        if smooth_mm is not None or corner_angle is not None:
-            raise InputError("smoothing and corner detection are not available in this build")
-        from .spline import fit
+    from .outline import fit_outline
 
-        contour = timed("fit", fit, outline.points, closed=closed, end=end, param=param)
-
+    kw = {"end": end, "param": param, "smooth": smooth_mm}
+    if corner_angle is not None:
+        kw["corner_angle"] = check_positive("corner angle", corner_angle)
+    contour = timed("fit", fit_outline, outline, **kw)
     facts = timed("facts", contour_facts, contour)
-    return Result(source, outline, contour, facts=facts, timings=timings, files={})
+
+    # -- check -----------------------------------------------------------------
+    checks = _import("pathgen.checks.report")
+    rep = None
+    if checks is not None:
+        rep = timed("check", checks.check, contour, mach, tool, cut)
+
+    # -- toolpath --------------------------------------------------------------
+    tp = None
+    if "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets)):
+        from .path.build import make_toolpath
+
+        kw = {"moves": moves, "lead": lead, "seam": seam, "units": units}
+        for name, value in (("depth", depth), ("step_down", step_down), ("safe_height", safe_height)):
+            if value is not None:
+                kw[name] = _length(name.replace("_", " "), value, scale)
+        tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
+
+    # -- write -----------------------------------------------------------------
+    files = {}
+    if "gcode" in targets:
+        from .export.gcode import write_gcode
+
+        files["gcode"] = timed("gcode", write_gcode, tp, targets["gcode"], force=force,
+                               source=Path(source).name)
+    return Result(source, outline, contour, report=rep, toolpath=tp, facts=facts,
+                  timings=timings, files=files)
 
 
 # -- many files -----------------------------------------------------------------
