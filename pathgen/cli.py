@@ -223,31 +223,16 @@ def _report_text(result) -> str:
     rep = result.report
     if rep is None:
         return ""
-    for name in ("text", "to_text", "as_text"):
-        fn = getattr(rep, name, None)
-        if callable(fn):
-            return fn()
-    return str(rep)
+    return rep.to_text(units=result.units)
 
 
 def _report_json(result) -> str:
     import json
 
     rep = result.report
-    data = None
-    for name in ("to_json", "as_json"):
-        fn = getattr(rep, name, None)
-        if callable(fn):
-            out = fn()
-            return out if isinstance(out, str) else json.dumps(out, indent=2, sort_keys=True)
-    for name in ("to_dict", "as_dict"):
-        fn = getattr(rep, name, None)
-        if callable(fn):
-            data = fn()
-            break
     payload = {"source": result.source, "contour": result.facts}
-    if data is not None:
-        payload["report"] = data
+    if rep is not None:
+        payload["report"] = rep.to_dict(units=result.units)
     if result.files:
         payload["files"] = {k: str(v) for k, v in result.files.items()}
     return json.dumps(payload, indent=2, sort_keys=True, allow_nan=False, default=_json_default)

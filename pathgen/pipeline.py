@@ -50,6 +50,8 @@ class Result:
     files : kind ("gcode", "dxf", "report", "report_text", "plot") → path written.
     facts : plain numbers about the contour (see :func:`contour_facts`).
     timings : stage → wall seconds.
+    units : the units the user works in ("mm" or "inch"); the values above
+        are mm, the toolpath and written files are in these units.
     """
 
     source: str
@@ -60,6 +62,7 @@ class Result:
     files: dict = field(default_factory=dict)
     facts: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)
+    units: str = "mm"
 
     @property
     def tool_cannot_reach(self) -> bool:
@@ -319,7 +322,7 @@ def run(
         files["gcode"] = timed("gcode", write_gcode, tp, targets["gcode"], force=force,
                                source=Path(source).name)
     return Result(source, outline, contour, report=rep, toolpath=tp, facts=facts,
-                  timings=timings, files=files)
+                  timings=timings, files=files, units=units)
 
 
 # -- many files -----------------------------------------------------------------
