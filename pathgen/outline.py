@@ -216,6 +216,10 @@ def _piece_moments(t, y, start, stop):
     if n == 1:
         start = "natural" if isinstance(start, str) else start
         stop = "natural" if isinstance(stop, str) else stop
+    if n == 2 and start == "not-a-knot" and stop == "not-a-knot":
+        # both conditions say the same thing: the parabola through 3 points
+        r = 6.0 * (slope[1] - slope[0]) / (h[0] + h[1])
+        return np.tile(r / 3.0, (3, 1))
     d = np.full(n + 1, 2.0)
     du = np.zeros(n)
     dl = np.zeros(n)
@@ -304,7 +308,9 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
         Parameter steps, as in :func:`pathgen.spline.fit`.
     corner_angle : float or None, degrees
         Turning angle above which a point is a corner (default 40°);
-        None: no detection.
+        None: no corner detection and no search for straight edges inside
+        pieces (pieces between forced corners are still straight when
+        their points are).
     corners : sequence of int or None
         Point indices (into ``outline.points``) forced to be corners.
     smooth : float or None, mm
@@ -320,8 +326,9 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
     Returns
     -------
     pathgen.spline.Contour
-        ``corners`` lists the break indices at corners (one break per
-        point; closed outlines have one more break at the end of the seam).
+        ``corners`` lists the break indices where the tangent jumps: the
+        detected and forced corners (one break per point; closed outlines
+        have one more break at the end of the seam).
         ``info`` holds "corners", "straight_runs" (pairs of point indices),
         "corner_angle" (degrees), "smooth", "max_residual" and
         "rms_residual" (mm; distances of the points from the contour).
@@ -394,8 +401,9 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
     # piece boundaries (rotated indices): corners, ends
     bounds = np.sort((cs - start) % n) if len(cs) else np.zeros(0, np.int64)
     bounds = np.unique(np.concatenate([[0], bounds, [m]]))
+    search = smooth is None and corner_angle is not None  # straight runs inside pieces
     if closed and len(cs) == 0 and smooth is None:
-        runs_all = straight_runs(q, tol, STRAIGHT_MIN_RATIO * size)
+        runs_all = straight_runs(q, tol, STRAIGHT_MIN_RATIO * size) if search else []
         if not runs_all:
             c = fit(p, closed=True, param=param)
             return _finish(c, p, closed, (), [], facts, None)
@@ -413,9 +421,9 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
         ts = tq[a:b + 1]
         first_cond = end if (a > 0 or closed) else (tan[0] if tan is not None else end)
         last_cond = end if (b < m or closed) else (tan[1] if tan is not None else end)
-        if first_cond == "clamped":
-            first_cond = "not-a-knot"
-        if last_cond == "clamped":
+        if isinstance(first_cond, str) and first_cond == "clamped":
+            first_cond = "not-a-knot"  # at a corner
+        if isinstance(last_cond, str) and last_cond == "clamped":
             last_cond = "not-a-knot"
         corner_free_loop = closed and len(cs) == 0
         if not corner_free_loop and (b - a == 1 or _deviation(seg).max() <= tol):
@@ -424,7 +432,7 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
             if b - a >= 2:
                 runs_out.append((a, b))
             continue
-        inner = [] if smooth is not None else straight_runs(seg, tol, STRAIGHT_MIN_RATIO * size)
+        inner = straight_runs(seg, tol, STRAIGHT_MIN_RATIO * size) if search else []
         # alternate curved and straight stretches
         cuts = [(0, "curve")]
         for i, j in inner:
@@ -475,12 +483,25 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
     else:
         hq_orig = hq
     breaks = np.concatenate([[0.0], np.cumsum(hq_orig)])
-    corner_breaks = tuple(sorted(int(i) for i in cs))
+    corner_breaks = tuple(sorted(set(int(i) for i in cs) | _kinks(breaks, coeffs, closed)))
     runs = [((int(i) + start) % n, (int(j) + start) % n) for i, j in runs_out]
     c = Contour(breaks, coeffs, closed, p, corners=corner_breaks,
                 end="periodic" if closed and len(cs) == 0 else end, param=param)
     return _finish(c, p, closed, corner_breaks, runs, facts,
                    residual[:n] if smooth is not None else None)
+
+
+def _kinks(breaks, c, closed) -> set:
+    """Breaks where the tangent direction jumps (more than 1e-9 rad)."""
+    h = np.diff(breaks)[:, None]
+    left = (3.0 * c[0] * h + 2.0 * c[1]) * h + c[2]  # P' at the end of each piece
+    right = c[2]  # P' at the start of each piece
+    if closed:
+        a, b, at = left, np.roll(right, -1, axis=0), np.arange(1, len(h) + 1) % len(h)
+    else:
+        a, b, at = left[:-1], right[1:], np.arange(1, len(h))
+    ang = np.abs(np.arctan2(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0], (a * b).sum(axis=1)))
+    return {int(i) for i in at[ang > 1e-9]}
 
 
 def _unit(p0, p1) -> np.ndarray:
@@ -490,14 +511,11 @@ def _unit(p0, p1) -> np.ndarray:
 
 
 def _finish(c, p, closed, corners, runs, facts, residual):
-    from .smooth import foot_distances
-
     info = dict(facts)
     info["corners"] = list(corners)
     info["straight_runs"] = [list(r) for r in runs]
-    if residual is None:
-        t = c.breaks[: len(p)]
-        residual = foot_distances(c, p, t)
+    if residual is None:  # interpolation: measure |C(t_i) - P_i| at the breaks
+        residual = np.hypot(*(c(c.breaks[: len(p)]) - p).T)
     info["max_residual"] = float(residual.max())
     info["rms_residual"] = float(np.sqrt(np.mean(residual**2)))
     c.info.update(info)

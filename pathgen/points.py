@@ -49,6 +49,7 @@ __all__ = [
     "clean_points",
     "MERGE_RTOL",
     "MAX_COORD_MM",
+    "MIN_SIZE_MM",
     "JUMP_RATIO",
     "MAX_LINE_CHARS",
 ]
@@ -56,6 +57,8 @@ __all__ = [
 #: Consecutive points closer than this times the outline's size (its
 #: bounding-box diagonal) are merged: 0.1 µm on a 100 mm part.
 MERGE_RTOL = 1e-6
+#: Outlines smaller than this (bounding-box diagonal, mm) are refused.
+MIN_SIZE_MM = 1e-6
 #: Coordinates beyond ±1 km (in mm) are refused as absurd.
 MAX_COORD_MM = 1e6
 #: A step longer than this many times the median step is reported.
@@ -462,6 +465,9 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
         raise InputError(f"{where(i)}: coordinate {v:.6g} mm is absurd (beyond "
                          f"±{MAX_COORD_MM:.0f} mm = 1 km); check the units and columns")
     size = float(np.hypot(*(p.max(axis=0) - p.min(axis=0))))
+    if 0 < size < MIN_SIZE_MM:
+        raise InputError(f"{source}: all points lie within {size:.3g} mm of each other "
+                         f"(less than {MIN_SIZE_MM:g} mm): check the units")
     tol = MERGE_RTOL * size if merge_tol is None else float(merge_tol)
     # merge consecutive repeats (repeat until no close pair remains)
     while len(p) > 1:
