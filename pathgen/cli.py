@@ -277,6 +277,9 @@ def _emit(result, a, *, caution: str, out=sys.stdout, err=sys.stderr) -> int:
     summary, else on stderr) or "text" (only with the text summary).
     """
     text = not (a.json or a.quiet)
+    if not a.quiet:
+        for note in result.notes:
+            err.write(f"pathgen {a.command}: note: {' '.join(note.split())}\n")
     if a.json:
         result = result.__class__(**{**result.__dict__, "facts": _jsonable_facts(result.facts)})
         out.write(_report_json(result) + "\n")

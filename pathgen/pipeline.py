@@ -52,6 +52,9 @@ class Result:
     timings : stage → wall seconds.
     units : the units the user works in ("mm" or "inch"); the values above
         are mm, the toolpath and written files are in these units.
+    notes : warnings for the user, plain sentences (the input's warnings,
+        e.g. points out of order or a self-crossing outline, and writers'
+        warnings, e.g. a very large drawing).
     """
 
     source: str
@@ -63,6 +66,7 @@ class Result:
     facts: dict = field(default_factory=dict)
     timings: dict = field(default_factory=dict)
     units: str = "mm"
+    notes: tuple = ()
 
     @property
     def tool_cannot_reach(self) -> bool:
@@ -315,14 +319,27 @@ def run(
         tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
 
     # -- write -----------------------------------------------------------------
-    files = {}
-    if "gcode" in targets:
-        from .export.gcode import write_gcode
+    import warnings
 
-        files["gcode"] = timed("gcode", write_gcode, tp, targets["gcode"], force=force,
-                               source=Path(source).name)
+    files = {}
+    notes = list(getattr(outline, "warnings", ()))
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        if "gcode" in targets:
+            from .export.gcode import write_gcode
+
+            files["gcode"] = timed("gcode", write_gcode, tp, targets["gcode"], force=force,
+                                   source=Path(source).name)
+        if "dxf" in targets:
+            from .export.dxf import write_dxf
+            from .path.build import contour_moves
+
+            arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
+            files["dxf"] = timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
+                                 report=rep, units=units, force=force)
+    notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]
     return Result(source, outline, contour, report=rep, toolpath=tp, facts=facts,
-                  timings=timings, files=files, units=units)
+                  timings=timings, files=files, units=units, notes=tuple(notes))
 
 
 # -- many files -----------------------------------------------------------------
