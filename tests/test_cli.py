@@ -7,6 +7,7 @@ the real ``python -m pathgen`` in a subprocess.
 from __future__ import annotations
 
 import io
+import re
 import json
 import subprocess
 import sys
@@ -198,3 +199,94 @@ def test_bad_corpus_through_every_command(bad, command, tmp_path):
         args += ["-o", tmp_path / f"out{suffix}", "--tool-diameter", "6"]
     assert_one_line_error(*call(*args), names=bad.name)
     assert list(tmp_path.iterdir()) == []  # no output file, no temporary file
+
+
+# -- the whole job on every sample ----------------------------------------------------
+def _job(tmp: Path, sample: Path, *extra):
+    """`pathgen gcode` in a real subprocess; returns (status, stdout, stderr, program)."""
+    tmp.mkdir(exist_ok=True)
+    prog = tmp / (sample.stem + ".nc")
+    cmd = [sys.executable, "-m", "pathgen", "gcode", str(sample), "-o", str(prog),
+           "--tool-diameter", "6", "--machine", str(SAMPLES / "router.toml"), *extra]
+    r = subprocess.run(cmd, capture_output=True, text=True, cwd=ROOT, check=False)
+    return r.returncode, r.stdout, r.stderr, prog
+
+
+@pytest.mark.parametrize("sample", SAMPLE_CSV, ids=lambda p: p.name)
+def test_gcode_on_every_sample_in_a_subprocess(sample, tmp_path):
+    status, out, err, prog = _job(tmp_path / "a", sample)
+    assert status in (0, 1), err
+    assert "Traceback" not in err
+    report = json.loads((prog.with_name(prog.stem + ".report.json")).read_text()) \
+        if prog.with_name(prog.stem + ".report.json").exists() else None
+    # the exit status says what the check found (exit 1: the tool cannot reach)
+    status_check, jout, _ = call("check", sample, "--json", "--tool-diameter", "6",
+                                 "--machine", SAMPLES / "router.toml")
+    assert status == status_check == (1 if json.loads(jout)["report"]["tool_cannot_reach"] else 0)
+    if report is not None:
+        assert isinstance(report, dict)
+    text = prog.read_text()
+    # NISTIR 6556 §3.3.2.1: fixed-point numbers, no exponent; never NaN or inf
+    assert not re.search(r"[XYZIJF][-+]?\d*\.?\d*[eE]", text)
+    assert not re.search(r"nan|inf", text, flags=re.I)
+    assert all(len(line) <= 256 for line in text.splitlines())  # §3.3
+    assert "Verify" in text and "before cutting" in text  # the caution in the header
+    assert CAUTION in " ".join(out.split())  # and on the command line
+    assert "wrote gcode" in out
+    # same input, same bytes
+    status2, _, _, prog2 = _job(tmp_path / "b", sample)
+    assert status2 == status and prog2.read_bytes() == prog.read_bytes()
+
+
+def test_hook_is_too_tight_for_6mm_but_not_for_2mm(tmp_path):
+    # The hook's slot ends in a 2 mm radius (its construction in pathgen.demo,
+    # measured ~1.4-2 mm on the noisy points): a 6 mm tool (r = 3) cannot reach
+    # it, a 2 mm tool (r = 1) can (tool-radius rule, SOURCES.md §9).
+    hook = SAMPLES / "hook.csv"
+    status, out, _ = call("check", hook, "--tool-diameter", "6")
+    assert status == 1 and "tool cannot reach" in out
+    status, jout, _ = call("check", hook, "--tool-diameter", "6", "--json")
+    spots = json.loads(jout)["report"]["tight_spots"]
+    near = [s for s in spots if s["reason"] in ("tool cannot reach", "reach", "tool_cannot_reach")
+            and abs(s["x"] - 40.0) < 3.0 and 24.0 < s["y"] < 40.0]
+    assert near, spots
+    assert call("check", hook, "--tool-diameter", "2")[0] == 0
+
+
+def test_quiet_gcode_still_prints_the_caution(tmp_path):
+    status, out, err = call("gcode", SAMPLES / "profile.csv", "-o", tmp_path / "p.nc",
+                            "--tool-diameter", "6", "--quiet")
+    assert status in (0, 1) and out == ""
+    assert CAUTION in err
+
+
+def test_gcode_refuses_to_overwrite(tmp_path):
+    target = tmp_path / "p.nc"
+    target.write_text("keep")
+    assert_one_line_error(*call("gcode", SAMPLES / "profile.csv", "-o", target, "--tool-diameter", "6"),
+                          names="--force")
+    assert target.read_text() == "keep"
+    status, _, _ = call("gcode", SAMPLES / "profile.csv", "-o", target, "--tool-diameter", "6", "--force")
+    assert status in (0, 1) and target.read_text() != "keep"
+
+
+def test_gcode_without_a_tool_is_refused(tmp_path):
+    assert_one_line_error(*call("gcode", SAMPLES / "bracket.csv", "-o", tmp_path / "b.nc"),
+                          names="--tool-diameter")
+    assert list(tmp_path.iterdir()) == []
+
+
+@pytest.mark.parametrize("sample", SAMPLE_CSV, ids=lambda p: p.name)
+def test_dxf_on_every_sample(sample, tmp_path):
+    import ezdxf
+
+    paths = [tmp_path / "a.dxf", tmp_path / "b.dxf"]
+    for p in paths:
+        status, out, err = call("dxf", sample, "-o", p, "--tool-diameter", "6")
+        assert status in (0, 1), err
+    assert paths[0].read_bytes() == paths[1].read_bytes()
+    doc = ezdxf.readfile(paths[0])
+    assert len(doc.audit().errors) == 0  # ezdxf's auditor (the DXF reference library)
+    msp = doc.modelspace()
+    assert len(msp.query("SPLINE")) >= 1
+    assert len(msp.query("POINT")) == len(rows_of(sample)) - bool(np.array_equal(rows_of(sample)[0], rows_of(sample)[-1]))
