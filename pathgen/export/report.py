@@ -1,0 +1,129 @@
+"""Write the check report next to the program: JSON for programs, text for people.
+
+``part.nc`` → ``part.report.json`` and ``part.report.txt`` (see
+:func:`report_paths_for`).  The JSON comes from ``report.to_dict()``, written
+with sorted keys, two-space indent and no NaN or infinity (the report turns
+non-finite numbers into null; anything else non-finite is refused with the
+field named).  The text comes from ``report.to_text()``.  Both files are
+written together, atomically: either both appear or neither.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import os
+from pathlib import Path
+
+import numpy as np
+
+from .._options import UNITS, check_option
+from ..errors import ExportError
+from ._atomic import atomic_paths
+
+__all__ = ["write_report", "report_paths_for", "report_json"]
+
+
+def report_paths_for(program_path) -> tuple[Path, Path]:
+    """The report files that belong to a program (or any output) file.
+
+    >>> [str(p) for p in report_paths_for("out/part.nc")]
+    ['out/part.report.json', 'out/part.report.txt']
+    >>> [str(p) for p in report_paths_for("part")]
+    ['part.report.json', 'part.report.txt']
+    """
+    p = Path(os.fspath(program_path))
+    base = p.with_suffix("") if p.suffix else p
+    return base.with_name(base.name + ".report.json"), base.with_name(base.name + ".report.txt")
+
+
+def _paths(path) -> tuple[Path, Path]:
+    p = Path(os.fspath(path))
+    suffix = p.suffix.lower()
+    if suffix == ".json":
+        return p, p.with_suffix(".txt")
+    if suffix == ".txt":
+        return p.with_suffix(".json"), p
+    return report_paths_for(p)
+
+
+def _plain(value, where: str):
+    """JSON-ready copy of ``value``; numpy scalars and arrays become Python."""
+    if isinstance(value, dict):
+        out = {}
+        for k, v in value.items():
+            if not isinstance(k, str):
+                raise ExportError(f"report field {where or '<top>'} has a key {k!r} that is not text")
+            out[k] = _plain(v, f"{where}.{k}" if where else k)
+        return out
+    if isinstance(value, (list, tuple)):
+        return [_plain(v, f"{where}[{i}]") for i, v in enumerate(value)]
+    if isinstance(value, np.ndarray):
+        return _plain(value.tolist(), where)
+    if value is None or isinstance(value, (str, bool)):
+        return value
+    if isinstance(value, np.bool_):
+        return bool(value)
+    if isinstance(value, (int, np.integer)):
+        return int(value)
+    if isinstance(value, (float, np.floating)):
+        v = float(value)
+        if not math.isfinite(v):
+            raise ExportError(f"report field {where} is {v}: JSON has no NaN or infinity")
+        return v
+    raise ExportError(f"report field {where} holds a value of type {type(value).__name__}, which JSON cannot store")
+
+
+def report_json(report, *, units: str = "mm") -> str:
+    """The report as JSON text: sorted keys, indent 2, ends with a newline.
+
+    >>> class R:
+    ...     def to_dict(self): return {"b": np.float64(1.5), "a": [np.int64(2), None]}
+    >>> print(report_json(R()), end="")
+    {
+      "a": [
+        2,
+        null
+      ],
+      "b": 1.5
+    }
+    """
+    data = report.to_dict() if units == "mm" else report.to_dict(units=units)
+    if not isinstance(data, dict):
+        raise ExportError(f"report.to_dict() gave a {type(data).__name__}, not a dict")
+    return json.dumps(_plain(data, ""), allow_nan=False, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+
+
+def write_report(report, path, *, units: str = "mm", force: bool = False) -> tuple[Path, Path]:
+    """Write ``report`` as JSON and text files, both or neither.
+
+    Parameters
+    ----------
+    report : CheckReport or any object with ``to_dict()`` and ``to_text()``
+    path : path-like
+        ``x.json`` or ``x.txt`` names one file and the other gets the other
+        suffix; any other name (e.g. the program ``part.nc``) gives
+        ``part.report.json`` and ``part.report.txt`` beside it.
+    units : "mm" or "inch"
+        Units the report states (passed to ``to_dict``/``to_text`` when
+        not mm).
+    force : bool
+        Replace existing files; otherwise ExportError if either exists and
+        nothing is written.
+
+    Returns
+    -------
+    (json_path, text_path) : tuple of pathlib.Path
+    """
+    units = check_option("units", units, UNITS)
+    json_path, text_path = _paths(path)
+    text_json = report_json(report, units=units)
+    text = report.to_text() if units == "mm" else report.to_text(units=units)
+    if not isinstance(text, str):
+        raise ExportError(f"report.to_text() gave a {type(text).__name__}, not text")
+    if not text.endswith("\n"):
+        text += "\n"
+    with atomic_paths([json_path, text_path], force=force) as (tmp_json, tmp_text):
+        tmp_json.write_bytes(text_json.encode("utf-8"))
+        tmp_text.write_bytes(text.encode("utf-8"))
+    return json_path, text_path
