@@ -385,7 +385,7 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     meta = dict(units="mm", tool_diameter=float(tool.diameter), side=cut.side, tolerance=float(tol),
                 deviation=float(dev), time=float(time_s), info=info)
     if units == "inch":
-        return _to_inch(path, meta)
+        return _to_inch(Toolpath(kind, start, end, center, feed_arr), meta)
     return Toolpath(kind, start, end, center, feed_arr, **meta)
 
 

@@ -254,14 +254,16 @@ def _intersections(chain, i, j, eps):
 
 
 def _param_on(chain, i, x):
-    """Fraction (0..1) of point x along primitive i."""
+    """Signed fraction of point x along primitive i (< 0 before its start)."""
     s, e = chain.start[i], chain.end[i]
     if chain.kind[i] == LINE:
         ab = e - s
         return float((x - s) @ ab / (ab @ ab))
     r, a0, sw = arc_geometry(s, e, chain.center[i], chain.kind[i] == ARC_CCW)
     ang = np.arctan2(x[1] - chain.center[i][1], x[0] - chain.center[i][0])
-    return float(np.mod((ang - a0) * np.sign(sw) + 1e-12, 2 * np.pi) / abs(sw))
+    rest = 0.5 * (2 * np.pi - abs(sw))  # the gap of the circle, split before and after
+    phi = np.mod((ang - a0) * np.sign(sw) + rest, 2 * np.pi) - rest
+    return float(phi / abs(sw))
 
 
 def _snap(chain, i, x):
@@ -276,14 +278,20 @@ def _snap(chain, i, x):
 
 # -- assembling ------------------------------------------------------------------
 def _cross(chain, a_idx, b_idx, eps):
-    """Earliest crossing along the A moves with any B move: (ia, ib, x) or None."""
+    """Earliest crossing along the A moves (in path order) with any B move.
+
+    Returns (ia, ib, x) or None.
+    """
     best = None
     for ia in a_idx:
         for ib in b_idx:
             if ib == ia:
                 continue
             for x in _intersections(chain, ia, ib, eps):
-                key = (a_idx.index(ia), _param_on(chain, ia, x))
+                fa, fb = _param_on(chain, ia, x), _param_on(chain, ib, x)
+                if fa <= 1e-12 or fb >= 1 - 1e-12:
+                    continue  # at the very start of A's move or end of B's: use the neighbours
+                key = (a_idx.index(ia), fa)
                 if best is None or key < best[0]:
                     best = (key, ia, ib, x)
     return None if best is None else best[1:]
@@ -356,8 +364,10 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     for j in gaps:
         j = j % k if closed else j
         found = None
-        for count in (6, 24):
-            a_idx, b_idx = around(j, True, count), around(j, False, count)
+        for count in (24, 96):
+            half = max(min(count, (k - 1) // 2), 1)
+            a_idx, b_idx = around(j, True, half)[::-1], around(j, False, half)
+            b_idx = [m for m in b_idx if m not in a_idx]
             if a_idx and b_idx:
                 found = _cross(chain, a_idx, b_idx, eps)
             if found:
@@ -386,11 +396,11 @@ def assemble(contour, parts, joins, d, tol, *, closed):
         if not np.all(bad[run]):
             continue  # already cut by an earlier run
         j0, j1 = int(run[0]), int(run[-1]) + 1
-        a_idx = [m for m in around(j0, True, 8)]
+        a_idx = around(j0, True, 8)[::-1]
         b_idx = [m for m in around(j1, False, 8)]
         found = _cross(chain, a_idx + [m for m in run[:4]], [m for m in run[-4:]] + b_idx, eps)
         if found is None:
-            x0 = ke[a_idx[0]] if a_idx else ks[j0]
+            x0 = ke[a_idx[-1]] if a_idx else ks[j0]
             raise InputError(
                 f"the tool (radius {r:g} mm) cannot pass near ({x0[0]:.4f}, {x0[1]:.4f}): "
                 "its path splits there; use a smaller tool"
