@@ -81,7 +81,7 @@ def contour_moves(contour, *, tolerance: float, moves: str = "arcs") -> Toolpath
 
     >>> import numpy as np
     >>> from pathgen.spline import fit
-    >>> th = np.linspace(0, 2 * np.pi, 48, endpoint=False)
+    >>> th = np.linspace(0, 2 * np.pi, 400, endpoint=False)
     >>> c = fit(np.c_[10 * np.cos(th), 10 * np.sin(th)], closed=True)
     >>> tp = contour_moves(c, tolerance=0.01)
     >>> len(tp) <= 8, tp.deviation <= 0.01
