@@ -130,20 +130,11 @@ def _import(module: str):
 
 
 def _check_targets(targets: dict, force: bool) -> dict:
-    """Resolve output paths; refuse existing files unless ``force``."""
-    out = {}
-    for kind, p in targets.items():
-        if p is None:
-            continue
-        p = Path(p)
-        if p.exists() and not force:
-            raise InputError(f"{p}: file exists; pass force=True (--force) to overwrite it")
-        if p.is_dir():
-            raise InputError(f"{p}: is a folder, not a file name")
-        if not p.parent.is_dir():
-            raise InputError(f"{p.parent}: no such folder for the output {p.name}")
-        out[kind] = p
-    return out
+    """Resolve output paths; refuse existing files unless ``force``
+    (all checked before anything is written)."""
+    from .export._atomic import check_target
+
+    return {kind: check_target(p, force=force) for kind, p in targets.items() if p is not None}
 
 
 def _length(name, value, scale, *, allow_zero=False):
@@ -330,6 +321,11 @@ def run(
 
             files["gcode"] = timed("gcode", write_gcode, tp, targets["gcode"], force=force,
                                    source=Path(source).name)
+        if "report" in targets:
+            from .export.report import write_report
+
+            files["report"], files["report_text"] = timed(
+                "report", write_report, rep, targets["report"], units=units, force=force)
         if "dxf" in targets:
             from .export.dxf import write_dxf
             from .path.build import contour_moves

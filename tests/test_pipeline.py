@@ -17,7 +17,7 @@ import numpy as np
 import pytest
 
 import gcode_reader
-from pathgen import InputError
+from pathgen import InputError, PathgenError
 from pathgen.pipeline import Result, contour_facts, run, run_batch
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -55,7 +55,7 @@ def test_contour_facts_on_a_circle():
 
 def test_circle_outside_program_follows_the_offset_circle(tmp_path):
     R, D, tol = 20.0, 6.0, 0.01
-    res = run(circle(R), tool_diameter=D, tolerance=tol, gcode=tmp_path / "c.nc",
+    res = run(circle(R), closed=True, tool_diameter=D, tolerance=tol, gcode=tmp_path / "c.nc",
               report=tmp_path / "c.report.json")
     assert isinstance(res, Result) and res.status == 0 and not res.tool_cannot_reach
     assert res.files["gcode"] == tmp_path / "c.nc"
@@ -76,7 +76,7 @@ def test_circle_outside_program_follows_the_offset_circle(tmp_path):
 def test_inch_units_convert_at_the_boundary(tmp_path):
     # 25.4 mm per inch exactly (international inch, 1959; common practice).
     R, D = 1.0, 0.25
-    res = run(circle(R), units="inch", tool_diameter=D, tolerance=0.0005,
+    res = run(circle(R), closed=True, units="inch", tool_diameter=D, tolerance=0.0005,
               gcode=tmp_path / "c.nc")
     np.testing.assert_allclose(res.facts["length"], 2 * np.pi * 25.4, rtol=1e-6)
     prog, pts = cutting_points((tmp_path / "c.nc").read_text(), step=0.002)
@@ -98,7 +98,7 @@ def test_same_input_same_bytes(tmp_path):
 
 def test_existing_output_is_refused_before_anything_is_written(tmp_path):
     (tmp_path / "p.report.json").write_text("keep me")
-    with pytest.raises(InputError, match=r"p\.report\.json.*(exists|--force)"):
+    with pytest.raises(PathgenError, match=r"p\.report\.json already exists.*--force"):
         run(circle(10.0), tool_diameter=3, gcode=tmp_path / "p.nc", report=tmp_path / "p.report.json")
     assert sorted(p.name for p in tmp_path.iterdir()) == ["p.report.json"]
     assert (tmp_path / "p.report.json").read_text() == "keep me"
