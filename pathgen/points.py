@@ -257,8 +257,8 @@ def _read_text(path: str, name: str):
         lines = text.split("\n")
         rows, nums = [], []
         for i in range(first, len(lines)):
-            s = lines[i].strip()
-            if not s or s.startswith("#"):
+            s = lines[i].split("#", 1)[0].strip()  # as loadtxt: '#' starts a comment
+            if not s:
                 continue
             lsep, _ = _layout(s, i + 1, name)
             if not _same_layout(lsep, sep) and ncols > 1:
