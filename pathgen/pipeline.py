@@ -333,6 +333,11 @@ def run(
             arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
             files["dxf"] = timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
                                  report=rep, units=units, force=force)
+        if "plot" in targets:
+            from .export.plot import plot as draw
+
+            files["plot"] = timed("plot", draw, targets["plot"], contour, toolpath=tp, report=rep,
+                                  units=units, force=force)
     notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]
     return Result(source, outline, contour, report=rep, toolpath=tp, facts=facts,
                   timings=timings, files=files, units=units, notes=tuple(notes))
