@@ -1,0 +1,288 @@
+"""A picture of the contour for people: PNG or SVG, readable at a glance.
+
+It shows the input points, the contour, a curvature comb along it (lines
+along the normal whose length is proportional to the curvature, on the
+outer side of each bend), the tool-center path of the final pass and the
+rapid moves, the tight spots circled and labelled with their radius and
+allowed feed, a scale bar, the units, a legend and the caution.
+
+matplotlib is imported inside the functions (the Agg renderer, no pyplot
+state), so importing this module is cheap.  The files carry no dates:
+the same input gives the same bytes (SVG ids are salted with a constant).
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from pathlib import Path
+
+import numpy as np
+
+from .._options import MM_PER_INCH, UNITS, check_option
+from ..errors import InputError
+from ..path.model import ARC_CCW, ARC_CW, RAPID, Toolpath
+from ._atomic import atomic_paths
+
+__all__ = ["plot", "plot_figure", "CAUTION"]
+
+CAUTION = ("Verify every toolpath (simulate or air-cut) under your shop's practice "
+           "and local safety rules before cutting.")
+
+#: at most this many tight spots get a text label (the tightest first)
+MAX_LABELS = 12
+#: at most this many input points are drawn (every k-th beyond)
+MAX_POINTS_SHOWN = 20_000
+
+_COLORS = {
+    "points": "#222222",
+    "contour": "#1f5fbf",
+    "comb": "#9a7bc4",
+    "tool": "#d9480f",
+    "rapid": "#7a7a7a",
+    "spot": "#c2185b",
+}
+
+
+def _nice(x: float) -> float:
+    """1, 2 or 5 times a power of ten, at most x."""
+    if x <= 0 or not math.isfinite(x):
+        return 1.0
+    p = 10 ** math.floor(math.log10(x))
+    for m in (5, 2, 1):
+        if m * p <= x:
+            return m * p
+    return p
+
+
+def _fmt(v: float, digits: int = 3) -> str:
+    v = float(v)
+    if not math.isfinite(v):
+        return "-"
+    return np.format_float_positional(v + 0.0, precision=digits, unique=False, fractional=False, trim="-")
+
+
+def _tool_lines(tp: Toolpath, k: float):
+    """(cut polyline list, rapid segments) in display units, final pass only."""
+    from .dxf import polyline_vertices
+
+    runs = []
+    for verts, closed in polyline_vertices(tp, scale=k, final_pass=True):
+        v = np.vstack([verts, verts[:1]]) if closed else verts
+        p, q, b = v[:-1, :2], v[1:, :2], v[:-1, 4]
+        nseg = len(p)
+        steps = 12 if nseg <= 20_000 else 3
+        u = np.linspace(0.0, 1.0, steps + 1)[:-1]
+        # points along each segment: straight, or on the arc of bulge b
+        chord = q - p
+        c = np.hypot(chord[:, 0], chord[:, 1])
+        theta = 4.0 * np.arctan(b)  # signed included angle, + counter-clockwise
+        with np.errstate(divide="ignore", invalid="ignore"):
+            left = np.column_stack([-chord[:, 1], chord[:, 0]]) / np.where(c > 0, c, 1.0)[:, None]
+            dist = np.where(b != 0, c * (1 - b * b) / (4 * np.where(b != 0, b, 1.0)), 0.0)
+        center = (p + q) / 2 + left * dist[:, None]
+        r = np.hypot(*(p - center).T)
+        a0 = np.arctan2(p[:, 1] - center[:, 1], p[:, 0] - center[:, 0])
+        ang = a0[:, None] + theta[:, None] * u[None, :]
+        arc_pts = np.stack([center[:, None, 0] + r[:, None] * np.cos(ang),
+                            center[:, None, 1] + r[:, None] * np.sin(ang)], axis=-1)
+        line_pts = p[:, None, :] + chord[:, None, :] * u[None, :, None]
+        pts = np.where((b != 0)[:, None, None], arc_pts, line_pts).reshape(-1, 2)
+        runs.append(np.vstack([pts, q[-1:]]))
+    rapid = tp.kind == RAPID
+    moves_xy = np.any(tp.start[:, :2] != tp.end[:, :2], axis=1)
+    sel = rapid & moves_xy
+    scale = 1.0 if tp.units == "mm" else MM_PER_INCH
+    segs = np.stack([tp.start[sel, :2], tp.end[sel, :2]], axis=1) * scale * k
+    return runs, segs
+
+
+def _spots(report):
+    out = []
+    for spot in getattr(report, "tight_spots", ()) or ():
+        try:
+            x, y = float(spot.x), float(spot.y)
+        except (AttributeError, TypeError, ValueError):
+            raise InputError(f"report.tight_spots holds {spot!r}, which has no numeric x and y") from None
+        if math.isfinite(x) and math.isfinite(y):
+            out.append((x, y, float(getattr(spot, "min_radius", math.nan)),
+                        float(getattr(spot, "allowed_feed", math.nan)),
+                        str(getattr(spot, "text", getattr(spot, "reason", "")))))
+    return out
+
+
+def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str = "mm"):
+    """The picture as a matplotlib Figure (not saved; for notebooks and tests).
+
+    Parameters are those of :func:`plot`.  Tight-spot markers carry the
+    artist ids (gid) ``tight-spot-1``, ``tight-spot-2``, … and their labels
+    ``tight-spot-label-1``, …
+    """
+    from matplotlib.collections import LineCollection
+    from matplotlib.figure import Figure
+    from matplotlib.lines import Line2D
+    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
+
+    units = check_option("units", units, UNITS)
+    k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
+    u = "in" if units == "inch" else "mm"
+    if toolpath is not None and not isinstance(toolpath, Toolpath):
+        raise InputError(f"toolpath must be a Toolpath, got {type(toolpath).__name__}")
+
+    fig = Figure(figsize=(12, 8), dpi=100)
+    ax = fig.add_axes((0.06, 0.1, 0.64, 0.8))
+    ax.set_aspect("equal", adjustable="datalim")
+    legend = []
+
+    # contour and curvature comb
+    n = int(min(4000, max(400, 20 * contour.pieces)))
+    t = contour.sample(n)
+    if contour.closed:
+        t = np.r_[t, t[:1]]
+    xy = contour(t) * k
+    x0, y0, x1, y1 = (v * k for v in contour.bbox)
+    size = max(math.hypot(x1 - x0, y1 - y0), 1e-9)
+    ts = contour.sample(720)
+    if contour.closed:
+        ts = np.r_[ts, ts[:1]]
+    kappa = contour.curvature(ts) / k  # 1/display unit
+    nrm = contour.normal(ts)
+    pc = contour(ts) * k
+    ref = float(np.percentile(np.abs(kappa), 95)) if len(kappa) else 0.0
+    if ref > 0:
+        scale = 0.08 * size / ref
+        cap = 0.16 * size
+        length = np.clip(kappa * scale, -cap, cap)
+        tips = pc - length[:, None] * nrm  # on the outer side of each bend
+        teeth = np.stack([pc, tips], axis=1)[::2]
+        ax.add_collection(LineCollection(teeth, colors=_COLORS["comb"], linewidths=0.8, alpha=0.7, zorder=1))
+        env = tips.copy()
+        env[np.abs(kappa * scale) > cap] = np.nan  # no envelope across clipped (very tight) teeth
+        ax.plot(env[:, 0], env[:, 1], color=_COLORS["comb"], lw=0.9, alpha=0.8, zorder=1)
+        legend.append(Line2D([], [], color=_COLORS["comb"], lw=1.5,
+                             label="curvature comb (length ∝ 1/radius)"))
+    ax.plot(xy[:, 0], xy[:, 1], color=_COLORS["contour"], lw=2.2, zorder=3, label="contour")
+    legend.append(Line2D([], [], color=_COLORS["contour"], lw=2.2, label="contour"))
+
+    # input points
+    pts = np.asarray(contour.points if points is None else points, float)
+    if pts.ndim != 2 or pts.shape[1] != 2:
+        raise InputError(f"points must be an (n, 2) array of x, y, got shape {pts.shape}")
+    if len(pts):
+        step = max(1, math.ceil(len(pts) / MAX_POINTS_SHOWN))
+        shown = pts[::step] * k
+        ax.plot(shown[:, 0], shown[:, 1], "o", ms=3.2 if len(shown) < 2000 else 1.2,
+                color=_COLORS["points"], zorder=4)
+        label = f"input points ({len(pts)})" if step == 1 else f"input points ({len(pts)}, every {step}th shown)"
+        legend.append(Line2D([], [], marker="o", ls="", ms=5, color=_COLORS["points"], label=label))
+
+    # tool-center path
+    if toolpath is not None:
+        runs, rapids = _tool_lines(toolpath, k)
+        for run in runs:
+            ax.plot(run[:, 0], run[:, 1], color=_COLORS["tool"], lw=1.6, ls="-", zorder=2)
+        if len(rapids):
+            ax.add_collection(LineCollection(rapids, colors=_COLORS["rapid"], linewidths=1.0,
+                                             linestyles=(0, (4, 3)), zorder=2))
+            legend.append(Line2D([], [], color=_COLORS["rapid"], lw=1.0, ls=(0, (4, 3)), label="rapid moves"))
+        if runs:
+            d = toolpath.tool_diameter * (1.0 if toolpath.units == "mm" else MM_PER_INCH) * k
+            legend.append(Line2D([], [], color=_COLORS["tool"], lw=1.6,
+                                 label=f"tool center, {_fmt(d)} {u} tool, {toolpath.side}"))
+
+    # tight spots, tightest (lowest allowed feed) labelled first
+    spots = _spots(report)
+    if spots:
+        order = sorted(range(len(spots)), key=lambda i: (spots[i][3] if math.isfinite(spots[i][3]) else math.inf, i))
+        labelled = set(order[:MAX_LABELS])
+        cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
+        for i, (x, y, radius, feed, reason) in enumerate(spots, start=1):
+            x, y = x * k, y * k
+            ax.plot([x], [y], "o", ms=22, mfc="none", mec=_COLORS["spot"], mew=2.5, zorder=6,
+                    gid=f"tight-spot-{i}")
+            if i - 1 in labelled:
+                ang = math.atan2(y - cy, x - cx)
+                off = (70 * math.cos(ang), 50 * math.sin(ang) + (18 if i % 2 else -18))
+                ax.annotate(f"{i}: {reason}\nR {_fmt(radius * k)} {u}, F {_fmt(feed * k)} {u}/min",
+                            (x, y), xytext=off, textcoords="offset points", fontsize=10.5,
+                            ha="center", va="center", color="#111111", zorder=7,
+                            bbox=dict(boxstyle="round,pad=0.3", fc="white", ec=_COLORS["spot"], lw=1.2),
+                            arrowprops=dict(arrowstyle="-", color=_COLORS["spot"], lw=1.2),
+                            gid=f"tight-spot-label-{i}")
+        shown = min(len(spots), MAX_LABELS)
+        extra = "" if shown == len(spots) else f", {shown} labelled"
+        legend.append(Line2D([], [], marker="o", ls="", ms=12, mfc="none", mec=_COLORS["spot"], mew=2.5,
+                             label=f"tight spots ({len(spots)}{extra})"))
+
+    ax.autoscale_view()
+    ax.margins(0.12)
+    ax.set_xlabel(f"x ({u})", fontsize=12)
+    ax.set_ylabel(f"y ({u})", fontsize=12)
+    ax.tick_params(labelsize=10)
+    ax.grid(True, color="#dddddd", lw=0.6)
+    bar = _nice(0.2 * (x1 - x0 if x1 > x0 else size))
+    ax.add_artist(AnchoredSizeBar(ax.transData, bar, f"{_fmt(bar)} {u}", "lower right", pad=0.6,
+                                  color="black", frameon=True, size_vertical=bar / 40, fontproperties={"size": 11}))
+    ax.legend(handles=legend, loc="upper left", bbox_to_anchor=(1.02, 1.0), fontsize=11, frameon=False)
+
+    # facts beside the picture
+    facts = [f"{'closed' if contour.closed else 'open'} contour",
+             f"length {_fmt(contour.length * k, 5)} {u}", f"{len(pts)} points"]
+    min_r = getattr(getattr(report, "min_radius", None), "radius", None)
+    if min_r is not None and math.isfinite(float(min_r)):
+        facts.append(f"smallest radius {_fmt(float(min_r) * k)} {u}")
+    if report is not None:
+        facts.append(f"tight spots: {len(spots)}")
+        ct = getattr(report, "cycle_time", None)
+        if ct is not None and math.isfinite(float(ct)):
+            facts.append(f"cycle time {float(ct):.1f} s")
+    if toolpath is not None:
+        facts.append(f"{toolpath.block_count} blocks")
+    fig.text(0.72, 0.32, "\n".join(facts), fontsize=11.5, va="top", family="DejaVu Sans", linespacing=1.6)
+    fig.suptitle("pathgen: contour, tool path and tight spots", fontsize=15, x=0.06, ha="left", y=0.97)
+    fig.text(0.06, 0.025, "CAUTION: " + CAUTION, fontsize=11, color="#b00020", weight="bold")
+    return fig
+
+
+def plot(path, contour, *, points=None, toolpath=None, report=None, units: str = "mm",
+         force: bool = False) -> Path:
+    """Draw ``contour`` (and what is given) to a PNG or SVG file.
+
+    Parameters
+    ----------
+    path : path-like
+        ``.png`` (1200 × 800 pixels) or ``.svg``; its folder must exist.
+    contour : Contour
+        mm.
+    points : (n, 2) array, optional
+        Input points, mm; default the contour's points; empty draws none.
+    toolpath : Toolpath, optional
+        Its final-pass cutting moves (tool center) and rapid moves.
+    report : CheckReport or any object with ``tight_spots``, optional
+        Each spot (x, y mm, min_radius mm, allowed_feed mm/min, reason) is
+        circled and, up to 12 of the tightest, labelled.
+    units : "mm" or "inch"
+        Units shown.
+    force : bool
+        Replace an existing file.
+
+    Returns
+    -------
+    pathlib.Path
+    """
+    import matplotlib
+
+    p = Path(os.fspath(path))
+    fmt = p.suffix.lower().lstrip(".")
+    if fmt not in ("png", "svg"):
+        raise InputError(f"{p}: the picture must be .png or .svg, got {p.suffix or 'no suffix'!r}")
+    with matplotlib.rc_context({"svg.hashsalt": "pathgen", "svg.fonttype": "path", "path.simplify": True}):
+        fig = plot_figure(contour, points=points, toolpath=toolpath, report=report, units=units)
+        from matplotlib.backends.backend_agg import FigureCanvasAgg
+
+        FigureCanvasAgg(fig)
+        meta = {"Software": None} if fmt == "png" else {"Date": None, "Creator": None}
+        with atomic_paths([p], force=force) as (tmp,):
+            with open(tmp, "wb") as fh:
+                fig.savefig(fh, format=fmt, dpi=100, metadata=meta, facecolor="white")
+    return p

@@ -1,0 +1,164 @@
+"""The picture: files written, right size, tight spots present, no dates.
+
+Sources beside the checks:
+* PNG specification (W3C Recommendation / ISO/IEC 15948): the file starts
+  with the 8-byte signature, then the IHDR chunk whose first 8 data bytes
+  are width and height as big-endian 32-bit integers.
+* SVG is XML (W3C): read back with Python's xml.etree (reference library)
+  and the tight-spot elements found by their ids.
+"""
+
+from __future__ import annotations
+
+import os
+import struct
+import subprocess
+import sys
+import xml.etree.ElementTree as ET
+from types import SimpleNamespace
+
+import numpy as np
+import pytest
+
+pytest.importorskip("matplotlib")
+
+from pathgen.errors import ExportError, InputError  # noqa: E402
+from pathgen.export.plot import CAUTION, plot, plot_figure  # noqa: E402
+from pathgen.path.model import Arc, Line, Rapid, Toolpath  # noqa: E402
+from pathgen.spline import fit  # noqa: E402
+
+
+def _part():
+    # an invented bracket outline: an oval with a shallow dent
+    t = np.linspace(0, 2 * np.pi, 90, endpoint=False)
+    r = 30 - 4 * np.exp(-((t - np.pi / 2) / 0.3) ** 2)
+    return fit(np.column_stack([1.4 * r * np.cos(t), r * np.sin(t)]), closed=True)
+
+
+def _spots(n):
+    return SimpleNamespace(tight_spots=[
+        SimpleNamespace(x=10.0 + i, y=-5.0, min_radius=1.5 + i, allowed_feed=500.0 + 10 * i, reason="accel")
+        for i in range(n)
+    ])
+
+
+def _png_size(path):
+    data = path.read_bytes()[:24]
+    assert data[:8] == b"\x89PNG\r\n\x1a\n" and data[12:16] == b"IHDR"  # PNG signature and first chunk
+    return struct.unpack(">II", data[16:24])
+
+
+def _svg_ids(path):
+    root = ET.parse(path).getroot()
+    return [el.get("id") for el in root.iter() if el.get("id")]
+
+
+def _toolpath():
+    R = 47.0
+    moves = [Rapid((0, 0, 5), (R, 0, 5)), Line((R, 0, 5), (R, 0, -1), 200.0),
+             Arc((R, 0, -1), (-R, 0, -1), (0, 0), True, 800.0), Arc((-R, 0, -1), (R, 0, -1), (0, 0), True, 800.0),
+             Rapid((R, 0, -1), (R, 0, 5))]
+    return Toolpath.from_moves(moves, tool_diameter=6.0, side="outside")
+
+
+def test_png_is_written_with_the_promised_size(tmp_path):
+    p = plot(tmp_path / "part.png", _part(), toolpath=_toolpath(), report=_spots(3))
+    assert p.stat().st_size > 10_000
+    assert _png_size(p) == (1200, 800)
+
+
+def test_svg_holds_every_tight_spot_and_labels(tmp_path):
+    p = plot(tmp_path / "part.svg", _part(), report=_spots(3))
+    ids = _svg_ids(p)
+    assert sorted(i for i in ids if i.startswith("tight-spot-") and "label" not in i) == [
+        "tight-spot-1", "tight-spot-2", "tight-spot-3"]
+    assert sorted(i for i in ids if i.startswith("tight-spot-label-")) == [
+        "tight-spot-label-1", "tight-spot-label-2", "tight-spot-label-3"]
+    text = p.read_text()
+    assert "<dc:date>" not in text  # no dates in the metadata
+
+
+def test_many_tight_spots_are_all_marked_and_the_tightest_labelled():
+    fig = plot_figure(_part(), report=_spots(20))
+    ax = fig.axes[0]
+    marks = [a for a in ax.lines if (a.get_gid() or "").startswith("tight-spot-")]
+    labels = [a for a in ax.texts if (a.get_gid() or "").startswith("tight-spot-label-")]
+    assert len(marks) == 20
+    # the 12 lowest allowed feeds are labelled: spots 1..12 in this data
+    assert sorted(int(a.get_gid().rsplit("-", 1)[1]) for a in labels) == list(range(1, 13))
+    assert "R 1.5 mm, F 500 mm/min" in labels[0].get_text()
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "tight spots (20, 12 labelled)" in legend
+
+
+def test_caution_units_scale_bar_and_legend():
+    fig = plot_figure(_part(), toolpath=_toolpath(), units="inch")
+    texts = [t.get_text() for t in fig.texts]
+    assert any(CAUTION in t for t in texts)
+    ax = fig.axes[0]
+    assert ax.get_xlabel() == "x (in)" and ax.get_ylabel() == "y (in)"
+    legend = [t.get_text() for t in ax.get_legend().get_texts()]
+    assert "contour" in legend and any(s.startswith("tool center, 0.236 in tool") for s in legend)
+    assert any(s.startswith("curvature comb") for s in legend)
+    from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
+
+    bars = [a for a in ax.artists if isinstance(a, AnchoredSizeBar)]
+    assert len(bars) == 1
+
+
+def test_curvature_comb_follows_the_handbook_curvature():
+    # circle of radius R: every comb tooth has the same length (κ = 1/R, handbook)
+    # and the 95th-percentile tooth is drawn 8 % of the bounding-box diagonal long
+    t = np.linspace(0, 2 * np.pi, 256, endpoint=False)
+    fig = plot_figure(fit(np.column_stack([20 * np.cos(t), 20 * np.sin(t)]), closed=True))
+    from matplotlib.collections import LineCollection
+
+    (comb,) = [c for c in fig.axes[0].collections if isinstance(c, LineCollection)]
+    seg = np.array(comb.get_segments())
+    lengths = np.hypot(*(seg[:, 1] - seg[:, 0]).T)
+    diagonal = 40 * np.sqrt(2)
+    assert np.allclose(lengths, 0.08 * diagonal, rtol=1e-3)  # spline curvature error ~h^2 is far below
+    # teeth point away from the center of curvature (outer side of the bend)
+    assert np.all(np.hypot(*seg[:, 1].T) > np.hypot(*seg[:, 0].T))
+
+
+def test_same_input_same_bytes(tmp_path):
+    code = (
+        "import sys, numpy as np; from pathgen.spline import fit; from pathgen.export.plot import plot;"
+        "t = np.linspace(0, 2*np.pi, 40, endpoint=False);"
+        "plot(sys.argv[1], fit(np.c_[9*np.cos(t), 5*np.sin(t)], closed=True))"
+    )
+    for suffix in ("png", "svg"):
+        outs = []
+        for seed in ("1", "5"):
+            out = tmp_path / f"{seed}.{suffix}"
+            env = {**os.environ, "PYTHONHASHSEED": seed}
+            subprocess.run([sys.executable, "-c", code, str(out)], check=True, env=env)
+            outs.append(out.read_bytes())
+        assert outs[0] == outs[1], suffix
+
+
+def test_bad_names_and_overwrite(tmp_path):
+    with pytest.raises(InputError, match="the picture must be .png or .svg, got '.jpg'"):
+        plot(tmp_path / "p.jpg", _part())
+    p = plot(tmp_path / "p.png", _part())
+    with pytest.raises(ExportError, match="p.png already exists"):
+        plot(p, _part())
+    plot(p, _part(), force=True)
+    with pytest.raises(InputError, match="toolpath must be a Toolpath"):
+        plot(tmp_path / "q.png", _part(), toolpath="path")
+    assert sorted(os.listdir(tmp_path)) == ["p.png"]
+
+
+def test_real_check_and_toolpath(tmp_path):
+    from pathgen.checks.machine import Cut, Tool
+    from pathgen.checks.report import check
+    from pathgen.path.build import make_toolpath
+
+    contour = _part()
+    tool, cut = Tool(10.0), Cut(side="inside", feed=4000.0)
+    rep = check(contour, tool=tool, cut=cut)
+    tp = make_toolpath(contour, tool, cut)
+    p = plot(tmp_path / "real.svg", contour, toolpath=tp, report=rep)
+    ids = _svg_ids(p)
+    assert sum(i.startswith("tight-spot-") and "label" not in i for i in ids) == len(rep.tight_spots)
