@@ -207,7 +207,7 @@ def _sample_counts(contour, chain: Chain, tol: float) -> np.ndarray:
                                 chain.kind[arcs] == ARC_CCW)
         need = np.abs(sw) * np.sqrt(r / (0.04 * tol)) + 2.0
         counts[arcs] = np.maximum(24, np.ceil(np.minimum(need, 4000.0))).astype(np.int64)
-    # a span over many spline pieces needs samples on every piece
+    # a span over many spline pieces needs a sample on every piece
     b = contour.breaks
     t0, t1 = np.minimum(chain.t0, chain.t1), np.maximum(chain.t0, chain.t1)
     if contour.closed:
@@ -215,7 +215,7 @@ def _sample_counts(contour, chain: Chain, tol: float) -> np.ndarray:
         pieces = np.ceil((t1 - t0) / period * (len(b) - 1))
     else:
         pieces = np.searchsorted(b, t1) - np.searchsorted(b, t0)
-    counts = np.maximum(counts, np.minimum(4 * pieces + 2, 20000).astype(np.int64))
+    counts = np.maximum(counts, np.minimum(pieces + 2, 20000).astype(np.int64))
     return counts
 
 

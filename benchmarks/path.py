@@ -1,0 +1,98 @@
+"""Toolpath benchmark: block counts against their references, arcs vs lines, speed.
+
+Run: python benchmarks/path.py
+Prints, all measured in this run:
+  * line count vs the asymptotic minimum N ≈ ∫√(|κ|/(8e)) ds and, for a
+    circle, vs ⌈π / acos(1 − e/R)⌉;
+  * arcs vs lines block ratios at 0.01 mm on the sample parts and on an
+    ellipse and a superellipse;
+  * the time to turn a 10⁵-point closed outline into an arc toolpath.
+"""
+
+from __future__ import annotations
+
+import glob
+import math
+import os
+import sys
+import time
+
+import numpy as np
+
+sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
+
+import pathgen  # noqa: E402
+from pathgen.checks.machine import Cut, Tool  # noqa: E402
+from pathgen.path.build import contour_moves, make_toolpath  # noqa: E402
+from pathgen.spline import fit  # noqa: E402
+
+
+def asymptotic_lines(contour, e, n=200_000):
+    """∫√(|κ|/(8e)) ds by the midpoint rule on n arc-length-even pieces."""
+    b = contour.breaks
+    t = np.linspace(b[0], b[-1], n + 1)
+    tm = 0.5 * (t[1:] + t[:-1])
+    ds = np.hypot(*contour(tm, 1).T) * np.diff(t)
+    return float(np.sum(np.sqrt(np.abs(contour.curvature(tm)) / (8 * e)) * ds))
+
+
+def shapes():
+    th = np.linspace(0, 2 * np.pi, 2000, endpoint=False)
+    c, s = np.cos(th), np.sin(th)
+    yield "circle R=10", fit(np.c_[10 * c, 10 * s], closed=True)
+    yield "ellipse 30x20", fit(np.c_[30 * c, 20 * s], closed=True)
+    yield "superellipse 30x20 n=4", fit(np.c_[30 * np.sign(c) * np.abs(c) ** 0.5,
+                                                20 * np.sign(s) * np.abs(s) ** 0.5], closed=True)
+    for f in sorted(glob.glob(os.path.join(os.path.dirname(__file__), "..", "samples", "*.csv"))):
+        name = os.path.splitext(os.path.basename(f))[0]
+        outline = pathgen.read_points(f)
+        yield f"sample {name}", pathgen.fit_outline(outline)
+        yield f"sample {name} (smooth 0.02)", pathgen.fit_outline(outline, smooth=0.02)
+
+
+def main():
+    e = 0.01
+    print("pathgen toolpath benchmark (measured in this run)")
+    print(f"\n1. lines at e = {e} mm against their references")
+    th = np.linspace(0, 2 * np.pi, 2000, endpoint=False)
+    circle = fit(np.c_[10 * np.cos(th), 10 * np.sin(th)], closed=True)
+    n_lines = len(contour_moves(circle, tolerance=e, moves="lines"))
+    n_ref = math.ceil(math.pi / math.acos(1 - e / 10))
+    print(f"   circle R=10: {n_lines} lines, ceil(pi/acos(1-e/R)) = {n_ref}, ratio {n_lines / n_ref:.3f}")
+    print(f"   {'shape':32s} {'lines':>7s} {'asympt.':>8s} {'ratio':>6s}")
+    rows = []
+    for name, c in shapes():
+        lines = contour_moves(c, tolerance=e, moves="lines")
+        arcs = contour_moves(c, tolerance=e, moves="arcs")
+        n_min = asymptotic_lines(c, e)
+        ratio = f"{len(lines) / n_min:6.3f}" if n_min >= 1 else "   n/a"  # straight edges only
+        print(f"   {name:32s} {len(lines):7d} {n_min:8.1f} {ratio}")
+        rows.append((name, len(lines), len(arcs), lines.deviation, arcs.deviation))
+    print(f"\n2. arcs vs lines at e = {e} mm (blocks of the contour itself)")
+    print(f"   {'shape':32s} {'lines':>7s} {'arcs':>6s} {'lines/arcs':>10s} {'dev lines':>10s} {'dev arcs':>9s}")
+    for name, nl, na, dl, da in rows:
+        print(f"   {name:32s} {nl:7d} {na:6d} {nl / na:10.2f} {dl:10.5f} {da:9.5f}")
+
+    print("\n3. speed: 10^5-point closed outline (invented cam-like part) to an arc toolpath")
+    n = 100_000
+    t = np.linspace(0, 2 * np.pi, n, endpoint=False)
+    rr = 40 + 6 * np.cos(3 * t) + 2 * np.sin(7 * t)
+    pts = np.c_[rr * np.cos(t), rr * np.sin(t)]
+    t0 = time.perf_counter()
+    c = fit(pts, closed=True)
+    t1 = time.perf_counter()
+    res = {}
+    for moves in ("arcs", "lines"):
+        t2 = time.perf_counter()
+        tp = make_toolpath(c, Tool(6.0), Cut(side="outside", tolerance=e), moves=moves)
+        res[moves] = (time.perf_counter() - t2, tp)
+    print(f"   fit: {t1 - t0:.2f} s")
+    for moves, (dt, tp) in res.items():
+        print(f"   toolpath ({moves}): {dt:.2f} s, {tp.info['blocks']['per_pass']} blocks per pass, "
+              f"measured deviation {tp.deviation:.5f} mm")
+    ratio = res["lines"][1].info["blocks"]["per_pass"] / res["arcs"][1].info["blocks"]["per_pass"]
+    print(f"   lines/arcs on this part: {ratio:.2f}")
+
+
+if __name__ == "__main__":
+    main()
