@@ -376,3 +376,43 @@ def test_header_states_the_facts_and_the_caution():
     assert "local safety rules" in joined
     first_code = text.splitlines().index("G21 G90 G17 G94 G40")
     assert first_code == len(head)  # header first, then the preamble
+
+
+# --------------------------------------------------------------------------- the main job, end to end
+@pytest.mark.parametrize("side, moves", [("outside", "arcs"), ("inside", "lines"), ("on", "arcs")])
+def test_real_toolpath_replays_beside_the_contour(side, moves):
+    from scipy.spatial import cKDTree
+
+    from pathgen.checks.machine import Cut, Tool
+    from pathgen.path.build import make_toolpath
+
+    a, b, r, tol = 40.0, 25.0, 3.0, 0.01
+    t = np.linspace(0, 2 * np.pi, 120, endpoint=False)
+    contour = fit(np.column_stack([a * np.cos(t), b * np.sin(t)]), closed=True)
+    tool = Tool(2 * r if side != "on" else 0.0)
+    tp = make_toolpath(contour, tool, Cut(side=side, tolerance=tol, feed=1500.0), moves=moves,
+                       depth=2.0, step_down=1.0)
+    prog = gr.read(gcode_text(tp))  # every NISTIR 6556 rule the reader knows
+    off = 0.0 if side == "on" else r
+    zcut = min(m.end[2] for m in prog.moves)
+    tree = cKDTree(_dense(contour, 400_000))
+    rounding = 1e-4  # a few half-units of the 4th decimal
+    follow_len = 0.0
+    for m in prog.moves:
+        if m.g == 0 or m.start[2] != zcut or m.end[2] != zcut:
+            continue
+        pts = gr.sample(m, 0.05)[:, :2]
+        d, _ = tree.query(pts)
+        # the tool never cuts into the part: distance >= offset - tolerance (leads stay on the tool side)
+        assert d.min() >= off - tol - rounding
+        ends, _ = tree.query(pts[[0, -1]])
+        if np.all(np.abs(ends - off) <= tol):  # a move along the contour (not a lead)
+            assert np.max(np.abs(d - off)) <= tol + rounding
+            follow_len += np.sum(np.hypot(*np.diff(pts, axis=0).T))
+    # Steiner (handbook): the offset of a convex closed curve by r has length P + 2πr (outside)
+    # or P - 2πr (inside); the ellipse perimeter is 4a·E(1 - b²/a²) (scipy.special.ellipe)
+    from scipy.special import ellipe
+
+    perimeter = 4 * a * ellipe(1 - b * b / (a * a))
+    want = perimeter + {"outside": 2 * np.pi * r, "inside": -2 * np.pi * r, "on": 0.0}[side]
+    assert follow_len == pytest.approx(want, rel=2e-3)
