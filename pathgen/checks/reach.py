@@ -1,0 +1,203 @@
+"""Geometry facts for the checks: radii, inflections, tool reach, material left.
+
+Conventions (see ``pathgen._options``): κ > 0 on a left turn, closed
+outlines run counter-clockwise, d = side_sign·r is the tool offset along
+the left normal.  The tool of radius r cannot reach where d·κ ≥ 1: there
+the contour bends toward the tool with radius R = 1/|κ| ≤ r, the offset
+curve has a cusp (d·κ = 1) or a loop (Farouki & Neff 1990), and the loop
+is trimmed, leaving material.  A sharp corner that turns toward the tool
+cannot be reached by any tool of radius r > 0.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+__all__ = ["radius_extremes", "inflections", "largest_tool_diameter", "gouges", "material_left"]
+
+#: A tool position cuts into the contour when a contour point lies closer
+#: than r·(1 − GOUGE_RTOL) to it.
+GOUGE_RTOL = 1e-6
+
+
+def radius_extremes(samples):
+    """Smallest radius of left turns and of right turns.
+
+    Returns
+    -------
+    (left, right) : each None (no such turn) or (radius mm, sample index).
+    """
+    k = samples.kappa
+    out = []
+    for sign in (1.0, -1.0):
+        q = sign * k
+        i = int(np.argmax(q))
+        out.append((float(1.0 / q[i]), i) if q[i] > 0 else None)
+    return tuple(out)
+
+
+def inflections(samples, size: float) -> np.ndarray:
+    """Arc lengths (mm) where the curvature changes sign along a smooth stretch.
+
+    Curvature with |κ|·size ≤ 1e-9 counts as zero (straight); a sign change
+    across a run of zeros is one inflection, placed where κ interpolated
+    linearly between the two nonzero samples crosses zero.  Sign changes
+    across a sharp corner are not inflections.
+    """
+    S = samples
+    eps = 1e-9 / max(size, 1e-300)
+    nz = np.flatnonzero(np.abs(S.kappa) > eps)
+    if nz.size < 2:
+        return np.zeros(0)
+    i0, i1 = nz[:-1], nz[1:]
+    pairs = [(i0, i1)]
+    if S.closed:
+        pairs.append((nz[-1:], nz[:1]))
+    # a corner between two nonzero samples: some corner index in (i0, i1]
+    corner_count = np.r_[0, np.cumsum(S.corner & (S.turn != 0))]
+    found = []
+    for a, b in pairs:
+        ka, kb = S.kappa[a], S.kappa[b]
+        change = np.sign(ka) != np.sign(kb)
+        if b is nz[:1]:  # the seam pair of a closed contour
+            across = (corner_count[-1] - corner_count[a[0] + 1] + corner_count[b[0] + 1]) > 0
+            sa, sb = S.s[a], S.s[b] + S.length
+        else:
+            across = corner_count[b + 1] - corner_count[a + 1] > 0
+            sa, sb = S.s[a], S.s[b]
+        keep = change & ~across
+        frac = ka[keep] / (ka[keep] - kb[keep])
+        s = sa[keep] + frac * (sb[keep] - sa[keep])
+        found.append(np.mod(s, S.length) if S.closed else s)
+    return np.sort(np.concatenate(found))
+
+
+def largest_tool_diameter(samples, sign: int):
+    """Largest tool diameter (mm) that reaches everywhere on the side ``sign``.
+
+    Twice the smallest radius of the stretches that bend toward the tool
+    (side_sign·κ > 0); 0 when a sharp corner turns toward the tool; None
+    when nothing bends toward the tool (any tool reaches), or ``sign`` = 0
+    (cutting on the line).  A tool of exactly this diameter touches the
+    tightest spot with no margin: pick a smaller one.
+    """
+    if sign == 0:
+        return None
+    S = samples
+    if np.any(sign * S.turn[S.corner] > 0):
+        return 0.0
+    q = sign * S.kappa
+    qmax = float(q.max()) if len(q) else 0.0
+    return 2.0 / qmax if qmax > 0 else None
+
+
+def gouges(samples, d: float) -> np.ndarray:
+    """True where the tool, centered on the offset point, cuts into the contour.
+
+    The tool center for sample i is P_i + d·N_i (N the left normal); it
+    gouges when some sample of the contour lies closer than r·(1 − 1e-6)
+    to it (a KD-tree query).  This catches what curvature alone cannot: a
+    gap or neck narrower than the tool, where the contour's far side comes
+    within r.  The contour points used are at most r/32 apart, so gouges
+    shallower than about (r/32)²/(8r) ≈ r/8000 can slip through.
+    """
+    from scipy.spatial import cKDTree
+
+    S = samples
+    r = abs(d)
+    if r == 0 or len(S) < 2:
+        return np.zeros(len(S), bool)
+    normal = np.stack([-S.tangent[:, 1], S.tangent[:, 0]], axis=1)
+    centers = S.xy + d * normal
+    bound = r * (1.0 - GOUGE_RTOL)
+    # Many contour points lie just beyond r from each center, which makes a
+    # nearest-point search on a dense contour slow; contour points every
+    # r/32 or closer are enough to see a gouge deeper than about r/8000.
+    spacing = S.length / max(len(S) - 1, 1)
+    every = max(1, int((r / 32.0) / max(spacing, 1e-300)))
+    ref = S.xy[::every]
+    dist, _ = cKDTree(ref).query(centers, k=1, distance_upper_bound=bound)
+    return dist < bound
+
+
+def _window(s0: float, s1: float, margin: float, length: float, closed: bool):
+    """Arc-length window [s0 - margin, s1 + margin], wrapped or clipped."""
+    lo, hi = s0 - margin, s1 + margin
+    if closed:
+        if hi - lo >= length:
+            return 0.0, length, True
+        return lo, hi, False
+    return max(lo, 0.0), min(hi, length), False
+
+
+def material_left(contour, samples, d: float, spans, *, step_fraction: float = 1e-3):
+    """Depth (mm) of the material the tool leaves in each reach span.
+
+    Parameters
+    ----------
+    contour : Contour
+    samples : Samples of the contour.
+    d : signed tool offset along the left normal (side_sign·r), mm, ≠ 0.
+    spans : list of (s0, s1) arc-length spans (mm) where the tool cannot
+        reach; s1 < s0 wraps round the seam of a closed contour.
+    step_fraction : spacing of the local sampling as a fraction of r.
+
+    Returns
+    -------
+    list of float or None
+        For each span, the largest distance from a contour point near the
+        span to the region the tool sweeps (the union of tool discs at the
+        tool positions that do not cut into the contour there); None when
+        no such tool position exists near the span (the tool does not fit).
+
+    Notes
+    -----
+    Measured on the geometry: the contour near the span is sampled every
+    r·step_fraction; a tool position (a point of the offset curve P + d·N)
+    is kept when no contour point lies closer than r·(1 − 1e-6) to it;
+    the depth at a contour point is its distance to the nearest kept
+    position minus r.  For a sharp inside corner of opening angle θ this
+    gives the handbook r·(1/sin(θ/2) − 1).
+    """
+    from scipy.spatial import cKDTree
+
+    S = samples
+    r = abs(d)
+    L = S.length
+    step = r * step_fraction
+    spans = [(s0, s1 + L if (S.closed and s1 < s0) else s1) for s0, s1 in spans]
+    # spans closer than 10 r share one neighbourhood: measure them together
+    groups: list[list[int]] = []
+    for i, (s0, _) in enumerate(spans):
+        if groups and s0 - spans[groups[-1][-1]][1] < 10.0 * r:
+            groups[-1].append(i)
+        else:
+            groups.append([i])
+    out: list = [None] * len(spans)
+    for g in groups:
+        g0, g1 = spans[g[0]][0], max(spans[i][1] for i in g)
+        grids = []
+        for margin in (5.0 * r, 3.0 * r):
+            lo, hi, whole = _window(g0, g1, margin, L, S.closed)
+            n = int(min(max((hi - lo) / step, 64), 200_000))
+            grids.append(np.linspace(lo, hi, n, endpoint=not whole))
+        pts_s, ctr_s = grids
+        t_pts = np.interp(np.mod(pts_s, L) if S.closed else pts_s, S.s, S.t)
+        t_ctr = np.interp(np.mod(ctr_s, L) if S.closed else ctr_s, S.s, S.t)
+        P = contour(t_pts)
+        C = contour(t_ctr) + d * contour.normal(t_ctr)
+        dist, _ = cKDTree(P).query(C, k=1)
+        valid = C[dist >= r * (1.0 - GOUGE_RTOL)]
+        if len(valid) == 0:
+            continue
+        tree = cKDTree(valid)
+        lo_i = np.searchsorted(pts_s, [spans[i][0] - r for i in g])
+        hi_i = np.searchsorted(pts_s, [spans[i][1] + r for i in g], side="right")
+        a, b = int(lo_i.min()), int(hi_i.max())
+        if b <= a:
+            continue
+        depth, _ = tree.query(P[a:b], k=1)
+        for i, i0, i1 in zip(g, lo_i - a, hi_i - a):
+            if i1 > i0:
+                out[i] = float(max(depth[i0:i1].max() - r, 0.0))
+    return out
