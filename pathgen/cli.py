@@ -170,6 +170,7 @@ def build_parser() -> argparse.ArgumentParser:
             p.add_argument("directory", metavar="DIR", nargs="?", default="pathgen-demo",
                            help="folder to write into (default: pathgen-demo)")
             _add_shared(p, output=None)
+            p.add_argument("--jobs", type=int, metavar="N", help="worker processes (default: all CPU cores)")
         else:  # batch
             p.add_argument("directory", metavar="DIR", help="folder of points files (.csv .txt .xy .dxf)")
             _add_shared(p, output="OUTDIR")

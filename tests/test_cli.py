@@ -290,3 +290,83 @@ def test_dxf_on_every_sample(sample, tmp_path):
     msp = doc.modelspace()
     assert len(msp.query("SPLINE")) >= 1
     assert len(msp.query("POINT")) == len(rows_of(sample)) - bool(np.array_equal(rows_of(sample)[0], rows_of(sample)[-1]))
+
+
+def test_plot_png_and_svg(tmp_path):
+    status, out, err = call("plot", SAMPLES / "hook.csv", "-o", tmp_path / "h.png", "--tool-diameter", "6")
+    assert status == 1 and "wrote plot" in out
+    # PNG signature (PNG specification, ISO/IEC 15948) and a real picture
+    assert (tmp_path / "h.png").read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    status, _, _ = call("plot", SAMPLES / "bracket.csv", "-o", tmp_path / "b.svg", "--quiet")
+    assert status in (0, 1)
+    assert b"<svg" in (tmp_path / "b.svg").read_bytes()[:2000]
+
+
+# -- batch and demo ------------------------------------------------------------------
+@pytest.fixture
+def mixed_folder(tmp_path):
+    import shutil
+
+    d = tmp_path / "parts"
+    d.mkdir()
+    for name in ("plate.csv", "profile.csv"):
+        shutil.copy(SAMPLES / name, d / name)
+    for name in ("nan.csv", "one_point.csv"):
+        shutil.copy(ROOT / "tests" / "data" / "bad" / name, d / name)
+    return d
+
+
+def test_batch_table_and_worst_status(mixed_folder, tmp_path):
+    out_dir = tmp_path / "out"
+    status, out, err = call("batch", mixed_folder, "-o", out_dir, "--tool-diameter", "6")
+    assert status == 2  # the worst case: a bad file
+    head = out.splitlines()[0].split()
+    assert head[:2] == ["file", "length"] and "status" in head
+    for name in ("plate.csv", "profile.csv", "nan.csv", "one_point.csv"):
+        assert name in out
+    assert "skipped (bad input):" in out and "nan.csv line 3" in out
+    assert "2 of 4 files done" in out
+    assert sorted(p.name for p in out_dir.iterdir()) == [
+        "plate.nc", "plate.report.json", "plate.report.txt",
+        "profile.nc", "profile.report.json", "profile.report.txt"]
+    assert err == ""  # no progress bar: stderr is not a terminal here
+    # the table is the same whatever the number of worker processes
+    status1, out1, _ = call("batch", mixed_folder, "-o", tmp_path / "out1", "--tool-diameter", "6", "--jobs", "1")
+    assert status1 == status and out1 == out
+
+
+def test_batch_json_and_good_only(tmp_path, mixed_folder):
+    for bad in ("nan.csv", "one_point.csv"):
+        (mixed_folder / bad).unlink()
+    status, out, err = call("batch", mixed_folder, "-o", tmp_path / "o", "--tool-diameter", "6", "--json")
+    data = json.loads(out)
+    rows = {r["file"]: r for r in data["files"]}
+    assert set(rows) == {"plate.csv", "profile.csv"}
+    assert status == data["exit"] == max(r["exit"] for r in rows.values())
+    assert all(r["blocks"] > 0 and r["time"] > 0 for r in rows.values())
+    assert CAUTION in err
+
+
+def test_batch_needs_an_output_folder_and_points(tmp_path):
+    assert_one_line_error(*call("batch", SAMPLES), names="--output")
+    (tmp_path / "empty").mkdir()
+    assert_one_line_error(*call("batch", tmp_path / "empty", "-o", tmp_path / "o"), names="no points files")
+
+
+def test_demo_writes_everything(tmp_path):
+    from pathgen import demo
+
+    d = tmp_path / "demo"
+    status, out, err = call("demo", d, "--jobs", "2")
+    assert status == 1  # the hook's slot is too tight for the demo's 6 mm tool
+    names = sorted(p.name for p in d.iterdir())
+    for part in demo.PARTS:
+        for suffix in (".csv", ".nc", ".report.json", ".report.txt", ".dxf", ".png"):
+            assert f"{part}{suffix}" in names, (part, suffix)
+    assert "router.toml" in names
+    assert (d / "bracket.csv").read_bytes() == (SAMPLES / "bracket.csv").read_bytes()
+    assert "hook.csv" in out and "tool cannot reach" in out
+    # a second run refuses to overwrite, and changes nothing
+    before = {p.name: p.stat().st_mtime_ns for p in d.iterdir()}
+    assert_one_line_error(*call("demo", d), names="--force")
+    assert {p.name: p.stat().st_mtime_ns for p in d.iterdir()} == before
