@@ -272,8 +272,6 @@ def _star(n=400, k=5, amp=2.5, base=12.0):
     return np.c_[rr * np.cos(th), rr * np.sin(th)]
 
 
-@pytest.mark.xfail(strict=True, reason="known defect: at one of the five trimmed valleys the two "
-                   "sides are joined at a crossing near the cusp, leaving a tiny self-touching spike")
 def test_tight_concave_spot_is_trimmed_and_reported():
     import shapely
 

@@ -231,6 +231,11 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
         ok[new] = ok_new
         fail = (dev > target) | ~ok
     chain, span, ok = _build(contour, ta, tb, d, tol, moves)
+    # consecutive moves share their joint exactly (the two sides of a break
+    # are evaluated on different pieces and may differ in the last bits)
+    gap = np.hypot(*(chain.start[1:] - chain.end[:-1]).T)
+    same = gap <= 1e-9 * max(1.0, float(np.abs(chain.end).max(initial=0.0)))
+    chain.start[1:][same] = chain.end[:-1][same]
     deviation = float(dev.max(initial=0.0))
     if moves == "arcs":
         # join co-circular arcs and collinear lines; keep the join only if

@@ -165,6 +165,9 @@ def sample_chain(chain: Chain, counts: np.ndarray):
         o = owner[arcs]
         ang = aa[o] + ss[o] * frac[arcs]
         pts[arcs] = chain.center[o] + rr[o, None] * np.stack([np.cos(ang), np.sin(ang)], axis=-1)
+    # exact end points (s + (e - s)·1 and cos/sin need not give e bit for bit)
+    pts[first] = chain.start
+    pts[first + counts - 1] = chain.end
     return pts, owner, frac
 
 
