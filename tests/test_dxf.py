@@ -326,3 +326,9 @@ def test_large_drawing_warns(tmp_path, monkeypatch):
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         write_dxf(tmp_path / "w3.dxf", _ellipse(), points=np.zeros((0, 2)))
+
+
+def test_a_tight_spot_without_a_place_is_refused(tmp_path):
+    with pytest.raises(InputError, match="report.tight_spots holds .* which has no numeric x and y"):
+        write_dxf(tmp_path / "x.dxf", _ellipse(), report=SimpleNamespace(tight_spots=[object()]))
+    assert os.listdir(tmp_path) == []

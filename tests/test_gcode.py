@@ -325,6 +325,7 @@ def _tp(moves, **kw):
         ([Line((0, 0, 0), (1, 0, 0), 0.0)], "move 0 is a cutting move with feed 0"),
         ([Arc((0, 0, 0), (10, 0, 0), (4, 3), True, 100.0)], r"arc move 0: start radius .* differ by more than 0.002 mm"),
         ([Line((0, 0, 0), (2e6, 0, 0), 100.0)], "beyond"),
+        ([Line((0, 0, 0), (1, 0, 0), 0.01)], "move 0: feed 0.01 mm/min rounds to 0"),
     ],
 )
 def test_unsafe_toolpaths_are_refused(moves, match):

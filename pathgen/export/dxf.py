@@ -37,7 +37,7 @@ from ..errors import ExportError, InputError
 from ..path.model import ARC_CCW, ARC_CW, RAPID, Toolpath, arc_sweep
 from ._atomic import atomic_paths
 
-__all__ = ["write_dxf", "contour_bspline", "polyline_vertices", "LAYERS", "LargeDrawingWarning"]
+__all__ = ["write_dxf", "contour_bspline", "polyline_vertices", "tight_spot_rows", "LAYERS", "LargeDrawingWarning"]
 
 #: layer name -> DXF colour number (ACI) and what it holds
 LAYERS = {
@@ -237,8 +237,14 @@ def _short(v: float) -> str:
     return np.format_float_positional(v + 0.0, precision=3, unique=False, fractional=False, trim="-")
 
 
-def _spots(report):
-    """(x, y, min_radius, allowed_feed, reason) of each tight spot (duck typing)."""
+def tight_spot_rows(report) -> list[tuple]:
+    """(x, y, min_radius, allowed_feed, reason, text) of each tight spot.
+
+    Duck typing: any object whose ``tight_spots`` items have numeric ``x``
+    and ``y`` (mm); ``min_radius`` (mm), ``allowed_feed`` (mm/min),
+    ``reason`` and ``text`` (plain words) are optional.  Spots without a
+    finite place are left out.
+    """
     out = []
     for spot in getattr(report, "tight_spots", ()) or ():
         try:
@@ -247,8 +253,10 @@ def _spots(report):
             raise InputError(f"report.tight_spots holds {spot!r}, which has no numeric x and y") from None
         if not (math.isfinite(x) and math.isfinite(y)):
             continue
+        reason = str(getattr(spot, "reason", ""))
         out.append((x, y, float(getattr(spot, "min_radius", math.nan)),
-                    float(getattr(spot, "allowed_feed", math.nan)), str(getattr(spot, "reason", ""))))
+                    float(getattr(spot, "allowed_feed", math.nan)), reason,
+                    str(getattr(spot, "text", reason))))
     return out
 
 
@@ -311,13 +319,13 @@ def _build(contour, points, toolpath, arcs, report, units):
 
     x0, y0, x1, y1 = contour.bbox
     size = max(math.hypot(x1 - x0, y1 - y0) * k, 1e-9)
-    spots = _spots(report)
+    spots = tight_spot_rows(report)
     rk = k
     if report is not None and getattr(report, "units", "mm") == "inch":
         rk = 1.0 if units == "inch" else MM_PER_INCH
     mark, height = 0.02 * size, 0.012 * size
     fu = "in/min" if units == "inch" else "mm/min"
-    for i, (x, y, radius, feed, reason) in enumerate(spots, start=1):
+    for i, (x, y, radius, feed, reason, _) in enumerate(spots, start=1):
         x, y = x * rk, y * rk
         msp.add_circle((x, y), mark, dxfattribs={"layer": "TIGHT-SPOTS"})
         label = f"{i} {reason} R{_short(radius * rk)} F{_short(feed * rk)} {fu}"

@@ -384,6 +384,11 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
     fq = np.rint(feed * 10**fd).astype(np.int64)
     f_write = np.zeros(m, bool)
     cut_rows = np.flatnonzero(kind != RAPID)
+    if cut_rows.size and fq[cut_rows].min() <= 0:
+        b = int(cut_rows[np.argmin(fq[cut_rows])])
+        raise ExportError(
+            f"move {int(source[b])}: feed {_num(feed[b])} {units}/min rounds to 0 at {fd} decimal(s)"
+        )
     if cut_rows.size:
         fc = fq[cut_rows]
         change = np.ones(len(fc), bool)

@@ -97,20 +97,6 @@ def _tool_lines(tp: Toolpath, k: float):
     return runs, segs
 
 
-def _spots(report):
-    out = []
-    for spot in getattr(report, "tight_spots", ()) or ():
-        try:
-            x, y = float(spot.x), float(spot.y)
-        except (AttributeError, TypeError, ValueError):
-            raise InputError(f"report.tight_spots holds {spot!r}, which has no numeric x and y") from None
-        if math.isfinite(x) and math.isfinite(y):
-            out.append((x, y, float(getattr(spot, "min_radius", math.nan)),
-                        float(getattr(spot, "allowed_feed", math.nan)),
-                        str(getattr(spot, "text", getattr(spot, "reason", "")))))
-    return out
-
-
 def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str = "mm"):
     """The picture as a matplotlib Figure (not saved; for notebooks and tests).
 
@@ -191,7 +177,9 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
                                  label=f"tool center, {_fmt(d)} {u} tool, {toolpath.side}"))
 
     # tight spots, tightest (lowest allowed feed) labelled first
-    spots = _spots(report)
+    from .dxf import tight_spot_rows
+
+    spots = [(x, y, r, f, text) for x, y, r, f, _, text in tight_spot_rows(report)]
     if spots:
         order = sorted(range(len(spots)), key=lambda i: (spots[i][3] if math.isfinite(spots[i][3]) else math.inf, i))
         labelled = set(order[:MAX_LABELS])
