@@ -39,13 +39,17 @@ def radius_extremes(samples):
 def inflections(samples, size: float) -> np.ndarray:
     """Arc lengths (mm) where the curvature changes sign along a smooth stretch.
 
-    Curvature with |κ|·size ≤ 1e-9 counts as zero (straight); a sign change
-    across a run of zeros is one inflection, placed where κ interpolated
-    linearly between the two nonzero samples crosses zero.  Sign changes
-    across a sharp corner are not inflections.
+    Curvature with |κ| ≤ 1e-4·max|κ| (or |κ|·size ≤ 1e-9) counts as zero:
+    such stretches are straight for any cutting purpose, and the fit's own
+    error makes the sign of so small a curvature meaningless (a spline
+    through points of a sine wobbles about zero near its straight ends).
+    A sign change across a run of zeros is one inflection, placed where κ
+    interpolated linearly between the two nonzero samples crosses zero.
+    Sign changes across a sharp corner are not inflections.
     """
     S = samples
-    eps = 1e-9 / max(size, 1e-300)
+    kmax = float(np.abs(S.kappa).max()) if len(S.kappa) else 0.0
+    eps = max(1e-9 / max(size, 1e-300), 1e-4 * kmax)
     nz = np.flatnonzero(np.abs(S.kappa) > eps)
     if nz.size < 2:
         return np.zeros(0)

@@ -4,7 +4,9 @@ Every check works on one set of samples: a few per cubic piece, evenly
 spaced in the piece's parameter, plus each local maximum of |κ| found by a
 golden-section search (so the tightest point of every bend is a sample and
 no tight spot hides between samples), plus both sides of every sharp
-corner (two samples at the same arc length, one per piece).
+corner (two samples at the same arc length, one per piece).  A corner is
+a break where the tangent direction jumps by more than 1e-6 rad (listed
+in ``Contour.corners`` or not; a listed break without a jump is smooth).
 
 Arc length at the samples: the trapezoid rule on the speed |P'(t)| inside
 each piece, rescaled so that each piece's total equals its length from
@@ -173,14 +175,13 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     turn_in = np.arctan2(tin[:, 0] * tout[:, 1] - tin[:, 1] * tout[:, 0],
                          (tin * tout).sum(axis=1))
     is_corner = np.zeros(m + 1, bool)
+    # a listed corner whose tangent does not jump is a smooth join
     is_corner[inner] = np.abs(turn_in) > CORNER_MIN_ANGLE
-    listed = np.asarray([i for i in contour.corners if 0 <= i <= m], dtype=int)
-    is_corner[listed] = True
     seam_turn = 0.0
     if closed:
         a, b = d_end[-1], d_start[0]
         seam_turn = float(np.arctan2(a[0] * b[1] - a[1] * b[0], a @ b))
-        seam_corner = bool(is_corner[0] or is_corner[m] or abs(seam_turn) > CORNER_MIN_ANGLE)
+        seam_corner = abs(seam_turn) > CORNER_MIN_ANGLE
     else:
         seam_corner = False
     is_corner[0] = is_corner[m] = False
