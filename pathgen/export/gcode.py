@@ -385,10 +385,11 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
     f_write = np.zeros(m, bool)
     cut_rows = np.flatnonzero(kind != RAPID)
     if cut_rows.size and fq[cut_rows].min() <= 0:
-        b = int(cut_rows[np.argmin(fq[cut_rows])])
-        raise ExportError(
-            f"move {int(source[b])}: feed {_num(feed[b])} {units}/min rounds to 0 at {fd} decimal(s)"
-        )
+        zero = cut_rows[fq[cut_rows] <= 0]
+        own = zero[source[zero] >= 0]
+        b = int(own[0] if own.size else zero[0])
+        what = f"move {int(source[b])}" if source[b] >= 0 else "the plunge to the first move"
+        raise ExportError(f"{what}: feed {_num(feed[b])} {units}/min rounds to 0 at {fd} decimal(s)")
     if cut_rows.size:
         fc = fq[cut_rows]
         change = np.ones(len(fc), bool)
