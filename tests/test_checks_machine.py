@@ -1,0 +1,101 @@
+"""Machine profiles (TOML), tool and cut values: loading, overrides, refusals."""
+
+import math
+from pathlib import Path
+
+import pytest
+
+from pathgen import Cut, Machine, Tool, load_machine
+from pathgen.errors import InputError
+
+SAMPLES = Path(__file__).resolve().parent.parent / "samples"
+
+
+def write(tmp_path, text, name="m.toml"):
+    p = tmp_path / name
+    p.write_text(text, encoding="utf-8")
+    return p
+
+
+@pytest.mark.parametrize("name", ["router.toml", "mill.toml"])
+def test_sample_profiles_load_with_plausible_values(name):
+    # Plausibility ranges for small routers and mills (SOURCES §8 table,
+    # common practice / from memory): accel 100-5000 mm/s², feeds
+    # 0.5-20 m/min, block rates 100-5000 /s.
+    m = load_machine(SAMPLES / name)
+    assert 100 <= m.max_accel <= 5000
+    assert 500 <= m.max_feed <= 20000
+    assert 100 <= m.block_rate <= 5000
+    assert m.rapid_feed >= m.max_feed
+    assert m.name
+
+
+def test_defaults_and_overrides(tmp_path):
+    assert load_machine() == Machine()
+    p = write(tmp_path, 'name = "shop router"\nmax_feed = 2500\n')
+    m = load_machine(p, max_accel=800, block_rate=None)
+    assert (m.name, m.max_feed, m.max_accel, m.block_rate) == ("shop router", 2500.0, 800.0, 250.0)
+    assert m.rapid_feed == Machine().rapid_feed  # missing key: the default
+
+
+def test_inch_profile_is_converted_to_mm(tmp_path):
+    # 1 inch = 25.4 mm exactly (international inch, 1959).
+    p = write(tmp_path, 'units = "inch"\nmax_feed = 100\nmax_accel = 10\nblock_rate = 300\n')
+    m = load_machine(p)
+    assert m.max_feed == pytest.approx(2540.0)
+    assert m.max_accel == pytest.approx(254.0)
+    assert m.block_rate == 300.0  # blocks per second have no length
+
+
+@pytest.mark.parametrize(
+    "text, match",
+    [
+        ("max_feed = -5\n", r"m\.toml, line 1: max_feed must be a finite number > 0, got -5"),
+        ("name = 'x'\nmax_accel = 0\n", r"line 2: max_accel must be a finite number > 0, got 0"),
+        ("max_accel = nan\n", r"line 1: max_accel must be a finite number > 0, got nan"),
+        ("max_accel = inf\n", r"max_accel must be a finite number > 0, got inf"),
+        ("block_rate = true\n", r"block_rate must be a finite number > 0, got True"),
+        ("block_rate = '250'\n", r"block_rate must be a finite number > 0, got '250'"),
+        ("\nacceleration = 500\n", r"line 2: unknown key 'acceleration'; valid keys: max_feed"),
+        ("units = 'cm'\n", r"units = 'cm' is not one of: 'mm', 'inch'"),
+        ("name = 5\n", r"line 1: name must be text"),
+        ("max_feed = \n", r"m\.toml: not valid TOML: .*line 1"),
+    ],
+)
+def test_bad_profiles_name_file_line_and_key(tmp_path, text, match):
+    with pytest.raises(InputError, match=match):
+        load_machine(write(tmp_path, text))
+
+
+def test_missing_and_unreadable_profiles(tmp_path):
+    with pytest.raises(InputError, match="nope.toml: no such machine profile"):
+        load_machine(tmp_path / "nope.toml")
+    p = tmp_path / "bin.toml"
+    p.write_bytes(b"name = '\xff'\n")
+    with pytest.raises(InputError, match="bin.toml: not UTF-8 text"):
+        load_machine(p)
+
+
+def test_bad_overrides():
+    with pytest.raises(InputError, match="unknown machine setting 'accel'"):
+        load_machine(accel=500)
+    with pytest.raises(InputError, match="max_feed must be a finite number > 0"):
+        load_machine(max_feed=-1)
+    with pytest.raises(InputError, match="max_accel must be a finite number > 0"):
+        load_machine(max_accel=True)
+
+
+@pytest.mark.parametrize(
+    "make, match",
+    [
+        (lambda: Cut(feed=math.nan), "feed must be a finite number > 0"),
+        (lambda: Cut(feed=0), "feed must be a finite number > 0"),
+        (lambda: Cut(tolerance=-0.01), "tolerance must be a finite number > 0"),
+        (lambda: Cut(side="left"), "side='left' is not one of"),
+        (lambda: Tool(-6), "tool diameter must be a finite number >= 0"),
+        (lambda: Machine(max_accel=0), "max_accel must be a finite number > 0"),
+    ],
+)
+def test_impossible_values_are_refused(make, match):
+    with pytest.raises(InputError, match=match):
+        make()
