@@ -30,7 +30,7 @@ import numpy as np
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE
 
-__all__ = ["biarc", "biarc_chain", "offset_chain", "merge_chain"]
+__all__ = ["biarc", "joint_circle", "biarc_chain", "offset_chain", "merge_chain"]
 
 
 def _left(v):
@@ -41,12 +41,33 @@ def _dot(a, b):
     return np.einsum("...i,...i->...", a, b)
 
 
-def biarc(p1, t1, p2, t2, *, line_sagitta: float = 0.0):
-    """Equal-tangent-length biarcs, vectorized over rows.
+def joint_circle(p1, t1, p2, t2):
+    """Circle of all possible biarc joints: through P1, P2 and the equal-chord joint.
+
+    Returns (center (k, 2), radius (k,), ok (k,)); ok is False where the
+    three points are (nearly) collinear and the locus is a line.
+    """
+    pm, _, _, ok = biarc(p1, t1, p2, t2)
+    a, b = pm - p1, p2 - p1
+    den = 2.0 * (a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0])
+    aa, bb = _dot(a, a), _dot(b, b)
+    good = ok & (np.abs(den) > 1e-12 * np.sqrt(aa * bb))
+    den = np.where(good, den, 1.0)
+    cx = (b[:, 1] * aa - a[:, 1] * bb) / den
+    cy = (a[:, 0] * bb - b[:, 0] * aa) / den
+    center = p1 + np.stack([cx, cy], axis=-1)
+    return center, np.hypot(cx, cy), good
+
+
+def biarc(p1, t1, p2, t2, *, joint=None, line_sagitta: float = 0.0):
+    """Biarcs (equal tangent lengths, or through a given joint), vectorized over rows.
 
     Parameters
     ----------
     p1, t1, p2, t2 : (k, 2) arrays; end points (mm) and unit tangents.
+    joint : (k, 2) or None; a joint on the joint circle (see
+        :func:`joint_circle`) instead of the equal-tangent-length one.  Any
+        point of that circle gives a tangent-continuous pair.
     line_sagitta : an arc whose sagitta (mm) is at or below this is a line.
 
     Returns
@@ -83,6 +104,8 @@ def biarc(p1, t1, p2, t2, *, line_sagitta: float = 0.0):
     ok = np.isfinite(delta) & (delta > 0)
     delta = np.where(ok, delta, 0.0)
     pm = 0.5 * (p1 + p2 + delta[:, None] * (t1 - t2))
+    if joint is not None:
+        pm = np.asarray(joint, dtype=np.float64)
     kind = np.empty((len(p1), 2), dtype=np.int8)
     center = np.zeros((len(p1), 2, 2))
     for i, (p, t, w) in enumerate(((p1, t1, pm - p1), (p2, t2, pm - p2))):
@@ -103,13 +126,13 @@ def biarc(p1, t1, p2, t2, *, line_sagitta: float = 0.0):
     return pm, kind, center, ok
 
 
-def biarc_chain(p1, t1, p2, t2, ta, tb, *, line_sagitta: float = 0.0):
+def biarc_chain(p1, t1, p2, t2, ta, tb, *, joint=None, line_sagitta: float = 0.0):
     """Biarcs as a :class:`Chain` of 2k primitives (span k -> rows 2k, 2k+1).
 
     The joint is given the parameter (ta + tb)/2 for bookkeeping only;
     deviation is measured per span (both primitives over [ta, tb]).
     """
-    pm, kind, center, ok = biarc(p1, t1, p2, t2, line_sagitta=line_sagitta)
+    pm, kind, center, ok = biarc(p1, t1, p2, t2, joint=joint, line_sagitta=line_sagitta)
     k = len(p1)
     start = np.stack([p1, pm], axis=1).reshape(2 * k, 2)
     end = np.stack([pm, p2], axis=1).reshape(2 * k, 2)

@@ -27,9 +27,9 @@ from __future__ import annotations
 import numpy as np
 
 from ..errors import PathgenError
-from .biarc import biarc_chain, merge_chain, offset_chain
-from .measure import Chain, chain_deviation, eval_side, unit_tangent_side
-from .model import LINE
+from .biarc import biarc, biarc_chain, joint_circle, merge_chain
+from .measure import Chain, chain_deviation, eval_side, offset_points, unit_tangent_side
+from .model import ARC_CCW, LINE
 
 __all__ = ["approximate", "MOVES", "TARGET"]
 
@@ -39,9 +39,9 @@ MOVES = ("arcs", "lines")
 #: the sampling of the measurement itself.
 TARGET = 0.99
 
-# error constant of the equal-chord biarc: max error ≈ |κ'| L³ / _C_ARC
+# error constant of the biarc with its joint on the curve: max error ≈ |κ'| L³ / _C_ARC
 # (fitted on clothoid-like test curves; only the starting density depends on it)
-_C_ARC = 100.0
+_C_ARC = 400.0
 _BOOSTS = 3
 _MAX_SPLITS = 60
 
@@ -144,16 +144,19 @@ def _build(contour, ta, tb, d, tol, moves):
         k = len(ta)
         chain = Chain(np.full(k, LINE, np.int8), p0, p1, np.zeros((k, 2)), ta.copy(), tb.copy())
         return chain, np.arange(k), np.ones(k, bool)
-    p0 = eval_side(contour, ta, 0, left=False)
-    p1 = eval_side(contour, tb, 0, left=True)
+    # biarcs of the tool-center curve q: end points q(ta), q(tb) with the
+    # contour's tangents there.  This is exactly the offset (radii R ± r)
+    # of a contour biarc with the matching joint, built where it is measured.
     t0 = unit_tangent_side(contour, ta, left=False)
     t1 = unit_tangent_side(contour, tb, left=True)
-    chain, ok = biarc_chain(p0, t0, p1, t1, ta, tb, line_sagitta=1e-3 * tol)
-    tm = _joint_params(contour, chain.end[0::2], ta, tb)
+    p0 = eval_side(contour, ta, 0, left=False) + d * np.stack([-t0[:, 1], t0[:, 0]], axis=-1)
+    p1 = eval_side(contour, tb, 0, left=True) + d * np.stack([-t1[:, 1], t1[:, 0]], axis=-1)
+    joint, tm = _curve_joints(contour, d, p0, t0, p1, t1, ta, tb)
+    chain, ok = biarc_chain(p0, t0, p1, t1, ta, tb, joint=joint, line_sagitta=1e-3 * tol)
     chain.t1[0::2] = tm
     chain.t0[1::2] = tm
-    chain, ok_off = offset_chain(chain, d)
-    ok &= ok_off.reshape(-1, 2).all(axis=1)
+    # arcs turning the wrong way round the tool (radius through zero) fail
+    ok &= _follows(chain, t0, t1)
     return chain, np.repeat(np.arange(len(ta)), 2), ok
 
 
@@ -248,6 +251,47 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
     stats = {"spans": int(len(ta)), "boost_rounds": int(rounds), "split_rounds": int(splits)}
     return chain, deviation, stats
 
+
+
+def _follows(chain, t0, t1):
+    """Spans whose biarc starts along t0 and ends along t1 (not reversed)."""
+    def tan(i, at_end):
+        p = chain.end[i::2] if at_end else chain.start[i::2]
+        kind = chain.kind[i::2]
+        rel = p - chain.center[i::2]
+        arc = np.where((kind == ARC_CCW)[:, None], np.c_[-rel[:, 1], rel[:, 0]], np.c_[rel[:, 1], -rel[:, 0]])
+        v = np.where((kind == LINE)[:, None], chain.end[i::2] - chain.start[i::2], arc)
+        return v
+    return (np.einsum("ij,ij->i", tan(0, False), t0) > 0) & (np.einsum("ij,ij->i", tan(1, True), t1) > 0)
+
+
+def _curve_joints(contour, d, p0, t0, p1, t1, ta, tb):
+    """Biarc joints where the joint circle crosses the curve q = P + d·N.
+
+    Every point of the joint circle gives a tangent-continuous biarc; the
+    one on the curve makes the pair interpolate a third point of it, which
+    roughly halves the error of the equal-tangent-length joint.  Falls
+    back to that joint where the circle degenerates or is not crossed
+    inside the span.  Returns (joints (k, 2), their parameters (k,)).
+    """
+    pm, _, _, ok_eq = biarc(p0, t0, p1, t1)
+    center, radius, good = joint_circle(p0, t0, p1, t1)
+    t = _joint_params(contour, pm, ta, tb)
+    t_eq = t.copy()
+    for _ in range(8):  # Newton on |q(t) - c|² - R² = 0, q' = P'(1 - dκ)
+        rel = offset_points(contour, t, d) - center
+        f = np.einsum("ij,ij->i", rel, rel) - radius**2
+        dq = contour(t, 1) * (1.0 - d * contour.curvature(t))[:, None] if d else contour(t, 1)
+        df = 2.0 * np.einsum("ij,ij->i", rel, dq)
+        step = np.where(np.abs(df) > 0, f / np.where(df == 0, 1.0, df), 0.0)
+        t = np.clip(t - step, ta, tb)
+    rel = offset_points(contour, t, d) - center
+    dist = np.hypot(rel[:, 0], rel[:, 1])
+    good &= np.abs(dist - radius) <= 1e-9 * np.maximum(radius, 1.0)
+    good &= (t > ta) & (t < tb)
+    joint = center + rel * (radius / np.where(dist > 0, dist, 1.0))[:, None]
+    joint = np.where(good[:, None], joint, pm)
+    return joint, np.where(good, t, t_eq)
 
 
 def _joint_params(contour, pm, ta, tb):
