@@ -304,9 +304,17 @@ def test_block_feeds_never_exceed_their_caps(seed, k):
     cutting = kind != 0
     assert np.all(feeds[~cutting] == 0)
     cap = np.minimum(np.minimum(feed, 4000), 60 * 200 * L)
+    cap = np.maximum(cap, np.minimum(feed, 1.0))  # the 1 mm/min floor of the writer's F words
     assert np.all(feeds[cutting] <= cap[cutting] * (1 + 1e-12))
     naive = float((L[cutting] / (np.minimum(feed, 4000)[cutting] / 60)).sum())
     assert t >= naive * (1 - 1e-12)
+
+
+def test_tiny_block_feed_never_rounds_to_zero():
+    m = Machine(max_feed=3000, max_accel=500, block_rate=250)
+    kind, start, end, center = blocks_from_points([[0, 0], [1e-8, 0], [10, 0]])
+    feeds, _ = feeds_for_moves(kind, start, end, center, feed=3000.0, machine=m)
+    assert feeds[0] == 1.0 and feeds[1] > 1.0
 
 
 def test_feeds_for_moves_errors():

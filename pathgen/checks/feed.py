@@ -54,6 +54,10 @@ __all__ = [
 ]
 
 
+#: Lowest feed (mm/min) written for a cutting block by :func:`feeds_for_moves`.
+MIN_BLOCK_FEED = 1.0
+
+
 def chord_length(radius, tolerance) -> np.ndarray:
     """Longest chord of a circle of ``radius`` whose sagitta is ``tolerance``.
 
@@ -377,7 +381,9 @@ def feeds_for_moves(kind, start, end, center, *, feed, machine, corner_angle: fl
     feeds : (k,) mm/min; rapids get 0.  Each cutting block's feed is the
         highest speed the plan reaches in it, never above the programmed
         feed, the machine's max feed, √(a·R) on an arc of radius R, or
-        length × block rate.
+        length × block rate (but never below 1 mm/min, ``MIN_BLOCK_FEED``,
+        or the programmed feed if that is lower, so that no F word rounds
+        to zero on a tiny block).
     time : float
         Estimated time of the whole sequence, s: cutting blocks by the
         planned speed profile (rest at the start and the end of each run
@@ -458,5 +464,8 @@ def feeds_for_moves(kind, start, end, center, *, feed, machine, corner_angle: fl
     w_lim = np.r_[0.0, v_joint**2, 0.0]
     w = accel_passes(w_lim, L, a)
     t, peak, _ = segment_profile(L, w[:-1], w[1:], np.maximum(c, np.sqrt(np.maximum(w[:-1], w[1:]))), a)
-    feeds[sel] = 60.0 * peak
+    # never below 1 mm/min (or the programmed feed if lower): a block so
+    # short that the plan's peak is slower would write an F word that
+    # rounds to zero; the controller's own acceleration limit still holds
+    feeds[sel] = np.maximum(60.0 * peak, np.minimum(60.0 * v_prog[sel], MIN_BLOCK_FEED))
     return feeds, time + float(t.sum())
