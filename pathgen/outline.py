@@ -89,8 +89,7 @@ def turning_angles(points, closed: bool, support: float = 0.0) -> np.ndarray:
         back = np.arange(n) - 1
         fwd = np.arange(n) + 1
     else:
-        q = np.vstack([p, p[:1]]) if closed else p
-        s = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(q, axis=0).T))])
+        s = _robust_arc_length(p, closed, support / 3.0)
         if closed:
             per = s[-1]
             s3 = np.concatenate([s[:-1] - per, s[:-1], s[:-1] + per])
@@ -116,12 +115,36 @@ def turning_angles(points, closed: bool, support: float = 0.0) -> np.ndarray:
     return ang
 
 
+def _robust_arc_length(p, closed, chord):
+    """Arc length at each point (closed: n+1 values), insensitive to noise.
+
+    Noise makes a dense polyline much longer than the curve.  The length is
+    measured along every m-th point, m doubled until the median chord of
+    that sub-polyline is at least ``chord`` mm, and interpolated between.
+    """
+    n = len(p)
+    m = 1
+    while m < n // 8:
+        lag = (np.roll(p, -m, axis=0) - p) if closed else (p[m:] - p[:-m])
+        if np.median(np.hypot(lag[:, 0], lag[:, 1])) >= chord:
+            break
+        m *= 2
+    idx = np.arange(0, n, m)
+    if closed:
+        idx = np.append(idx, n)
+    elif idx[-1] != n - 1:
+        idx = np.append(idx, n - 1)
+    q = p[idx % n]
+    s_dec = np.concatenate([[0.0], np.cumsum(np.hypot(*np.diff(q, axis=0).T))])
+    return np.interp(np.arange(n + 1 if closed else n), idx, s_dec)
+
+
 def find_corners(points, closed: bool, angle_deg=DEFAULT_CORNER_ANGLE,
                  support: float = 0.0) -> np.ndarray:
     """Indices of the points whose |turning angle| exceeds ``angle_deg``.
 
-    With a support > 0 (noisy points) only the sharpest point of each run
-    of consecutive points above the threshold is kept.
+    With a support > 0 (noisy points) candidates closer than ``support``
+    mm along the curve count as one corner, at the sharpest of them.
 
     Examples
     --------
@@ -136,19 +159,18 @@ def find_corners(points, closed: bool, angle_deg=DEFAULT_CORNER_ANGLE,
     idx = np.flatnonzero(hit)
     if support <= 0 or len(idx) == 0:
         return idx
-    n = len(ang)
-    # runs of consecutive hits (closed: rotate so no run wraps)
-    shift = 0
-    if closed and hit.all():
-        return np.array([int(np.argmax(ang))])
-    if closed and hit[0] and hit[-1]:
-        shift = int(np.argmin(hit))  # first miss
-    h = np.roll(hit, -shift)
-    a = np.roll(ang, -shift)
-    edges = np.diff(np.concatenate([[0], h.astype(np.int8), [0]]))
-    starts, stops = np.flatnonzero(edges == 1), np.flatnonzero(edges == -1)
-    best = np.array([s + int(np.argmax(a[s:e])) for s, e in zip(starts, stops)])
-    return np.sort((best + shift) % n)
+    # clusters: candidates closer than ``support`` along the curve are one
+    # corner (noise breaks a corner's run of hits); keep each one's sharpest
+    p = np.asarray(points, np.float64)
+    s = _robust_arc_length(p, closed, support / 3.0)
+    pos = s[idx]
+    new = np.concatenate([[True], np.diff(pos) > support])
+    label = np.cumsum(new) - 1
+    if closed and label[-1] > 0 and (s[-1] - pos[-1]) + pos[0] <= support:
+        label[label == label[-1]] = 0  # the last cluster wraps onto the first
+    order = np.lexsort((-ang[idx], label))  # by cluster, sharpest first
+    first = np.concatenate([[True], np.diff(label[order]) != 0])
+    return np.sort(idx[order][first])
 
 
 # -- straight runs ------------------------------------------------------------

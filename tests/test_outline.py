@@ -316,3 +316,19 @@ def test_random_open_walks_fit_without_nan(rows):
     assert np.isfinite(c.coefficients).all()
     assert np.isfinite(c(np.linspace(*c.domain, 300))).all()
     assert c.info["max_residual"] <= 1e-9 * 300
+
+
+def test_noisy_dense_points_give_no_false_corners(rng):
+    # noise 4x the spacing: the support (10·smooth mm) must be measured along
+    # the curve, not along the zigzag of the noise
+    th = np.linspace(0, 2 * np.pi, 100_000, endpoint=False)
+    ell = ellipse_points(50.0, 30.0, theta=th) + rng.normal(0, 0.01, (100_000, 2))
+    assert len(find_corners(ell, True, DEFAULT_CORNER_ANGLE, support=0.3)) == 0
+    # a densely probed square plate with the same noise: exactly its 4 corners
+    s = np.linspace(0, 1, 5000, endpoint=False)
+    sq = np.vstack([np.c_[s * 40, 0 * s], np.c_[40 + 0 * s, s * 40],
+                    np.c_[40 - s * 40, 40 + 0 * s], np.c_[0 * s, 40 - s * 40]])
+    found = find_corners(sq + rng.normal(0, 0.01, sq.shape), True, DEFAULT_CORNER_ANGLE,
+                         support=0.3)
+    assert len(found) == 4
+    assert np.abs(found - [0, 5000, 10000, 15000]).max() <= 20  # within 0.16 mm
