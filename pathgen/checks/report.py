@@ -316,7 +316,10 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
     n = len(S)
 
     def at(i):
-        return float(S.xy[i, 0]), float(S.xy[i, 1]), float(S.s[i])
+        s = float(S.s[i])
+        if closed and s >= S.length:  # the seam: the start, not the end
+            s = 0.0
+        return float(S.xy[i, 0]), float(S.xy[i, 1]), s
 
     # -- geometry facts ---------------------------------------------------------
     xmin, ymin = S.xy.min(axis=0)
