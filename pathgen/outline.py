@@ -8,8 +8,9 @@
    ``corner_angle`` (degrees, default :data:`DEFAULT_CORNER_ANGLE`) the
    point is a corner; ``corners=`` forces more, ``corner_angle=None`` turns
    detection off.  With ``smooth`` the steps are taken over a support of
-   about 10·smooth mm on each side (so noise does not look like corners)
-   and the sharpest point of each run above the threshold is kept.
+   about 10·smooth mm on each side, measured along the curve (so noise
+   does not look like corners), and candidates closer than the support
+   count as one corner, at the sharpest.
 2. Straight edges.  A piece between two corners (or an open end) whose
    points all lie within the straight tolerance of the chord becomes an
    exact straight line.  Without ``smooth``, runs of at least 3 collinear
@@ -337,7 +338,9 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
         Point indices (into ``outline.points``) forced to be corners.
     smooth : float or None, mm
         Smoothing tolerance: every point stays within this distance of the
-        contour (measured); None interpolates.
+        contour (measured); None interpolates.  Smoothed pieces have
+        natural ends pinned to their end points (corners and the ends of an
+        open outline); ``end`` applies to interpolated pieces only.
     tangents : pair of 2-vectors, for ``end="clamped"``.
     straight_tol : float or None, mm
         How far points may lie from a straight edge; default
