@@ -44,6 +44,7 @@ TARGET = 0.99
 _C_ARC = 400.0
 _BOOSTS = 3
 _MAX_SPLITS = 60
+_MERGE_ROUNDS = 16
 
 
 def _grid(contour, windows: np.ndarray) -> np.ndarray:
@@ -233,6 +234,7 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
         ok = keep_ok
         ok[new] = ok_new
         fail = (dev > target) | ~ok
+    ta, tb, dev, merges = _merge(contour, ta, tb, dev, windows, d, tol, moves, target)
     chain, span, ok = _build(contour, ta, tb, d, tol, moves)
     # consecutive moves share their joint exactly (the two sides of a break
     # are evaluated on different pieces and may differ in the last bits)
@@ -248,7 +250,8 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
             mdev = chain_deviation(contour, d, merged, tol)
             if mdev.max(initial=0.0) <= target:
                 chain, deviation = merged, max(deviation, float(mdev.max(initial=0.0)))
-    stats = {"spans": int(len(ta)), "boost_rounds": int(rounds), "split_rounds": int(splits)}
+    stats = {"spans": int(len(ta)), "boost_rounds": int(rounds), "split_rounds": int(splits),
+             "merged_spans": int(merges)}
     return chain, deviation, stats
 
 
@@ -263,6 +266,43 @@ def _follows(chain, t0, t1):
         v = np.where((kind == LINE)[:, None], chain.end[i::2] - chain.start[i::2], arc)
         return v
     return (np.einsum("ij,ij->i", tan(0, False), t0) > 0) & (np.einsum("ij,ij->i", tan(1, True), t1) > 0)
+
+
+def _merge(contour, ta, tb, dev, windows, d, tol, moves, target):
+    """Join neighbouring spans while the joined span still measures within target.
+
+    Rounds over pairs (even, then odd offsets), all pairs of a round at once;
+    spans never join across windows (corners, trimmed spots).  Curvature
+    placement spends spans on noise (digitized outlines); this takes them
+    back.  Returns (ta, tb, dev, number of joins).
+    """
+    wid = np.searchsorted(windows[:, 0], ta, side="right") - 1
+    idle, joined = 0, 0
+    for r in range(_MERGE_ROUNDS):
+        k = len(ta)
+        i = np.arange(r % 2, k - 1, 2)
+        i = i[wid[i] == wid[i + 1]]
+        acc = np.zeros(len(i), bool)
+        if len(i):
+            chain, span, ok = _build(contour, ta[i], tb[i + 1], d, tol, moves)
+            mdev = _measure(contour, chain, span, len(i), d, tol, moves)
+            acc = ok & (mdev <= target)
+        if not acc.any():
+            idle += 1
+            if idle >= 2:
+                break
+            continue
+        idle = 0
+        a = i[acc]
+        tb = tb.copy()
+        tb[a] = tb[a + 1]
+        dev = dev.copy()
+        dev[a] = mdev[acc]
+        keep = np.ones(k, bool)
+        keep[a + 1] = False
+        ta, tb, dev, wid = ta[keep], tb[keep], dev[keep], wid[keep]
+        joined += len(a)
+    return ta, tb, dev, joined
 
 
 def _curve_joints(contour, d, p0, t0, p1, t1, ta, tb):
