@@ -35,9 +35,13 @@ def _part():
     return fit(np.column_stack([1.4 * r * np.cos(t), r * np.sin(t)]), closed=True)
 
 
-def _spots(n):
+def _spots(n, spread=True):
+    """n stand-in spots around the oval (or bunched within 1 mm)."""
+    a = 2 * np.pi * np.arange(n) / n
+    xs, ys = (42 * np.cos(a), 30 * np.sin(a)) if spread else (10.0 + 0.3 * np.arange(n), np.zeros(n))
     return SimpleNamespace(tight_spots=[
-        SimpleNamespace(x=10.0 + i, y=-5.0, min_radius=1.5 + i, allowed_feed=500.0 + 10 * i, reason="accel")
+        SimpleNamespace(x=float(xs[i]), y=float(ys[i]), min_radius=1.5 + i, allowed_feed=500.0 + 10 * i,
+                        reason="accel", text="acceleration")
         for i in range(n)
     ])
 
@@ -86,9 +90,20 @@ def test_many_tight_spots_are_all_marked_and_the_tightest_labelled():
     assert len(marks) == 20
     # the 12 lowest allowed feeds are labelled: spots 1..12 in this data
     assert sorted(int(a.get_gid().rsplit("-", 1)[1]) for a in labels) == list(range(1, 13))
-    assert "R 1.5 mm, F 500 mm/min" in labels[0].get_text()
+    first = [a for a in labels if a.get_gid() == "tight-spot-label-1"][0]
+    assert first.get_text() == "1: acceleration\nR 1.5 mm, F 500 mm/min"
     legend = [t.get_text() for t in ax.get_legend().get_texts()]
     assert "tight spots (20, 12 labelled)" in legend
+
+
+def test_bunched_tight_spots_share_one_label():
+    fig = plot_figure(_part(), report=_spots(4, spread=False))
+    ax = fig.axes[0]
+    marks = [a for a in ax.lines if (a.get_gid() or "").startswith("tight-spot-")]
+    labels = [a for a in ax.texts if (a.get_gid() or "").startswith("tight-spot-label-")]
+    assert len(marks) == 4 and len(labels) == 1
+    # one label for spots 1-4: the smallest radius and the lowest feed of the group
+    assert labels[0].get_text() == "1–4: acceleration\nR 1.5 mm, F 500 mm/min"
 
 
 def test_caution_units_scale_bar_and_legend():

@@ -97,12 +97,51 @@ def _tool_lines(tp: Toolpath, k: float):
     return runs, segs
 
 
+def _group_spots(spots, near: float) -> list[list[int]]:
+    """Groups of spots chained by distances <= ``near``; tightest groups first.
+
+    Each group lists its spots by index, its tightest (lowest allowed feed)
+    spot first.
+    """
+    n = len(spots)
+    xy = np.array([(sp[0], sp[1]) for sp in spots], float).reshape(n, 2)
+    feed = np.array([sp[3] if math.isfinite(sp[3]) else math.inf for sp in spots])
+    label = np.arange(n)
+    close = np.hypot(*(xy[:, None, :] - xy[None, :, :]).transpose(2, 0, 1)) <= near if n <= 2000 else np.eye(n, dtype=bool)
+    for _ in range(n):  # single-linkage: spread the smallest label along "close" until stable
+        new = np.where(close, label[None, :], n).min(axis=1)
+        if np.array_equal(new, label):
+            break
+        label = new
+    groups = {}
+    for i in sorted(range(n), key=lambda i: (feed[i], i)):
+        groups.setdefault(int(label[i]), []).append(i)
+    return list(groups.values())
+
+
+def _spot_label(spots, members, u: str) -> str:
+    """'3: reason' / '1-4: reason' and the smallest radius and lowest feed."""
+    nums = [m + 1 for m in members]
+    if len(nums) == 1:
+        ids = str(nums[0])
+    elif nums == list(range(nums[0], nums[-1] + 1)):
+        ids = f"{nums[0]}–{nums[-1]}"
+    else:
+        ids = ", ".join(map(str, nums))
+    reasons = sorted({spots[m][4] for m in members})
+    radius = min(spots[m][2] for m in members)
+    feed = min(spots[m][3] for m in members)
+    rtext = "sharp corner" if radius == 0 else f"R {_fmt(radius)} {u}"
+    return f"{ids}: {reasons[0] if len(reasons) == 1 else 'several reasons'}\n{rtext}, F {_fmt(feed)} {u}/min"
+
+
 def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str = "mm"):
     """The picture as a matplotlib Figure (not saved; for notebooks and tests).
 
     Parameters are those of :func:`plot`.  Tight-spot markers carry the
-    artist ids (gid) ``tight-spot-1``, ``tight-spot-2``, … and their labels
-    ``tight-spot-label-1``, …
+    artist ids (gid) ``tight-spot-1``, ``tight-spot-2``, …; spots within 5 %
+    of the drawing's size share one label, whose id names its tightest spot
+    (``tight-spot-label-N``); up to 12 labels, the tightest first.
     """
     from matplotlib.collections import LineCollection
     from matplotlib.figure import Figure
@@ -176,29 +215,30 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
             legend.append(Line2D([], [], color=_COLORS["tool"], lw=1.6,
                                  label=f"tool center, {_fmt(d)} {u} tool, {toolpath.side}"))
 
-    # tight spots, tightest (lowest allowed feed) labelled first
+    # tight spots: every one circled; nearby ones share a label; the tightest
+    # (lowest allowed feed) groups are labelled first
     from .dxf import tight_spot_rows
 
-    spots = [(x, y, r, f, text) for x, y, r, f, _, text in tight_spot_rows(report)]
+    spots = [(x * k, y * k, r * k, f * k, text) for x, y, r, f, _, text in tight_spot_rows(report)]
     if spots:
-        order = sorted(range(len(spots)), key=lambda i: (spots[i][3] if math.isfinite(spots[i][3]) else math.inf, i))
-        labelled = set(order[:MAX_LABELS])
-        cx, cy = (x0 + x1) / 2, (y0 + y1) / 2
-        for i, (x, y, radius, feed, reason) in enumerate(spots, start=1):
-            x, y = x * k, y * k
+        for i, (x, y, *_rest) in enumerate(spots, start=1):
             ax.plot([x], [y], "o", ms=22, mfc="none", mec=_COLORS["spot"], mew=2.5, zorder=6,
                     gid=f"tight-spot-{i}")
-            if i - 1 in labelled:
-                ang = math.atan2(y - cy, x - cx)
-                off = (70 * math.cos(ang), 50 * math.sin(ang) + (18 if i % 2 else -18))
-                ax.annotate(f"{i}: {reason}\nR {_fmt(radius * k)} {u}, F {_fmt(feed * k)} {u}/min",
-                            (x, y), xytext=off, textcoords="offset points", fontsize=10.5,
-                            ha="center", va="center", color="#111111", zorder=7,
-                            bbox=dict(boxstyle="round,pad=0.3", fc="white", ec=_COLORS["spot"], lw=1.2),
-                            arrowprops=dict(arrowstyle="-", color=_COLORS["spot"], lw=1.2),
-                            gid=f"tight-spot-label-{i}")
-        shown = min(len(spots), MAX_LABELS)
-        extra = "" if shown == len(spots) else f", {shown} labelled"
+        groups = _group_spots(spots, 0.05 * size)
+        cx, cy = (x0 + x1) * k / 2, (y0 + y1) * k / 2
+        for g, members in enumerate(groups[:MAX_LABELS]):
+            head = members[0]
+            x, y = spots[head][0], spots[head][1]
+            ang = math.atan2(y - cy, x - cx) + 0.35 * ((g % 3) - 1)
+            reach = 80 + 30 * (g % 2)
+            off = (reach * math.cos(ang), 0.75 * reach * math.sin(ang))
+            ax.annotate(_spot_label(spots, sorted(members), u), (x, y), xytext=off, textcoords="offset points",
+                        fontsize=10.5, ha="center", va="center", color="#111111", zorder=7,
+                        bbox=dict(boxstyle="round,pad=0.3", fc="white", ec=_COLORS["spot"], lw=1.2),
+                        arrowprops=dict(arrowstyle="-", color=_COLORS["spot"], lw=1.2),
+                        gid=f"tight-spot-label-{head + 1}")
+        labelled = sum(len(m) for m in groups[:MAX_LABELS])
+        extra = "" if labelled == len(spots) else f", {labelled} labelled"
         legend.append(Line2D([], [], marker="o", ls="", ms=12, mfc="none", mec=_COLORS["spot"], mew=2.5,
                              label=f"tight spots ({len(spots)}{extra})"))
 
