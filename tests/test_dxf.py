@@ -268,7 +268,9 @@ def test_layers_and_caution_note(tmp_path):
     assert {"POINTS", "CONTOUR", "CONTOUR-ARCS", "TOOL-CENTER", "TIGHT-SPOTS", "NOTES"} <= names
     (note,) = msp.query("TEXT[layer=='NOTES']")
     assert "Verify every toolpath (simulate or air-cut)" in note.dxf.text
-    assert len(msp.query("POINT[layer=='POINTS']")) == 40
+    contour = _ellipse()
+    got = np.array([(p.dxf.location.x, p.dxf.location.y) for p in msp.query("POINT[layer=='POINTS']")])
+    assert np.array_equal(got, contour.points)  # same geometry read back, in drawing order
 
 
 def test_two_runs_in_two_processes_give_the_same_bytes(tmp_path):
