@@ -306,6 +306,8 @@ def _build(contour, points, toolpath, arcs, report, units):
     spline.knots = (knots - knots[0]).tolist()
     count += len(cp)
 
+    x0, y0, x1, y1 = contour.bbox
+    bottom, left = y0 * k, x0 * k
     for layer, tp in (("CONTOUR-ARCS", arcs), ("TOOL-CENTER", toolpath)):
         if tp is None:
             continue
@@ -316,8 +318,11 @@ def _build(contour, points, toolpath, arcs, report, units):
             lw.lwpoints.values = verts  # all vertices at once (add_lwpolyline appends one by one)
             lw.closed = closed
             count += len(verts)
+            # an arc segment bows out from its chord by its sagitta |b|·c/2: room for the note below
+            chord = np.hypot(*(np.roll(verts[:, :2], -1, axis=0) - verts[:, :2]).T)
+            bottom = min(bottom, float((verts[:, 1] - np.abs(verts[:, 4]) * chord / 2).min()))
+            left = min(left, float(verts[:, 0].min()))
 
-    x0, y0, x1, y1 = contour.bbox
     size = max(math.hypot(x1 - x0, y1 - y0) * k, 1e-9)
     spots = tight_spot_rows(report)
     rk = k
@@ -333,7 +338,7 @@ def _build(contour, points, toolpath, arcs, report, units):
     msp.add_text(
         f"pathgen drawing, units {units}. {CAUTION}",
         height=height,
-        dxfattribs={"layer": "NOTES", "insert": (x0 * k, y0 * k - 4 * height)},
+        dxfattribs={"layer": "NOTES", "insert": (left, bottom - 4 * height)},
     )
     return doc, count, notes
 
