@@ -239,7 +239,8 @@ def _piece_moments(t, y, start, stop):
     if n == 1:
         start = "natural" if isinstance(start, str) else start
         stop = "natural" if isinstance(stop, str) else stop
-    if n == 2 and start == "not-a-knot" and stop == "not-a-knot":
+    if n == 2 and isinstance(start, str) and isinstance(stop, str) \
+            and start == stop == "not-a-knot":
         # both conditions say the same thing: the parabola through 3 points
         r = 6.0 * (slope[1] - slope[0]) / (h[0] + h[1])
         return np.tile(r / 3.0, (3, 1))
@@ -457,32 +458,35 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
             if b - a >= 2:
                 runs_out.append((a, b))
             continue
-        inner = straight_runs(seg, tol, STRAIGHT_MIN_RATIO * size) if search else []
-        # alternate curved and straight stretches
-        cuts = [(0, "curve")]
+        inner = _apart(straight_runs(seg, tol, STRAIGHT_MIN_RATIO * size)) if search else []
+        # alternate curved and straight stretches: (from, to, line run or None)
+        parts, at = [], 0
         for i, j in inner:
-            cuts.append((i, "line"))
-            cuts.append((j, "curve"))
-        cuts.append((b - a, "end"))
-        for k in range(len(cuts) - 1):
-            i, kind = cuts[k]
-            j = cuts[k + 1][0]
-            if j <= i:
-                continue
+            if i > at:
+                parts.append((at, i, None))
+            parts.append((i, j, (i, j)))
+            at = j
+        if at < b - a:
+            parts.append((at, b - a, None))
+        for k, (i, j, run) in enumerate(parts):
             sub, tsub = seg[i:j + 1], ts[i:j + 1]
             lo, hi = a + i, a + j
-            if kind == "line":
+            if run is not None:
                 coeffs[:, lo:hi] = _line_coefficients(tsub, sub)
                 residual[lo:hi + 1] = _deviation(sub)
                 runs_out.append((lo, hi))
                 continue
+            # a curved stretch starts and ends tangent to the straight runs it meets
+            before = parts[k - 1][2] if k > 0 else None
+            after = parts[k + 1][2] if k + 1 < len(parts) else None
             v0 = math.hypot(*(sub[1] - sub[0])) / (tsub[1] - tsub[0])
             v1 = math.hypot(*(sub[-1] - sub[-2])) / (tsub[-1] - tsub[-2])
-            c_start = first_cond if i == 0 else _unit(seg[i - 1], seg[i]) * v0
-            if j < b - a:
-                c_stop = _unit(seg[j], seg[j + 1]) * v1
-            elif corner_free_loop:  # back at the seam: the first straight edge
-                c_stop = _unit(q[0], q[1]) * v1
+            c_start = first_cond if before is None else _unit(seg[before[0]], seg[before[1]]) * v0
+            if after is not None:
+                c_stop = _unit(seg[after[0]], seg[after[1]]) * v1
+            elif corner_free_loop and j == b - a and parts[0][2] is not None:
+                r0 = parts[0][2]  # back at the seam: the first run
+                c_stop = _unit(seg[r0[0]], seg[r0[1]]) * v1
             else:
                 c_stop = last_cond
             if smooth is not None and len(sub) >= 3:
@@ -514,6 +518,21 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
                 end="periodic" if closed and len(cs) == 0 else end, param=param)
     return _finish(c, p, closed, corner_breaks, runs, facts,
                    residual[:n] if smooth is not None else None)
+
+
+def _apart(runs):
+    """Shorten straight runs that touch, so a curve can blend them (G1).
+
+    Two runs meeting at a point inside a piece turn by less than the corner
+    angle there; each gives up its end point so a short curved stretch joins
+    them tangent to both.  Runs left with fewer than 3 points are dropped.
+    """
+    out = [list(r) for r in runs]
+    for k in range(1, len(out)):
+        if out[k][0] == out[k - 1][1]:
+            out[k - 1][1] -= 1
+            out[k][0] += 1
+    return [(i, j) for i, j in out if j - i >= 2]
 
 
 def _kinks(breaks, c, closed) -> set:

@@ -332,3 +332,15 @@ def test_noisy_dense_points_give_no_false_corners(rng):
                          support=0.3)
     assert len(found) == 4
     assert np.abs(found - [0, 5000, 10000, 15000]).max() <= 20  # within 0.16 mm
+
+
+def test_chance_straight_runs_in_noisy_points_join_tangent(rng):
+    # noisy points fitted without smoothing: triples that happen to be
+    # collinear within the straight tolerance become tiny lines, and the
+    # curves meet them tangent (no kink), so no corner appears
+    th = np.linspace(0, 2 * np.pi, 600, endpoint=False)
+    pts = np.c_[30 * np.cos(th), 30 * np.sin(th)] + rng.normal(0, 0.005, (600, 2))
+    c = fit_outline(pts, closed=True, straight_tol=0.002)
+    assert len(c.info["straight_runs"]) > 0  # the case this test is about
+    assert c.corners == ()
+    assert max(abs(tangent_jump(c, k)) for k in range(c.pieces)) <= 1e-9
