@@ -417,3 +417,13 @@ def test_real_toolpath_replays_beside_the_contour(side, moves):
     perimeter = 4 * a * ellipe(1 - b * b / (a * a))
     want = perimeter + {"outside": 2 * np.pi * r, "inside": -2 * np.pi * r, "on": 0.0}[side]
     assert follow_len == pytest.approx(want, rel=2e-3)
+
+
+def test_approach_reaches_the_first_move_start_whatever_its_height():
+    # the replayed program must start the first move where the toolpath says it starts
+    for z0 in (-1.0, 5.0, 8.0):
+        tp = _tp([Line((3, 4, z0), (13, 4, z0), 400.0)])
+        moves = gr.read(gcode_text(tp)).moves
+        first_cut = [m for m in moves if m.end == (13.0, 4.0, z0)][0]
+        assert first_cut.start == (3.0, 4.0, z0)
+        assert moves[0].end[2] == 5.0  # straight up to the safe height first

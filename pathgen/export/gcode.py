@@ -282,10 +282,10 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
     pre_kind = [RAPID, RAPID]
     pre_end = [[np.nan, np.nan, safe], [p0[0], p0[1], safe]]
     pre_feed = [0.0, 0.0]
-    if p0[2] < safe:
-        pre_kind.append(LINE)
+    if p0[2] != safe:  # down at the plunge feed, or up at rapid
+        pre_kind.append(LINE if p0[2] < safe else RAPID)
         pre_end.append([p0[0], p0[1], p0[2]])
-        pre_feed.append(plunge)
+        pre_feed.append(plunge if p0[2] < safe else 0.0)
     post = tp.end[-1, 2] < safe
     m = len(pre_kind) + n + int(post)
     kind = np.empty(m, np.int8)
