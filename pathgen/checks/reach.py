@@ -19,6 +19,10 @@ __all__ = ["radius_extremes", "inflections", "largest_tool_diameter", "gouges", 
 #: than r·(1 − GOUGE_RTOL) to it.
 GOUGE_RTOL = 1e-6
 
+#: Most points sampled round one group of reach spots to measure the material
+#: left (the step grows beyond r/1000 on very long groups).
+MAX_GRID = 50_000
+
 
 def radius_extremes(samples):
     """Smallest radius of left turns and of right turns.
@@ -120,8 +124,18 @@ def gouges(samples, d: float) -> np.ndarray:
     spacing = S.length / max(len(S) - 1, 1)
     every = max(1, int((r / 32.0) / max(spacing, 1e-300)))
     ref = S.xy[::every]
-    dist, _ = cKDTree(ref).query(centers, k=1, distance_upper_bound=bound)
-    return dist < bound
+    # tool positions every r/256 or closer; a sample between two tested
+    # positions gouges when either of them does
+    step = max(1, int((r / 256.0) / max(spacing, 1e-300)))
+    tested = np.r_[np.arange(0, len(S), step), len(S) - 1] if step > 1 else np.arange(len(S))
+    dist, _ = cKDTree(ref).query(centers[tested], k=1, distance_upper_bound=bound)
+    hit = dist < bound
+    if step == 1:
+        return hit
+    pos = np.arange(len(S))
+    lo = np.minimum(np.searchsorted(tested, pos, side="right") - 1, len(tested) - 1)
+    hi = np.minimum(lo + 1, len(tested) - 1)
+    return hit[lo] | hit[hi]
 
 
 def _window(s0: float, s1: float, margin: float, length: float, closed: bool):
@@ -157,8 +171,10 @@ def material_left(contour, samples, d: float, spans, *, step_fraction: float = 1
     Notes
     -----
     Measured on the geometry: the contour near the span is sampled every
-    r·step_fraction; a tool position (a point of the offset curve P + d·N)
-    is kept when no contour point lies closer than r·(1 − 1e-6) to it;
+    r·step_fraction (coarser when spans closer than 10 r to each other
+    run together over more than MAX_GRID samples); a tool position (a point
+    of the offset curve P + d·N) is kept when no contour point (every r/64)
+    lies closer than r·(1 − 1e-6) to it;
     the depth at a contour point is its distance to the nearest kept
     position minus r.  For a sharp inside corner of opening angle θ this
     gives the handbook r·(1/sin(θ/2) − 1).
@@ -183,15 +199,19 @@ def material_left(contour, samples, d: float, spans, *, step_fraction: float = 1
         grids = []
         for margin in (5.0 * r, 3.0 * r):
             lo, hi, whole = _window(g0, g1, margin, L, S.closed)
-            n = int(min(max((hi - lo) / step, 64), 200_000))
+            n = int(min(max((hi - lo) / step, 64), MAX_GRID))
             grids.append(np.linspace(lo, hi, n, endpoint=not whole))
         pts_s, ctr_s = grids
         t_pts = np.interp(np.mod(pts_s, L) if S.closed else pts_s, S.s, S.t)
         t_ctr = np.interp(np.mod(ctr_s, L) if S.closed else ctr_s, S.s, S.t)
         P = contour(t_pts)
         C = contour(t_ctr) + d * contour.normal(t_ctr)
-        dist, _ = cKDTree(P).query(C, k=1)
-        valid = C[dist >= r * (1.0 - GOUGE_RTOL)]
+        # contour points every r/64 or closer are enough to see a gouge
+        # deeper than about r/30000 (see gouges); denser ones slow the search
+        every = max(1, int((r / 64.0) / max(float(pts_s[1] - pts_s[0]), 1e-300)))
+        bound = r * (1.0 - GOUGE_RTOL)
+        dist, _ = cKDTree(P[::every]).query(C, k=1, distance_upper_bound=bound)
+        valid = C[dist >= bound]
         if len(valid) == 0:
             continue
         tree = cKDTree(valid)
