@@ -305,8 +305,8 @@ def _read_dxf(path: str, name: str, layer):
             loc = e.dxf.location
             points_by_layer.setdefault(lay, []).append((loc.x, loc.y))
         elif kind == "LWPOLYLINE":
-            pts = np.array([(v[0], v[1]) for v in e.get_points("xy")], dtype=np.float64)
-            bulge = any(abs(v[4]) > 0 for v in e.get_points("xyseb"))
+            xyb = np.array(e.get_points("xyb"), dtype=np.float64).reshape(-1, 3)
+            pts, bulge = xyb[:, :2].copy(), bool(np.any(xyb[:, 2] != 0))
             candidates.append((lay, f"LWPOLYLINE {e.dxf.handle}", pts, bool(e.closed), bulge))
         elif kind == "POLYLINE" and (e.is_2d_polyline or e.is_3d_polyline):
             pts = np.array([(v.dxf.location.x, v.dxf.location.y) for v in e.vertices],

@@ -317,3 +317,13 @@ def test_junk_text_always_input_error(tmp_path_factory, rows, word, sep):
     path.write_text(text)
     with pytest.raises(InputError, match=r"^junk\.txt"):
         read_points(path)
+
+
+def test_inline_comments_in_both_parses(tmp_path):
+    body = "0,0  # start\n10,0\n10,5 # probe 3\n"
+    (tmp_path / "fast.csv").write_text(body)
+    (tmp_path / "slow.csv").write_text("# header comment\n\n" + body)  # blank: careful pass
+    for name in ("fast.csv", "slow.csv"):
+        o = read_points(tmp_path / name)
+        np.testing.assert_array_equal(o.points, [[0, 0], [10, 0], [10, 5]])
+    assert read_points(tmp_path / "slow.csv").line_numbers.tolist() == [3, 4, 5]
