@@ -215,8 +215,8 @@ def _read_text(path: str, name: str):
     while pos < len(text):
         nl = text.find("\n", pos)
         nl = len(text) if nl < 0 else nl
-        s = text[pos:nl].strip()
-        if s and not s.startswith("#"):
+        s = text[pos:nl].split("#", 1)[0].strip()
+        if s:
             if header is None:
                 sep, dec = _layout(s, i + 1, name)
                 toks = _split(s, sep)
