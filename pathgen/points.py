@@ -280,7 +280,12 @@ def _read_text(path: str, name: str):
         steps.append(f"skipped {skipped} comment or blank line{'s' if skipped > 1 else ''}")
     if ncols == 3:
         steps.append("ignored the third column (z) on every line")
-    return data[:, :2], numbers, steps
+    warnings = []
+    if ncols == 3 and sep == ",":
+        warnings.append(f"{name}: 3 comma-separated values per line, read as x, y, z; if "
+                        "the file uses decimal commas (12,5,3 for 12.5 and 3), save it "
+                        "with ';' between the columns")
+    return data[:, :2], numbers, steps, warnings
 
 
 # -- DXF drawings -------------------------------------------------------------
@@ -382,9 +387,9 @@ def read_points(path, *, units: str = "mm", layer=None, closed=None) -> Outline:
                             steps=steps, warnings=warnings)
     if layer is not None:
         raise InputError(f"{name}: layer= applies to DXF drawings only")
-    pts, numbers, steps = _read_text(path, name)
+    pts, numbers, steps, warnings = _read_text(path, name)
     return clean_points(pts, closed=closed, units=units, source=name,
-                        line_numbers=numbers, steps=steps)
+                        line_numbers=numbers, steps=steps, warnings=warnings)
 
 
 # -- cleaning -----------------------------------------------------------------

@@ -89,6 +89,13 @@ def test_tabs_third_column_comments_blank_lines():
     assert any("skipped 2 comment or blank lines" in s for s in o.steps)
 
 
+def test_three_comma_values_warn_about_decimal_commas(tmp_path):
+    (tmp_path / "xyz.csv").write_text("12,5,3\n14,5,3\n14,7,3\n")
+    o = read_points(tmp_path / "xyz.csv")
+    np.testing.assert_array_equal(o.points, [[12, 5], [14, 5], [14, 7]])
+    assert any("decimal commas" in w and "';'" in w for w in o.warnings)
+
+
 def test_spaces_with_decimal_commas_and_quotes():
     o = read_points(DATA / "good" / "spaces_decimal_comma.xy")
     np.testing.assert_array_equal(o.points, [[0, 0], [12.5, 0], [12.5, 3.75]])
