@@ -43,6 +43,16 @@ def join(*contours):
                    np.vstack(points), corners=corners[:-1])
 
 
+def square(side=40.0):
+    """A closed counter-clockwise square, one straight piece per side, corners
+    at the joints and at the seam."""
+    c = [(0, 0), (side, 0), (side, side), (0, side), (0, 0)]
+    sides = [fit([c[i], c[i + 1]]) for i in range(4)]
+    open_ = join(*sides)
+    return Contour(open_.breaks, open_.coefficients, True, open_.points[:-1],
+                   corners=open_.corners)
+
+
 def wedge(theta, L=20.0):
     """Two straight sides meeting at the origin with opening angle theta (radians)."""
     a = fit([[L, 0.0], [0.0, 0.0]])
@@ -148,6 +158,36 @@ def test_outside_corner_is_reached_and_slows_the_machine():
     assert accel[0].allowed_feed == pytest.approx(60 * math.sqrt(500 * r), rel=1e-12)
     # the tool center goes a quarter circle of radius r further (geometry)
     assert rep.path_length == pytest.approx(40.0 + r * math.pi / 2, rel=1e-12)
+
+
+def test_square_outside_and_inside():
+    r, a = 3.0, 500.0
+    m = Machine(max_feed=3000, max_accel=a, block_rate=1e6)
+    sq = square(40.0)
+    out = check(sq, m, Tool(2 * r), Cut(side="outside", feed=3000))
+    assert len(out.corners) == 4 and all(c[3] == pytest.approx(90.0) for c in out.corners)
+    assert not out.tool_cannot_reach
+    # Steiner (SOURCES §9): the outer offset of a convex outline is P + 2πr long
+    assert out.path_length == pytest.approx(160.0 + 2 * math.pi * r, rel=1e-12)
+    accel = [t for t in out.tight_spots if t.reason == "accel"]
+    assert len(accel) == 4
+    # SOURCES §8: round each corner the tool center runs an arc of radius r
+    for t in accel:
+        assert t.allowed_feed == pytest.approx(60 * math.sqrt(a * r), rel=1e-12)
+        assert t.length == 0.0
+    assert {(t.x, t.y) for t in accel} == {(0.0, 0.0), (40.0, 0.0), (40.0, 40.0), (0.0, 40.0)}
+    ins = check(sq, m, Tool(2 * r), Cut(side="inside", feed=3000))
+    reach = [t for t in ins.tight_spots if t.reason == "reach"]
+    assert len(reach) == 4
+    # handbook: r(1/sin(θ/2) - 1) in each 90° inside corner
+    for t in reach:
+        assert t.material_left == pytest.approx(r * (math.sqrt(2) - 1), abs=r * 2e-3)
+    # geometry: inside, each side loses r at both ends; to within the sample
+    # spacing (40 mm / 1024) at each of the 8 trimmed ends
+    assert ins.path_length == pytest.approx(4 * (40.0 - 2 * r), abs=8 * 40.0 / 1024)
+    # kinematics: the tool stops in each inside corner, so four trapezoids
+    # of 34 mm at 50 mm/s with a = 500 mm/s²: 4·(34/50 + 50/500) = 3.12 s
+    assert ins.cycle_time == pytest.approx(3.12, abs=8 * 40.0 / 1024 / 50)
 
 
 def test_material_left_in_a_small_fillet():

@@ -211,7 +211,8 @@ class SpeedLimits:
     the left normal; ``gap`` = 1 − dκ (the tool-center path is regular
     where gap > 0); ``path_radius`` is R_c (inf on straight stretches, 0
     where the tool cannot reach or at a sharp corner of the tool-center
-    path).
+    path); ``reach`` marks the samples the tool cannot reach and
+    ``concave_corner`` both samples of each sharp corner toward the tool.
     """
 
     samples: object
@@ -223,6 +224,8 @@ class SpeedLimits:
     v_accel: np.ndarray
     v_block: np.ndarray
     v_limit: np.ndarray
+    reach: np.ndarray
+    concave_corner: np.ndarray
 
 
 def cut_sign(contour, cut: Cut) -> int:
@@ -263,18 +266,40 @@ def speed_limits(samples, machine: Machine, tool: Tool, cut: Cut, *, sign=None) 
         if S.closed and away[-1]:
             convex_corner[0] = True
     Rc = np.where(S.corner, np.where(convex_corner, r, 0.0), Rc)
+    # out of reach: the contour bends toward the tool with R <= r, a sharp
+    # corner turns toward it, or the tool there would cut into the contour
+    # elsewhere (a gap narrower than the tool, or the sides of an inside
+    # corner).  The tool-center path skips these samples (its loops are
+    # trimmed) and has a sharp corner there: it stops.
+    concave_corner = np.zeros(len(S), bool)
+    reach = np.zeros(len(S), bool)
+    if d != 0:
+        from .reach import gouges
+
+        toward = pair_first & (np.sign(turn) * np.sign(d) > 0)
+        concave_corner = toward | np.r_[False, toward[:-1]]
+        if S.closed and toward[-1]:
+            concave_corner[0] = True
+        reach = (gap <= 0) | concave_corner | gouges(S, d)
+    Rc = np.where(reach, 0.0, Rc)
     v_prog = min(cut.feed, machine.max_feed) / 60.0
     v_accel = np.sqrt(a * Rc)
     v_block = machine.block_rate * chord_length(Rc, cut.tolerance)
     v_limit = np.minimum(np.minimum(v_accel, v_block), v_prog)
-    # tool-center distance: (1 − dκ) ds where regular, 0 inside a trimmed
-    # loop, plus the arc of radius r round each convex corner.
-    g = np.maximum(gap, 0.0)
+    # tool-center distance: (1 − dκ) ds where the tool reaches, 0 where the
+    # path is trimmed (half a step at each end of a trimmed stretch), plus
+    # the arc of radius r round each corner that points at the tool.
+    g = np.where(reach, 0.0, np.maximum(gap, 0.0))
     step = np.diff(S.s) * 0.5 * (g[1:] + g[:-1])
     if d != 0:
         firsts = np.flatnonzero(pair_first & convex_corner)
-        step[firsts[firsts < len(step)]] += r * np.abs(turn[firsts[firsts < len(step)]])
-    return SpeedLimits(S, d, gap, Rc, step, v_prog, v_accel, v_block, v_limit)
+        inner = firsts[firsts < len(step)]
+        step[inner] += r * np.abs(turn[inner])
+        if len(step) and S.closed and convex_corner[-1] and pair_first[-1]:
+            # round the seam corner on the way to the end of a closed cut
+            step[-1] += r * abs(turn[-1])
+    return SpeedLimits(S, d, gap, Rc, step, v_prog, v_accel, v_block, v_limit, reach,
+                       concave_corner)
 
 
 def plan_from_limits(lim: SpeedLimits, machine: Machine, cut: Cut) -> FeedPlan:

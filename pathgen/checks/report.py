@@ -233,8 +233,6 @@ def _span(S, q, i0: int, i1: int):
     if S.closed:
         s0, s1 = s0 % L, s1 % L
         length = (s1 - s0) % L if i1 < i0 else s1 - s0
-        if i1 < i0 and length == 0:
-            length = L
     else:
         length = s1 - s0
     return s0, s1, max(float(length), 0.0)
@@ -298,7 +296,7 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
     >>> check(hole, Machine(), Tool(6), Cut(side="inside")).tool_cannot_reach
     False
     """
-    from .reach import gouges, inflections, largest_tool_diameter, material_left, radius_extremes
+    from .reach import inflections, largest_tool_diameter, material_left, radius_extremes
     from .sampling import sample_contour
 
     machine, tool, cut = _tool_cut(machine, tool, cut)
@@ -341,17 +339,11 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
     largest = largest_tool_diameter(S, sign)
 
     # -- tight spots --------------------------------------------------------------
-    concave_corner = np.zeros(n, bool)
-    if sign != 0 and r > 0:
-        toward = S.corner & (S.turn * sign > 0)
-        concave_corner = toward | np.r_[False, toward[:-1]]
-        if closed and toward[-1]:
-            concave_corner[0] = True
-    gouge = gouges(S, sign * r) if sign != 0 and r > 0 else np.zeros(n, bool)
-    reach_mask = ((lim.gap <= 0) & (r > 0)) | concave_corner | gouge
+    concave_corner = lim.concave_corner
+    reach_mask = lim.reach
     spots = []
     v_prog = lim.v_prog
-    q_reach = np.where(concave_corner | gouge, np.minimum(lim.gap, 0.0), lim.gap)
+    q_reach = np.where(reach_mask, np.minimum(lim.gap, 0.0), lim.gap)
     reach_runs = _runs(reach_mask, closed)
     reach_spans = []
     for i0, i1 in reach_runs:

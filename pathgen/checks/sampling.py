@@ -150,7 +150,7 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     ----------
     contour : Contour
     per_piece : int or None
-        Samples per cubic piece; None chooses 4 to 64 so that there are at
+        Samples per cubic piece; None chooses 4 to 1024 so that there are at
         least about 4096 in all.
     refine : bool
         Add the local maxima of |κ| found by golden-section search.
@@ -168,7 +168,7 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     h = np.diff(breaks)
     closed = bool(contour.closed)
     if per_piece is None:
-        per_piece = int(np.clip(np.ceil(4096 / m), 4, 64))
+        per_piece = int(np.clip(np.ceil(4096 / m), 4, 1024))
 
     # -- corners: listed ones plus any break where the tangent jumps ----------
     inner = np.arange(1, m)
