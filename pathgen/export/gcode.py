@@ -251,6 +251,8 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
         raise ExportError("the toolpath has no moves: nothing to write")
     scale = 10**decimals
     tol_gap = 1.0 / scale
+    if not all(np.isfinite(a).all() for a in (tp.start, tp.end, tp.center, tp.feed)):
+        raise ExportError("the toolpath holds NaN or infinite values: nothing is written")
     big = max(float(np.abs(a).max()) for a in (tp.start, tp.end, tp.center))
     if big > MAX_COORDINATE:
         raise ExportError(f"a toolpath coordinate ({_num(big)} {units}) is beyond ±{MAX_COORDINATE:.0f} {units}")
