@@ -9,6 +9,8 @@ import math
 
 import numpy as np
 import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
 from scipy.special import ellipe
 
 from pathgen import Contour, Cut, Machine, Tool, check, fit
@@ -346,3 +348,29 @@ def test_check_errors():
         check(circle(3.0)).to_dict(units="cm")
     with pytest.raises(InputError, match="reason='gap' is not one of"):
         check(circle(3.0)).count("gap")
+
+
+def star(seed, n=150):
+    """A smooth random star-shaped closed outline (counter-clockwise)."""
+    rng = np.random.default_rng(seed)
+    th = np.linspace(0, 2 * np.pi, n, endpoint=False)
+    r = 20.0 + sum(rng.uniform(-2.5, 2.5) * np.cos(k * th + rng.uniform(0, 6)) for k in range(1, 7))
+    return fit(np.c_[r * np.cos(th), r * np.sin(th)], closed=True)
+
+
+@settings(max_examples=12, deadline=None)
+@given(seed=st.integers(0, 10_000), side=st.sampled_from(["outside", "inside"]))
+def test_largest_tool_is_the_reach_threshold(seed, side):
+    # Geometry (SOURCES §9 tool-radius rule): a tool 5 % larger than the
+    # largest that reaches everywhere cannot reach somewhere; one 5 %
+    # smaller meets no bend tighter than itself.
+    c = star(seed)
+    big = check(c, FAST, Tool(0.0), Cut(side=side)).largest_tool_diameter
+    if big is None:  # nothing bends toward the tool on this side
+        assert not check(c, FAST, Tool(30.0), Cut(side=side)).tool_cannot_reach
+        return
+    over = check(c, FAST, Tool(1.05 * big), Cut(side=side))
+    assert over.tool_cannot_reach
+    under = check(c, FAST, Tool(0.95 * big), Cut(side=side))
+    assert all(t.min_radius > 0.95 * big / 2 for t in under.tight_spots if t.reason == "reach")
+    json.dumps(under.to_dict(), allow_nan=False)
