@@ -69,6 +69,8 @@ def test_png_is_written_with_the_promised_size(tmp_path):
     p = plot(tmp_path / "part.png", _part(), toolpath=_toolpath(), report=_spots(3))
     assert p.stat().st_size > 10_000
     assert _png_size(p) == (1200, 800)
+    data = p.read_bytes()
+    assert b"tIME" not in data  # PNG spec: the tIME chunk would hold the modification time
 
 
 def test_svg_holds_every_tight_spot_and_labels(tmp_path):
