@@ -104,6 +104,17 @@ def test_reader_refuses_rule_breaks(text, match):
 
 
 # --------------------------------------------------------------------------- replay vs geometry
+def _replay_beside(tp, contour, z):
+    """Write, replay; the replayed points at depth z and their distance to the contour."""
+    from scipy.spatial import cKDTree
+
+    prog = gr.read(gcode_text(tp))
+    pts = _replay_points(prog)
+    cut = pts[np.isclose(pts[:, 2], z)]
+    d, _ = cKDTree(_dense(contour)).query(cut[:, :2])
+    return prog, cut, d
+
+
 def test_circle_outside_offset_replays_within_tolerance():
     R, r = 20.0, 3.0
     t = np.linspace(0, 2 * np.pi, 64, endpoint=False)
@@ -112,12 +123,7 @@ def test_circle_outside_offset_replays_within_tolerance():
     moves = _with_approach(_circle_arcs(R + r, 4))
     tp = Toolpath.from_moves(moves, tool_diameter=2 * r, side="outside", tolerance=0.01,
                              info={"safe_height": 5.0})
-    prog = gr.read(gcode_text(tp))
-    pts = _replay_points(prog)
-    cut = pts[np.isclose(pts[:, 2], -2.0)]
-    from scipy.spatial import cKDTree
-
-    d, _ = cKDTree(_dense(contour)).query(cut[:, :2])
+    prog, cut, d = _replay_beside(tp, contour, -2.0)
     assert np.max(np.abs(d - r)) <= tp.tolerance
     assert np.max(np.abs(np.hypot(cut[:, 0], cut[:, 1]) - (R + r))) <= 2e-4  # arc rounding only
 
@@ -133,12 +139,7 @@ def test_ellipse_inside_offset_lines_replay_within_tolerance():
     moves = [Line((*center[i], -1.0), (*center[i + 1], -1.0), 900.0) for i in range(len(center) - 1)]
     tp = Toolpath.from_moves(_with_approach(moves), tool_diameter=2 * r, side="inside", tolerance=0.01,
                              info={"safe_height": 5.0})
-    prog = gr.read(gcode_text(tp))
-    pts = _replay_points(prog)
-    cut = pts[np.isclose(pts[:, 2], -1.0)]
-    from scipy.spatial import cKDTree
-
-    d, _ = cKDTree(_dense(contour)).query(cut[:, :2])
+    prog, cut, d = _replay_beside(tp, contour, -1.0)
     # chords of 0.1 mm on radius >= b^2/a + r = 18.6 mm sag by < 1e-4 mm (sagitta)
     assert np.max(np.abs(d - r)) <= tp.tolerance
     assert len([m for m in prog.moves if m.g == 1]) == 2000 + 1  # plunge + every line
