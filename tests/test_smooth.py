@@ -14,11 +14,13 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from hypothesis import given, settings, strategies as st
 from scipy.interpolate import CubicSpline, make_smoothing_spline
 from scipy.spatial import cKDTree
 
 from pathgen import InputError
 from pathgen.outline import fit_outline
+from pathgen.points import clean_points
 from pathgen.smooth import fit_within, foot_distances, power_form, smoothing_spline
 from pathgen.spline import Contour, parameters
 
@@ -160,3 +162,34 @@ def test_smoothing_errors():
         fit_within(t, np.c_[t, t], -1.0)
     with pytest.raises(InputError, match=r"smooth must be a finite number > 0, got nan"):
         fit_outline(np.c_[t, t**2], smooth=float("nan"))
+
+
+def test_open_noisy_outline_pins_its_ends(rng):
+    # an invented cam flank probed as an open run of points
+    t = np.linspace(0, 1, 300)
+    true = np.c_[60 * t, 8 * np.sin(3 * t)]
+    pts = true + rng.normal(0, 0.01, true.shape)
+    c = fit_outline(pts, smooth=0.03)
+    assert not c.closed
+    np.testing.assert_allclose(c(np.array(c.domain)), pts[[0, -1]], atol=1e-12)
+    samples = c(np.linspace(*c.domain, 300_000))
+    dist, _ = cKDTree(samples).query(pts)  # independent measurement
+    assert dist.max() <= 0.03 + c.length / 300_000
+
+
+@settings(max_examples=15)
+@given(st.integers(0, 2**32 - 1), st.floats(0.002, 0.05), st.integers(12, 120))
+def test_random_noisy_loops_smooth_within_tol_without_nan(seed, sigma, n):
+    r = np.random.default_rng(seed)
+    th = np.sort(r.uniform(0, 2 * np.pi, n))
+    rad = 20 + 3 * np.sin(2 * th + r.uniform(0, 6))
+    pts = np.c_[rad * np.cos(th), rad * np.sin(th)] + r.normal(0, sigma, (n, 2))
+    try:
+        o = clean_points(pts, closed=True)
+    except InputError:
+        return
+    tol = 3 * sigma
+    c = fit_outline(o, smooth=tol)
+    assert np.isfinite(c.coefficients).all()
+    assert np.isfinite(c.curvature(np.linspace(*c.domain, 400))).all()
+    assert c.info["max_residual"] <= tol
