@@ -87,7 +87,7 @@ def smoothing_spline(t, y, lam: float, *, periodic: bool = False, fixed=None):
             M = np.zeros((n, 2))
             return y.copy(), M
         cols = np.arange(n - 2)
-        prev, mid, nxt = cols, cols + 1, cols + 2
+        prev, nxt = cols, cols + 2
         hm, hj = h[:-1], h[1:]
         rows_r = np.concatenate([cols, cols[:-1], cols[1:]])
         cols_r = np.concatenate([cols, cols[1:], cols[:-1]])
