@@ -305,9 +305,33 @@ def _cmd_job(a, out, err) -> int:
         opts["dxf"] = a.output or _default_output(a.points, ".dxf")
     elif a.command == "plot":
         opts["plot"] = a.output or _default_output(a.points, ".png")
-    result = run(a.points, **opts)
+    result = run(a.points, progress=_stage_notes(a, err), **opts)
     caution = {"gcode": "always", "check": "text"}.get(a.command, "")
     return _emit(result, a, caution=caution, out=out, err=err)
+
+
+#: Inputs larger than this (bytes) announce each stage on stderr.
+LONG_INPUT_BYTES = 2_000_000
+
+
+def _stage_notes(a, err):
+    """Stage names on stderr for long work (large inputs), when stderr is a
+    terminal and --quiet is not given; otherwise None."""
+    isatty = getattr(err, "isatty", None)
+    if a.quiet or not (callable(isatty) and isatty()):
+        return None
+    try:
+        size = os.path.getsize(a.points)
+    except OSError:
+        return None
+    if size < LONG_INPUT_BYTES:
+        return None
+
+    def note(stage):
+        err.write(f"pathgen {a.command}: {stage} ...\n")
+        err.flush()
+
+    return note
 
 
 def _report_path(program):

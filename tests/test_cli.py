@@ -370,3 +370,43 @@ def test_demo_writes_everything(tmp_path):
     before = {p.name: p.stat().st_mtime_ns for p in d.iterdir()}
     assert_one_line_error(*call("demo", d), names="--force")
     assert {p.name: p.stat().st_mtime_ns for p in d.iterdir()} == before
+
+
+GOOD = sorted((ROOT / "tests" / "data" / "good").glob("*"))
+
+
+@pytest.mark.parametrize("good", GOOD, ids=lambda p: p.name)
+def test_good_corpus_checks_clean(good):
+    status, out, err = call("check", good, "--json")
+    assert status == 0, err
+    assert json.loads(out)["contour"]["points"] >= 3
+
+
+def test_dxf_input_needs_a_layer_when_it_holds_two_outlines():
+    two = ROOT / "tests" / "data" / "bad" / "two_outlines.dxf"
+    assert_one_line_error(*call("check", two), names="--layer")
+    status, out, err = call("check", two, "--layer", "OUTER", "--json")
+    assert status == 0 and json.loads(out)["contour"]["points"] >= 3
+
+
+class _Terminal(io.StringIO):
+    def isatty(self):
+        return True
+
+
+def test_progress_only_on_a_terminal_and_only_for_long_work(tmp_path, monkeypatch):
+    import pathgen.cli as cli
+
+    big = tmp_path / "big.csv"
+    th = np.linspace(0, 2 * np.pi, 2000, endpoint=False)
+    np.savetxt(big, np.c_[50 * np.cos(th), 30 * np.sin(th)], fmt="%.6f", delimiter=",")
+    out, err = io.StringIO(), _Terminal()
+    assert main(["check", str(big), "--quiet"], out=out, err=err) == 0
+    assert err.getvalue() == ""  # small input: no progress
+    monkeypatch.setattr(cli, "LONG_INPUT_BYTES", 1000)
+    out, err = io.StringIO(), _Terminal()
+    assert main(["check", str(big), "--json"], out=out, err=err) == 0
+    assert "pathgen check: read ..." in err.getvalue() and "fit ..." in err.getvalue()
+    json.loads(out.getvalue())  # stdout stays clean
+    out, err = io.StringIO(), io.StringIO()  # not a terminal: silent
+    assert main(["check", str(big), "--json"], out=out, err=err) == 0 and err.getvalue() == ""
