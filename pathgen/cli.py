@@ -205,11 +205,14 @@ def _summary_lines(result) -> list[str]:
     else:
         f = result.facts
         kind = "closed" if f["closed"] else "open"
-        x, y = f["min_radius_at"]
+        where = ""
+        if f["min_radius_at"] is not None:
+            x, y = f["min_radius_at"]
+            where = f" at x={x:.3f} y={y:.3f} (s={f['min_radius_s']:.3f} mm)"
         lines = [
             f"{result.source}: {f['points']} points, {kind}, {f['pieces']} pieces, {f['corners']} corners",
             f"  length          {_fmt_len(f['length'])}",
-            f"  smallest radius {_fmt_len(f['min_radius'])} at x={x:.3f} y={y:.3f} (s={f['min_radius_s']:.3f} mm)",
+            f"  smallest radius {_fmt_len(f['min_radius'])}{where}",
         ]
     tp = result.toolpath
     if tp is not None:

@@ -79,14 +79,16 @@ class Result:
         return 1 if self.tool_cannot_reach else 0
 
 
-def contour_facts(contour, *, per_piece: int | None = None) -> dict:
+def contour_facts(contour, report=None, *, per_piece: int | None = None) -> dict:
     """Points, closedness, length and the smallest radius of a contour.
 
-    The curvature is sampled ``per_piece`` times on every cubic piece
-    (default: 8, fewer on contours of more than 25 000 pieces, at least 1)
-    (sorted parameters, so no piece search); the smallest radius is
-    ``1 / max |κ|`` over those samples, with its place (x, y) and its
-    arc-length position ``s`` from the start, all in mm.
+    With a check ``report``, its length and its smallest radius (refined at
+    the curvature peaks) are used.  Without one, the curvature is sampled
+    ``per_piece`` times on every cubic piece (default: 8, fewer on contours
+    of more than 25 000 pieces, at least 1; sorted parameters, so no piece
+    search) and the smallest radius is ``1 / max |κ|`` over those samples.
+    Either way: its place (x, y) and arc-length position ``s`` from the
+    start, all in mm; ``inf`` when the contour is straight.
 
     >>> from pathgen.spline import fit
     >>> import numpy as np
@@ -97,6 +99,21 @@ def contour_facts(contour, *, per_piece: int | None = None) -> dict:
     """
     import numpy as np
 
+    facts = {
+        "points": int(len(contour.points)),
+        "closed": bool(contour.closed),
+        "pieces": int(contour.pieces),
+        "corners": len(contour.corners),
+    }
+    if report is not None:
+        r = report.min_radius
+        facts["length"] = float(report.length)
+        if r is None:
+            facts.update(min_radius=math.inf, min_radius_at=None, min_radius_s=None)
+        else:
+            facts.update(min_radius=float(r.radius), min_radius_at=[float(r.x), float(r.y)],
+                         min_radius_s=float(r.s))
+        return facts
     b = np.asarray(contour.breaks)
     if per_piece is None:
         per_piece = max(1, min(8, 200_000 // max(contour.pieces, 1)))
@@ -107,17 +124,14 @@ def contour_facts(contour, *, per_piece: int | None = None) -> dict:
     k = np.abs(contour.curvature(t))
     i = int(np.argmax(k))
     kmax = float(k[i])
+    facts["length"] = float(contour.length)
+    if kmax <= 0:
+        facts.update(min_radius=math.inf, min_radius_at=None, min_radius_s=None)
+        return facts
     xy = contour(t[i : i + 1])[0]
-    return {
-        "points": int(len(contour.points)),
-        "closed": bool(contour.closed),
-        "pieces": int(contour.pieces),
-        "corners": len(contour.corners),
-        "length": float(contour.length),
-        "min_radius": (1.0 / kmax) if kmax > 0 else math.inf,
-        "min_radius_at": [float(xy[0]), float(xy[1])],
-        "min_radius_s": float(contour.arc_length(t[i : i + 1])[0]),
-    }
+    facts.update(min_radius=1.0 / kmax, min_radius_at=[float(xy[0]), float(xy[1])],
+                 min_radius_s=float(contour.arc_length(t[i : i + 1])[0]))
+    return facts
 
 
 def _import(module: str):
@@ -293,13 +307,13 @@ def run(
     if corner_angle is not None:
         kw["corner_angle"] = check_positive("corner angle", corner_angle)
     contour = timed("fit", fit_outline, outline, **kw)
-    facts = timed("facts", contour_facts, contour)
 
     # -- check -----------------------------------------------------------------
     checks = _import("pathgen.checks.report")
     rep = None
     if checks is not None:
         rep = timed("check", checks.check, contour, mach, tool, cut)
+    facts = timed("facts", contour_facts, contour, rep)
 
     # -- toolpath --------------------------------------------------------------
     tp = None

@@ -210,3 +210,20 @@ def test_batch_bad_arguments(tmp_path):
         run_batch(tmp_path / "missing", tmp_path / "out")
     with pytest.raises(InputError, match="jobs must be a whole number"):
         run_batch(tmp_path, tmp_path / "out", jobs=0)
+
+
+def test_facts_come_from_the_report_when_checked():
+    # circle of radius 20: handbook curvature 1/R, length 2*pi*R
+    res = run(circle(20.0), closed=True, tool_diameter=6)
+    assert res.report is not None
+    f = res.facts
+    assert f["min_radius"] == res.report.min_radius.radius
+    np.testing.assert_allclose(f["min_radius"], 20.0, rtol=5e-4)  # bound as in test_contour_facts_on_a_circle
+    np.testing.assert_allclose(f["length"], 2 * np.pi * 20.0, rtol=1e-7)
+    # a polygon's edges are straight: no finite radius
+    from pathgen.pipeline import contour_facts
+    from pathgen.outline import fit_outline
+
+    square = fit_outline([[0, 0], [10, 0], [10, 10], [0, 10]], closed=True)
+    g = contour_facts(square)
+    assert g["min_radius"] == math.inf and g["min_radius_at"] is None and g["corners"] == 4
