@@ -103,6 +103,10 @@ def _number(text: str) -> float:
         raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
 
 
+def _angle(text: str):
+    return "off" if text.strip().lower() == "off" else _number(text)
+
+
 def _add_shared(p: argparse.ArgumentParser, *, output: str | None) -> None:
     """The options every job command shares (one spelling each)."""
     g = p.add_argument_group("input and fit")
@@ -119,8 +123,8 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None) -> None:
                    help="units of the points and of every length option (default: mm)")
     g.add_argument("--smooth", type=_number, metavar="TOL",
                    help="smooth noisy points, keeping the contour within TOL of every point")
-    g.add_argument("--corner-angle", type=_number, metavar="DEG",
-                   help="turning angle above which a point is a sharp corner")
+    g.add_argument("--corner-angle", type=_angle, metavar="DEG",
+                   help="turning angle above which a point is a sharp corner (default: 40; off: no corners)")
     g.add_argument("--layer", metavar="NAME", help="DXF input: the layer that holds the outline")
 
     g = p.add_argument_group("machine, tool and cut")

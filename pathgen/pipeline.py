@@ -204,9 +204,9 @@ def run(
     smooth : float or None
         Smoothing tolerance (units): the contour stays within it of every
         point.  None interpolates the points exactly.
-    corner_angle : float or None
-        Turning angle (degrees) above which a point is a sharp corner;
-        None for the input stage's default.
+    corner_angle : float, "off" or None
+        Turning angle (degrees, below 180) above which a point is a sharp
+        corner; "off": no corners; None: the input stage's default (40).
     layer : str or None
         DXF input: the layer holding the outline.
     machine : str, Path, Machine or None
@@ -304,7 +304,9 @@ def run(
     from .outline import fit_outline
 
     kw = {"end": end, "param": param, "smooth": smooth_mm}
-    if corner_angle is not None:
+    if corner_angle == "off":
+        kw["corner_angle"] = None
+    elif corner_angle is not None:
         kw["corner_angle"] = check_positive("corner angle", corner_angle)
     contour = timed("fit", fit_outline, outline, **kw)
 

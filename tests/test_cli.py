@@ -410,3 +410,17 @@ def test_progress_only_on_a_terminal_and_only_for_long_work(tmp_path, monkeypatc
     json.loads(out.getvalue())  # stdout stays clean
     out, err = io.StringIO(), io.StringIO()  # not a terminal: silent
     assert main(["check", str(big), "--json"], out=out, err=err) == 0 and err.getvalue() == ""
+
+
+def test_corner_angle_option():
+    # The plate is a polygon with 8 vertices, each turning by 90 degrees
+    # (its construction in pathgen.demo): above the 40-degree default, all
+    # corners; with detection off, none and a curved spline instead.
+    plate = SAMPLES / "plate.csv"
+    facts = json.loads(call("check", plate, "--json")[1])["contour"]
+    assert facts["corners"] == 8 and facts["min_radius"] is None
+    facts = json.loads(call("check", plate, "--json", "--corner-angle", "off")[1])["contour"]
+    assert facts["corners"] == 0 and facts["min_radius"] < 5
+    facts = json.loads(call("check", plate, "--json", "--corner-angle", "95")[1])["contour"]
+    assert facts["corners"] == 0
+    assert_one_line_error(*call("check", plate, "--corner-angle", "200"), names="180")
