@@ -154,6 +154,43 @@ def _check_targets(targets: dict, force: bool) -> dict:
     return {kind: check_target(p, force=force) for kind, p in targets.items() if p is not None}
 
 
+#: Contours of at least this many pieces get their drawing's arc polyline
+#: computed in a second process while the check and the toolpath run.
+PARALLEL_PIECES = 50_000
+
+
+def _contour_arcs(contour, tolerance):
+    from .path.build import contour_moves
+
+    return contour_moves(contour, tolerance=tolerance, moves="arcs")
+
+
+def _start_contour_arcs(contour, tolerance):
+    """Submit :func:`_contour_arcs` to a one-worker process pool; None when
+    a pool cannot be had (the caller then computes it in this process)."""
+    from concurrent.futures import ProcessPoolExecutor
+
+    try:
+        pool = ProcessPoolExecutor(max_workers=1)
+        return pool, pool.submit(_contour_arcs, contour, tolerance)
+    except (OSError, RuntimeError, ValueError):  # no processes here (e.g. a daemon worker)
+        return None
+
+
+def _finish_contour_arcs(job, contour, tolerance):
+    """The arc polyline from the second process (or, should that process
+    have failed to run, computed here: the result is the same)."""
+    from concurrent.futures.process import BrokenProcessPool
+
+    pool, future = job
+    try:
+        return future.result()
+    except (BrokenProcessPool, OSError):
+        return _contour_arcs(contour, tolerance)
+    finally:
+        pool.shutdown(wait=True)
+
+
 def _length(name, value, scale, *, allow_zero=False):
     if value is None:
         return None
@@ -310,6 +347,13 @@ def run(
         kw["corner_angle"] = check_positive("corner angle", corner_angle)
     contour = timed("fit", fit_outline, outline, **kw)
 
+    # The drawing's arc polyline of the contour is independent of the check
+    # and the toolpath: on a large contour, compute it in a second process
+    # meanwhile (both stages take seconds at 10^6 points).
+    arcs_job = None
+    if "dxf" in targets and contour.pieces >= PARALLEL_PIECES and (os.cpu_count() or 1) > 1:
+        arcs_job = _start_contour_arcs(contour, tol_mm)
+
     # -- check -----------------------------------------------------------------
     checks = _import("pathgen.checks.report")
     rep = None
@@ -349,7 +393,10 @@ def run(
             from .export.dxf import write_dxf
             from .path.build import contour_moves
 
-            arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
+            if arcs_job is not None:
+                arcs = timed("dxf arcs", _finish_contour_arcs, arcs_job, contour, tol_mm)
+            else:
+                arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
             files["dxf"] = timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
                                  report=rep, units=units, force=force)
         if "plot" in targets:

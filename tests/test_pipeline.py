@@ -227,3 +227,18 @@ def test_facts_come_from_the_report_when_checked():
     square = fit_outline([[0, 0], [10, 0], [10, 10], [0, 10]], closed=True)
     g = contour_facts(square)
     assert g["min_radius"] == math.inf and g["min_radius_at"] is None and g["corners"] == 4
+
+
+def test_drawing_arcs_from_a_second_process_are_the_same(tmp_path, monkeypatch):
+    # Large contours compute the drawing's arc polyline in a second process;
+    # the file must not depend on where it was computed.
+    import pathgen.pipeline as pipeline
+
+    run(SAMPLES / "profile.csv", tool_diameter=6, dxf=tmp_path / "serial.dxf")
+    monkeypatch.setattr(pipeline, "PARALLEL_PIECES", 1)
+    calls = []
+    real = pipeline._start_contour_arcs
+    monkeypatch.setattr(pipeline, "_start_contour_arcs", lambda *a: calls.append(1) or real(*a))
+    run(SAMPLES / "profile.csv", tool_diameter=6, dxf=tmp_path / "parallel.dxf")
+    assert calls == [1]
+    assert (tmp_path / "serial.dxf").read_bytes() == (tmp_path / "parallel.dxf").read_bytes()
