@@ -134,18 +134,6 @@ def contour_facts(contour, report=None, *, per_piece: int | None = None) -> dict
     return facts
 
 
-def _import(module: str):
-    """A stage's module, or None while it does not exist yet."""
-    import importlib
-
-    try:
-        return importlib.import_module(module)
-    except ModuleNotFoundError as exc:
-        if exc.name == module:
-            return None
-        raise
-
-
 def _check_targets(targets: dict, force: bool) -> dict:
     """Resolve output paths; refuse existing files unless ``force``
     (all checked before anything is written)."""
@@ -154,8 +142,9 @@ def _check_targets(targets: dict, force: bool) -> dict:
     return {kind: check_target(p, force=force) for kind, p in targets.items() if p is not None}
 
 
-#: Contours of at least this many pieces get their drawing's arc polyline
-#: computed in a second process while the check and the toolpath run.
+#: Contours of at least this many pieces run the stages that do not depend
+#: on each other (check; toolpath; the drawing's arc polyline) side by side
+#: in worker processes.
 PARALLEL_PIECES = 50_000
 
 
@@ -165,30 +154,44 @@ def _contour_arcs(contour, tolerance):
     return contour_moves(contour, tolerance=tolerance, moves="arcs")
 
 
-def _start_contour_arcs(contour, tolerance):
-    """Submit :func:`_contour_arcs` to a one-worker process pool; None when
-    a pool cannot be had (the caller then computes it in this process)."""
-    from concurrent.futures import ProcessPoolExecutor
+def _toolpath(contour, tool, cut, machine, kw):
+    from .path.build import make_toolpath
 
-    try:
-        pool = ProcessPoolExecutor(max_workers=1)
-        return pool, pool.submit(_contour_arcs, contour, tolerance)
-    except (OSError, RuntimeError, ValueError):  # no processes here (e.g. a daemon worker)
-        return None
+    return make_toolpath(contour, tool, cut, machine, **kw)
 
 
-def _finish_contour_arcs(job, contour, tolerance):
-    """The arc polyline from the second process (or, should that process
-    have failed to run, computed here: the result is the same)."""
-    from concurrent.futures.process import BrokenProcessPool
+class _SideJobs:
+    """Stages started in worker processes, collected later; without a pool
+    (small contours, one core, or no processes allowed) each runs in this
+    process when collected.  The results are the same either way."""
 
-    pool, future = job
-    try:
-        return future.result()
-    except (BrokenProcessPool, OSError):
-        return _contour_arcs(contour, tolerance)
-    finally:
-        pool.shutdown(wait=True)
+    def __init__(self, enabled: bool):
+        self.pool, self.jobs = None, {}
+        if enabled:
+            from concurrent.futures import ProcessPoolExecutor
+
+            try:
+                self.pool = ProcessPoolExecutor(max_workers=2)
+            except (OSError, RuntimeError, ValueError):  # pragma: no cover - no processes here
+                self.pool = None
+
+    def start(self, name, fn, *args):
+        self.jobs[name] = (fn, args, self.pool.submit(fn, *args) if self.pool else None)
+
+    def result(self, name):
+        from concurrent.futures.process import BrokenProcessPool
+
+        fn, args, future = self.jobs.pop(name)
+        if future is not None:
+            try:
+                return future.result()
+            except BrokenProcessPool:  # pragma: no cover - a worker died: do it here
+                pass
+        return fn(*args)
+
+    def close(self):
+        if self.pool is not None:
+            self.pool.shutdown(wait=True, cancel_futures=True)
 
 
 def _length(name, value, scale, *, allow_zero=False):
@@ -347,30 +350,27 @@ def run(
         kw["corner_angle"] = check_positive("corner angle", corner_angle)
     contour = timed("fit", fit_outline, outline, **kw)
 
-    # The drawing's arc polyline of the contour is independent of the check
-    # and the toolpath: on a large contour, compute it in a second process
-    # meanwhile (both stages take seconds at 10^6 points).
-    arcs_job = None
-    if "dxf" in targets and contour.pieces >= PARALLEL_PIECES and (os.cpu_count() or 1) > 1:
-        arcs_job = _start_contour_arcs(contour, tol_mm)
+    # -- check, toolpath, drawing arcs: independent of each other --------------
+    need_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
+    path_kw = {"moves": moves, "lead": lead, "seam": seam, "units": units}
+    for name, value in (("depth", depth), ("step_down", step_down), ("safe_height", safe_height)):
+        if value is not None:
+            path_kw[name] = _length(name.replace("_", " "), value, scale)
+    side = _SideJobs(contour.pieces >= PARALLEL_PIECES and (os.cpu_count() or 1) > 1
+                     and (need_path or "dxf" in targets))
+    try:
+        if need_path:
+            side.start("toolpath", _toolpath, contour, tool, cut, mach, path_kw)
+        if "dxf" in targets:
+            side.start("dxf arcs", _contour_arcs, contour, tol_mm)
+        from .checks.report import check
 
-    # -- check -----------------------------------------------------------------
-    checks = _import("pathgen.checks.report")
-    rep = None
-    if checks is not None:
-        rep = timed("check", checks.check, contour, mach, tool, cut)
-    facts = timed("facts", contour_facts, contour, rep)
-
-    # -- toolpath --------------------------------------------------------------
-    tp = None
-    if "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets)):
-        from .path.build import make_toolpath
-
-        kw = {"moves": moves, "lead": lead, "seam": seam, "units": units}
-        for name, value in (("depth", depth), ("step_down", step_down), ("safe_height", safe_height)):
-            if value is not None:
-                kw[name] = _length(name.replace("_", " "), value, scale)
-        tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
+        rep = timed("check", check, contour, mach, tool, cut)
+        facts = timed("facts", contour_facts, contour, rep)
+        tp = timed("toolpath", side.result, "toolpath") if need_path else None
+        arcs = timed("dxf arcs", side.result, "dxf arcs") if "dxf" in targets else None
+    finally:
+        side.close()
 
     # -- write -----------------------------------------------------------------
     import warnings
@@ -391,12 +391,7 @@ def run(
                 "report", write_report, rep, targets["report"], units=units, force=force)
         if "dxf" in targets:
             from .export.dxf import write_dxf
-            from .path.build import contour_moves
 
-            if arcs_job is not None:
-                arcs = timed("dxf arcs", _finish_contour_arcs, arcs_job, contour, tol_mm)
-            else:
-                arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
             files["dxf"] = timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
                                  report=rep, units=units, force=force)
         if "plot" in targets:
