@@ -33,8 +33,10 @@ def _cut_chain(tp):
 
 
 def _dense(chain, per=200):
-    pts, _, _ = sample_chain(chain, np.full(len(chain), per))
-    return pts
+    """Points along the moves; a joint appears once (no repeated points)."""
+    pts, owner, _ = sample_chain(chain, np.full(len(chain), per))
+    last = np.r_[owner[1:] != owner[:-1], False]
+    return pts[~last]
 
 
 def _moves_chain(tp):

@@ -61,6 +61,52 @@ def _chain_toolpath(chain: Chain, z: float, feed: float) -> tuple:
             chain.center, np.full(k, feed))
 
 
+def _close(chain: Chain, closed: bool) -> Chain:
+    """A closed path ends exactly where it starts (not a last-bit apart)."""
+    if closed and len(chain):
+        gap = float(np.hypot(*(chain.end[-1] - chain.start[0])))
+        if gap <= 1e-9 * max(1.0, float(np.abs(chain.start).max())):
+            chain.end[-1] = chain.start[0]
+    return chain
+
+
+def _start_at(chain: Chain, point) -> Chain:
+    """The closed chain rotated to start at its point nearest to ``point``.
+
+    The move holding that point is split there (an arc into two arcs about
+    the same center, a line into two lines).
+    """
+    from .measure import sample_chain
+
+    pts, owner, _ = sample_chain(chain, np.full(len(chain), 64))
+    i = int(owner[np.argmin(np.hypot(*(pts - point).T))])
+    s, e = chain.start[i], chain.end[i]
+    if chain.kind[i] == LINE:
+        v = e - s
+        u = float(np.clip((point - s) @ v / max(v @ v, 1e-300), 0.0, 1.0))
+        x = s + u * v
+    else:
+        c = chain.center[i]
+        r, a0, sw = arc_geometry(s, e, c, chain.kind[i] == ARC_CCW)
+        ang = math.atan2(point[1] - c[1], point[0] - c[0])
+        phi = float(np.mod((ang - a0) * np.sign(sw), 2 * np.pi))
+        phi = min(phi, abs(float(sw))) if phi <= abs(float(sw)) + 0.5 * (2 * np.pi - abs(float(sw))) else 0.0
+        a = a0 + np.sign(sw) * phi
+        x = c + r * np.array([math.cos(a), math.sin(a)])
+    k = len(chain)
+    scale = 1e-9 * max(1.0, float(np.abs(chain.start).max()))
+    if np.hypot(*(x - s)) <= scale:
+        order = np.roll(np.arange(k), -i)
+        return chain.take(order)
+    if np.hypot(*(x - e)) <= scale:
+        order = np.roll(np.arange(k), -(i + 1))
+        return chain.take(order)
+    first = Chain(chain.kind[i:i + 1], x[None], e[None], chain.center[i:i + 1], [np.nan], [np.nan])
+    last = Chain(chain.kind[i:i + 1], s[None], x[None], chain.center[i:i + 1], [np.nan], [np.nan])
+    rest = chain.take(np.r_[np.arange(i + 1, k), np.arange(0, i)])
+    return Chain.concat([first, rest, last])
+
+
 def _approximate_all(contour, windows, d, tol, moves):
     parts, dev, stats = [], 0.0, {"spans": 0, "boost_rounds": 0, "split_rounds": 0}
     for w in windows:
@@ -92,7 +138,7 @@ def contour_moves(contour, *, tolerance: float, moves: str = "arcs") -> Toolpath
     lo, hi = contour.domain
     windows, joins, _ = regular_windows(contour, 0.0, lo, hi)
     parts, dev, stats = _approximate_all(contour, windows, 0.0, tol, moves)
-    chain = Chain.concat(parts)
+    chain = _close(Chain.concat(parts), contour.closed)
     kind, s, e, c, f = _chain_toolpath(chain, 0.0, 0.0)
     return Toolpath(kind, s, e, c, f, units="mm", tool_diameter=0.0, side="on",
                     tolerance=tol, deviation=dev, time=0.0,
@@ -263,14 +309,24 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
         orient = 1.0 if contour.area >= 0 else -1.0
     d = side_sign(cut.side) * r * orient
     lo, hi = contour.domain
+    target = None
     if contour.closed:
-        ts = choose_seam(contour, near=seam, keep_away=lead_len + r, d=d)
+        # the path is built from the flattest stretch (a safe place to start
+        # trimming from); a user's seam then only picks where it starts
+        ts = choose_seam(contour, keep_away=lead_len + r, d=d)
         lo, hi = ts, ts + (hi - lo)
+        if seam is not None:
+            tu = choose_seam(contour, near=seam)
+            p = contour(tu)
+            target = p + d * contour.normal(tu)
     elif seam is not None:
         raise InputError("seam applies to closed contours only; an open contour starts at its first point")
     windows, joins, spots = regular_windows(contour, d, lo, hi)
     parts, dev, stats = _approximate_all(contour, windows, d, tol, moves)
     chain, trims = assemble(contour, parts, joins, d, tol, closed=contour.closed)
+    chain = _close(chain, contour.closed)
+    if target is not None:
+        chain = _start_at(chain, target)
     spots = spots + trims
     forward = _travel_forward(d, direction)
     if not forward:

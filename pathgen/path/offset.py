@@ -26,6 +26,8 @@ Distances to the contour come from a dense polyline of it and a k-d tree
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from ..errors import InputError
@@ -35,6 +37,7 @@ from .model import ARC_CCW, ARC_CW, LINE
 __all__ = ["regular_windows", "assemble", "distance_to_contour"]
 
 _EPS_REG = 1e-3
+_MERGE_TIGHT = 2.0  # tight stretches closer than this many tool radii are one spot
 
 
 def _curvature(contour, t):
@@ -79,7 +82,19 @@ def regular_windows(contour, d: float, lo: float, hi: float):
                 starts.insert(0, 0)
             if bad[-1]:
                 ends.append(len(g) - 1)
-            for i0, i1 in zip(starts, ends):
+            # stretches closer than the tool's diameter (along the contour)
+            # are one spot: the tool bridges them (noise splits one tight
+            # fillet into several)
+            d1 = contour(g, 1)
+            speed = np.hypot(d1[:, 0], d1[:, 1])
+            s_g = np.concatenate([[0.0], np.cumsum(0.5 * (speed[1:] + speed[:-1]) * np.diff(g))])
+            merged = [[starts[0], ends[0]]]
+            for i0, i1 in zip(starts[1:], ends[1:]):
+                if s_g[i0] - s_g[merged[-1][1]] < _MERGE_TIGHT * abs(d):
+                    merged[-1][1] = i1
+                else:
+                    merged.append([i0, i1])
+            for i0, i1 in merged:
                 a = _root(contour, d, g[max(i0 - 1, 0)], g[i0]) if i0 > 0 else g[0]
                 z = _root(contour, d, g[i1], g[min(i1 + 1, len(g) - 1)]) if i1 < len(g) - 1 else g[-1]
                 seg = g[i0:i1 + 1]
@@ -278,22 +293,23 @@ def _snap(chain, i, x):
 
 # -- assembling ------------------------------------------------------------------
 def _cross(chain, a_idx, b_idx, eps):
-    """Earliest crossing along the A moves (in path order) with any B move.
-
-    Returns (ia, ib, x) or None.
+    """The crossing of the A moves (in path order, ending at the gap) with
+    the B moves (starting after it) that lies nearest to the gap: fewest
+    moves walked back on A plus forward on B.  Returns (ia, ib, x) or None.
     """
     best = None
-    for ia in a_idx:
-        for ib in b_idx:
+    na = len(a_idx)
+    for pa, ia in enumerate(a_idx):
+        for pb, ib in enumerate(b_idx):
             if ib == ia:
                 continue
             for x in _intersections(chain, ia, ib, eps):
                 fa, fb = _param_on(chain, ia, x), _param_on(chain, ib, x)
                 if fa <= 1e-12 or fb >= 1 - 1e-12:
                     continue  # at the very start of A's move or end of B's: use the neighbours
-                key = (a_idx.index(ia), fa)
-                if best is None or key < best[0]:
-                    best = (key, ia, ib, x)
+                score = (na - 1 - pa) + (1.0 - fa) + pb + fb
+                if best is None or score < best[0]:
+                    best = (score, ia, ib, x)
     return None if best is None else best[1:]
 
 
@@ -396,9 +412,15 @@ def assemble(contour, parts, joins, d, tol, *, closed):
         if not np.all(bad[run]):
             continue  # already cut by an earlier run
         j0, j1 = int(run[0]), int(run[-1]) + 1
-        a_idx = around(j0, True, 8)[::-1]
-        b_idx = [m for m in around(j1, False, 8)]
-        found = _cross(chain, a_idx + [m for m in run[:4]], [m for m in run[-4:]] + b_idx, eps)
+        found = None
+        for count in (8, 32, 128):
+            half = max(min(count, (k - len(run)) // 2), 1)
+            a_idx = around(j0, True, half)[::-1]
+            b_idx = [m for m in around(j1, False, half) if m not in a_idx]
+            inner = [int(m) for m in run]
+            found = _cross(chain, a_idx + inner[:4], inner[-4:] + b_idx, eps)
+            if found is not None:
+                break
         if found is None:
             x0 = ke[a_idx[-1]] if a_idx else ks[j0]
             raise InputError(
@@ -412,7 +434,86 @@ def assemble(contour, parts, joins, d, tol, *, closed):
         spots.append(_spot(x, "overlap"))
     cut = Chain(chain.kind, ks, ke, chain.center, chain.t0, chain.t1).take(alive)
     cut = cut.take(_lengths(cut) > 1e-9)
-    return _bridge(cut, closed), spots
+    if len(cut) == 0:
+        raise InputError(
+            f"the tool (radius {r:g} mm) does not fit: nothing of its path stays clear of the contour"
+        )
+    cut = _bridge(cut, closed)
+    # 3. whatever still crosses itself (loops the steps above left, e.g.
+    # where noise makes many tiny tight spots) is cut at the crossing
+    cut, more = _remove_loops(cut, closed, dist, r, tol)
+    return cut, _unique_spots(spots + more, tol)
+
+
+def _unique_spots(spots, tol):
+    out = []
+    for sp in spots:
+        if not any(o["reason"] == sp["reason"] and math.hypot(o["x"] - sp["x"], o["y"] - sp["y"]) <= 10 * tol
+                   for o in out):
+            out.append(sp)
+    return out
+
+
+def _remove_loops(chain, closed, dist, r, tol, max_rounds=200):
+    """Cut self-crossings out of a chain: at each crossing keep the side
+    that stays at least r - tol from the contour (the loop is the part that
+    would cut into it)."""
+    import shapely
+
+    spots = []
+    before, before_len = chain, float(_lengths(chain).sum())
+    for _ in range(max_rounds):
+        k = len(chain)
+        if k < 3:
+            break
+        counts = np.full(k, 16)
+        pts, owner, _ = sample_chain(chain, counts)
+        lines = shapely.linestrings(pts, indices=owner)
+        tree = shapely.STRtree(lines)
+        a, b = tree.query(lines, predicate="intersects")
+        keep = (b > a + 1) & ~(closed & (a == 0) & (b == k - 1))
+        if not np.any(keep):
+            break
+        a, b = a[keep], b[keep]
+        order = np.lexsort((b, a))
+        done = False
+        eps = 1e-9 * max(1.0, float(np.abs(chain.start).max()))
+        for i, j in zip(a[order], b[order]):
+            xs = [x for x in _intersections(chain, int(i), int(j), eps)
+                  if 1e-12 < _param_on(chain, int(i), x) and _param_on(chain, int(j), x) < 1 - 1e-12]
+            if not xs:
+                continue
+            x = min(xs, key=lambda p: _param_on(chain, int(i), p))
+            inner = np.arange(i + 1, j)
+            inner_pts = pts[np.isin(owner, inner)] if len(inner) else np.zeros((0, 2))
+            outer = np.r_[np.arange(j + 1, k), np.arange(0, i)]
+            outer_pts = pts[np.isin(owner, outer)] if len(outer) else np.zeros((0, 2))
+            d_in = dist(inner_pts).min() if len(inner_pts) else np.inf
+            d_out = dist(outer_pts).min() if len(outer_pts) else np.inf
+            ks, ke = chain.start.copy(), chain.end.copy()
+            if not closed or d_in <= d_out:
+                # the loop is i..j: keep the path before i and after j
+                ke[i] = _snap(chain, int(i), x)
+                ks[j] = _snap(chain, int(j), x)
+                idx = np.r_[np.arange(0, i + 1), np.arange(j, k)]
+            else:
+                # the loop is the rest: keep j..end, 0..i (closed chains only)
+                ks[i] = _snap(chain, int(i), x)
+                ke[j] = _snap(chain, int(j), x)
+                idx = np.arange(i, j + 1)
+            chain = Chain(chain.kind, ks, ke, chain.center, chain.t0, chain.t1).take(idx)
+            chain = chain.take(_lengths(chain) > 1e-9)
+            spots.append(_spot(x, "overlap"))
+            done = True
+            break
+        if not done:
+            break
+    if len(chain) < 2 or float(_lengths(chain).sum()) < 0.25 * before_len:
+        # the crossings did not resolve into one path: keep the path as it
+        # was and say so (it may touch itself where noted)
+        x = before.start[0]
+        return before, [dict(_spot(x, "unresolved"))]
+    return chain, spots
 
 
 def _spot(x, reason):
@@ -424,7 +525,9 @@ def _lengths(chain):
     arcs = chain.kind != LINE
     if np.any(arcs):
         r, _, sw = arc_geometry(chain.start[arcs], chain.end[arcs], chain.center[arcs], chain.kind[arcs] == ARC_CCW)
-        L[arcs] = r * np.abs(sw)
+        # no move here is a full circle (joined arcs stop at half a turn):
+        # an arc whose ends meet is a remnant of length 0
+        L[arcs] = np.where(L[arcs] > 1e-12, r * np.abs(sw), 0.0)
     return L
 
 
