@@ -304,6 +304,59 @@ def test_concave_corner_overlap_is_trimmed():
     assert len(tp.info["trimmed"]) == 2
 
 
+def test_offset_of_a_biarc_is_exact():
+    # offset of an arc is a concentric arc R - d (ccw, d to the left) (SOURCES §9)
+    from pathgen.path.biarc import biarc_chain, offset_chain
+
+    th = np.array([0.0, 1.0, 2.5])
+    p = np.c_[10 * np.cos(th), 10 * np.sin(th)]
+    t = np.c_[-np.sin(th), np.cos(th)]
+    ch, ok = biarc_chain(p[:-1], t[:-1], p[1:], t[1:], th[:-1], th[1:])
+    assert ok.all()
+    off, ok2 = offset_chain(ch, 3.0)  # to the left of a ccw circle: toward its center
+    assert ok2.all()
+    np.testing.assert_allclose(np.hypot(*(off.start - off.center).T), 7.0, atol=1e-12)
+    np.testing.assert_allclose(np.hypot(*(off.end - off.center).T), 7.0, atol=1e-12)
+    _, ok3 = offset_chain(ch, 10.5)  # radius through zero: the tool cannot follow
+    assert not ok3.any()
+
+
+def _closed_simple(tp):
+    import shapely
+
+    return shapely.LinearRing(_dense(_cut_chain(tp), 30)).is_simple
+
+
+def test_seam_at_a_corner_the_tool_sits_inside():
+    # the closing join of the path is then an overlap to trim, like any other corner
+    from pathgen.outline import fit_outline
+
+    pts = np.array([[0, 0], [55, 0], [55, 15], [85, 15], [85, 0], [140, 0], [140, 70], [0, 70]], float)
+    c = fit_outline(pts, closed=True)
+    tp = make_toolpath(c, Tool(6.0), Cut(side="inside"), seam=(0.0, 0.0), lead="none")
+    assert _closed_simple(tp)
+    sx, sy = tp.info["seam"]
+    assert math.hypot(sx - 3.0, sy - 3.0) < 1e-6  # the tool's corner position nearest (0, 0)
+
+
+def test_tool_radius_near_noisy_fillet_radius():
+    # invented part: a 60 x 40 plate with 5 mm corner fillets, probed with
+    # 0.005 mm noise; a 12 mm tool (r = 6 > 5) inside cannot reach the fillets
+    rng = np.random.default_rng(7)
+    pts = rounded_rectangle_points(60.0, 40.0, 5.0, step=1.0)
+    pts = pts + rng.normal(scale=0.005, size=pts.shape)
+    c = fit(pts, closed=True)
+    tp = make_toolpath(c, Tool(12.0), Cut(side="inside", tolerance=0.01), lead="none")
+    assert _closed_simple(tp)
+    tight = [sp for sp in tp.info["trimmed"] if sp["reason"] == "tight"]
+    assert 4 <= len(tight) <= 8  # one per corner, noise may split one
+    # the trimmed corners of the tool-center path are the corners of the 48 x 28 rectangle
+    ch = _cut_chain(tp)
+    xy = np.vstack([ch.start, ch.end])
+    for cx, cy in ((24, 14), (-24, 14), (-24, -14), (24, -14)):
+        assert np.hypot(xy[:, 0] - cx, xy[:, 1] - cy).min() < 0.05
+
+
 def test_tool_too_big_for_the_hole():
     c = fit(circle_points(2.0, 64), closed=True)
     with pytest.raises(InputError, match="cannot reach|does not fit"):
