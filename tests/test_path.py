@@ -200,6 +200,27 @@ def test_arcs_are_tangent_continuous_on_a_smooth_outline():
     assert jump.max() < 1e-9
 
 
+@pytest.mark.parametrize("shape", sorted(SHAPES))
+def test_no_empty_moves_and_no_huge_radius_arcs(shape):
+    # an arc whose radius is huge against its chord is written as a line (R < 1e4 chord)
+    c, _ = SHAPES[shape]()
+    tp = contour_moves(c, tolerance=0.01, moves="arcs")
+    chord = np.hypot(*(tp.end - tp.start)[:, :2].T)
+    assert chord.min() >= 1e-6
+    arcs = tp.kind >= 2
+    radius = np.hypot(*(tp.start[arcs, :2] - tp.center[arcs]).T)
+    assert (radius < 1e4 * chord[arcs]).all()
+    np.testing.assert_array_equal(tp.start[1:], tp.end[:-1])  # consecutive moves meet exactly
+    np.testing.assert_array_equal(tp.start[0], tp.end[-1])  # and the closed path closes
+
+
+def test_offset_arcs_are_tangent_continuous():
+    c = fit(ellipse_points(30.0, 20.0, 600), closed=True)
+    tp = make_toolpath(c, Tool(6.0), Cut(side="outside"), lead="arc")
+    ts, te = _tangents(_cut_chain(tp))  # lead-in, the cut, lead-out: all tangent
+    assert _angle(te[:-1], ts[1:]).max() < 1e-9
+
+
 def test_arcs_need_fewer_blocks_than_lines_on_an_ellipse():
     # lines grow like e^(-1/2), arcs like e^(-1/3) (SOURCES §4, scaling only)
     c = fit(ellipse_points(30.0, 20.0, 600), closed=True)

@@ -14,8 +14,9 @@ tangent (Q2 - Q1)/|Q2 - Q1| at Pm (Q1 = P1 + δT1, Q2 = P2 - δT2), so the
 pair is G1.  Points and tangents taken from one circle give back that
 circle exactly.
 
-An arc whose sagitta is below ``line_sagitta`` (its radius huge against
-its chord) is returned as a line.
+An arc whose sagitta is below ``line_sagitta``, or whose radius is at least
+10⁴ times its chord, is returned as a line; it meets its neighbours with a
+kink of at most its half-sweep (5·10⁻⁵ rad).
 
 The offset of an arc by d along the left normal of its direction is the
 concentric arc of radius R - d (counter-clockwise) or R + d (clockwise);
@@ -116,7 +117,9 @@ def biarc(p1, t1, p2, t2, *, joint=None, line_sagitta: float = 0.0):
         along = _dot(w, t) if i == 0 else -_dot(w, t)
         half = np.arctan2(np.abs(wn), along)
         sag = 0.5 * np.sqrt(ww) * np.tan(0.5 * half)
-        is_line = (sag <= line_sagitta) | (ww == 0.0)
+        # a line when the sagitta is negligible or the radius is huge against
+        # the chord (R >= 1e4 chord, i.e. half-sweep <= 5e-5 rad)
+        is_line = (sag <= line_sagitta) | (ww == 0.0) | (np.sin(half) <= 0.5e-4)
         with np.errstate(divide="ignore", invalid="ignore"):
             s = np.where(is_line, 0.0, ww / (2.0 * np.where(is_line, 1.0, wn)))
         center[:, i] = np.where(is_line[:, None], 0.0, p + s[:, None] * n)

@@ -241,6 +241,7 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
     gap = np.hypot(*(chain.start[1:] - chain.end[:-1]).T)
     same = gap <= 1e-9 * max(1.0, float(np.abs(chain.end).max(initial=0.0)))
     chain.start[1:][same] = chain.end[:-1][same]
+    chain = _drop_tiny(chain)
     deviation = float(dev.max(initial=0.0))
     if moves == "arcs":
         # join co-circular arcs and collinear lines; keep the join only if
@@ -266,6 +267,22 @@ def _follows(chain, t0, t1):
         v = np.where((kind == LINE)[:, None], chain.end[i::2] - chain.start[i::2], arc)
         return v
     return (np.einsum("ij,ij->i", tan(0, False), t0) > 0) & (np.einsum("ij,ij->i", tan(1, True), t1) > 0)
+
+
+def _drop_tiny(chain, min_length=1e-6):
+    """Remove moves shorter than ``min_length`` mm (blocks without motion
+    after rounding); where one was dropped between two moves that met it,
+    the next move starts exactly where the previous one ends."""
+    tiny = np.hypot(*(chain.end - chain.start).T) < min_length
+    if not np.any(tiny) or np.all(tiny):
+        return chain
+    idx = np.flatnonzero(~tiny)
+    out = chain.take(idx)
+    dropped_before = np.diff(idx) > 1
+    close = np.hypot(*(out.start[1:] - out.end[:-1]).T) <= 2 * min_length * np.diff(idx)
+    fix = np.flatnonzero(dropped_before & close) + 1
+    out.start[fix] = out.end[fix - 1]
+    return out
 
 
 def _merge(contour, ta, tb, dev, windows, d, tol, moves, target):
@@ -328,7 +345,8 @@ def _curve_joints(contour, d, p0, t0, p1, t1, ta, tb):
     rel = offset_points(contour, t, d) - center
     dist = np.hypot(rel[:, 0], rel[:, 1])
     good &= np.abs(dist - radius) <= 1e-9 * np.maximum(radius, 1.0)
-    good &= (t > ta) & (t < tb)
+    h = tb - ta
+    good &= (t > ta + 1e-3 * h) & (t < tb - 1e-3 * h)  # no near-empty half
     joint = center + rel * (radius / np.where(dist > 0, dist, 1.0))[:, None]
     joint = np.where(good[:, None], joint, pm)
     return joint, np.where(good, t, t_eq)
