@@ -68,9 +68,7 @@ def one_size(n: int, workdir: Path) -> dict:
     )
     total = time.perf_counter() - t0
     peak_kb = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss
-    # worker processes (large contours run stages side by side): their peak
-    # counts too, as if they all peaked at once (an upper bound)
-    child_kb = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+
     sizes = {k: os.path.getsize(p) for k, p in res.files.items()}
     blocks = res.toolpath.block_count if res.toolpath is not None else None
     return {
@@ -78,7 +76,6 @@ def one_size(n: int, workdir: Path) -> dict:
         "stages": res.timings,
         "total": total,
         "peak_mb": peak_kb / 1024.0,
-        "peak_workers_mb": child_kb / 1024.0,
         "blocks": blocks,
         "file_bytes": sizes,
         "csv_write": t_write_csv,
@@ -127,7 +124,6 @@ def main() -> None:
     print(f"{'target':<12}" + "".join(f"{targets[r['n']]:>16.1f} s" for r in rows))
     print(f"{'total/target':<12}" + "".join(f"{r['total'] / targets[r['n']]:>18.2f}" for r in rows))
     print(f"{'peak memory':<12}" + "".join(f"{r['peak_mb']:>15.0f} MB" for r in rows))
-    print(f"{'+ a worker':<12}" + "".join(f"{r['peak_workers_mb']:>15.0f} MB" for r in rows))
     print(f"{'blocks':<12}" + "".join(f"{r['blocks'] or 0:>18,d}" for r in rows))
     for r in rows:
         slow = max(r["stages"], key=r["stages"].get)

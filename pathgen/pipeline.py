@@ -142,58 +142,6 @@ def _check_targets(targets: dict, force: bool) -> dict:
     return {kind: check_target(p, force=force) for kind, p in targets.items() if p is not None}
 
 
-#: Contours of at least this many pieces run the stages that do not depend
-#: on each other (check; toolpath; the drawing's arc polyline) side by side
-#: in worker processes.
-PARALLEL_PIECES = 50_000
-
-
-def _contour_arcs(contour, tolerance):
-    from .path.build import contour_moves
-
-    return contour_moves(contour, tolerance=tolerance, moves="arcs")
-
-
-def _toolpath(contour, tool, cut, machine, kw):
-    from .path.build import make_toolpath
-
-    return make_toolpath(contour, tool, cut, machine, **kw)
-
-
-class _SideJobs:
-    """Stages started in worker processes, collected later; without a pool
-    (small contours, one core, or no processes allowed) each runs in this
-    process when collected.  The results are the same either way."""
-
-    def __init__(self, enabled: bool):
-        self.pool, self.jobs = None, {}
-        if enabled:
-            from concurrent.futures import ProcessPoolExecutor
-
-            try:
-                self.pool = ProcessPoolExecutor(max_workers=2)
-            except (OSError, RuntimeError, ValueError):  # pragma: no cover - no processes here
-                self.pool = None
-
-    def start(self, name, fn, *args):
-        self.jobs[name] = (fn, args, self.pool.submit(fn, *args) if self.pool else None)
-
-    def result(self, name):
-        from concurrent.futures.process import BrokenProcessPool
-
-        fn, args, future = self.jobs.pop(name)
-        if future is not None:
-            try:
-                return future.result()
-            except BrokenProcessPool:  # pragma: no cover - a worker died: do it here
-                pass
-        return fn(*args)
-
-    def close(self):
-        if self.pool is not None:
-            self.pool.shutdown(wait=True, cancel_futures=True)
-
-
 def _length(name, value, scale, *, allow_zero=False):
     if value is None:
         return None
@@ -350,27 +298,25 @@ def run(
         kw["corner_angle"] = check_positive("corner angle", corner_angle)
     contour = timed("fit", fit_outline, outline, **kw)
 
-    # -- check, toolpath, drawing arcs: independent of each other --------------
-    need_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
-    path_kw = {"moves": moves, "lead": lead, "seam": seam, "units": units}
-    for name, value in (("depth", depth), ("step_down", step_down), ("safe_height", safe_height)):
-        if value is not None:
-            path_kw[name] = _length(name.replace("_", " "), value, scale)
-    side = _SideJobs(contour.pieces >= PARALLEL_PIECES and (os.cpu_count() or 1) > 1
-                     and (need_path or "dxf" in targets))
-    try:
-        if need_path:
-            side.start("toolpath", _toolpath, contour, tool, cut, mach, path_kw)
-        if "dxf" in targets:
-            side.start("dxf arcs", _contour_arcs, contour, tol_mm)
-        from .checks.report import check
+    # -- check -----------------------------------------------------------------
+    # (Check, toolpath and the drawing's arcs do not depend on each other;
+    # running them side by side in worker processes was measured at 10^6
+    # points on the shared 2-core machine: no faster, 0.9 GB more memory.)
+    from .checks.report import check
 
-        rep = timed("check", check, contour, mach, tool, cut)
-        facts = timed("facts", contour_facts, contour, rep)
-        tp = timed("toolpath", side.result, "toolpath") if need_path else None
-        arcs = timed("dxf arcs", side.result, "dxf arcs") if "dxf" in targets else None
-    finally:
-        side.close()
+    rep = timed("check", check, contour, mach, tool, cut)
+    facts = timed("facts", contour_facts, contour, rep)
+
+    # -- toolpath --------------------------------------------------------------
+    tp = None
+    if "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets)):
+        from .path.build import make_toolpath
+
+        kw = {"moves": moves, "lead": lead, "seam": seam, "units": units}
+        for name, value in (("depth", depth), ("step_down", step_down), ("safe_height", safe_height)):
+            if value is not None:
+                kw[name] = _length(name.replace("_", " "), value, scale)
+        tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
 
     # -- write -----------------------------------------------------------------
     import warnings
@@ -391,7 +337,9 @@ def run(
                 "report", write_report, rep, targets["report"], units=units, force=force)
         if "dxf" in targets:
             from .export.dxf import write_dxf
+            from .path.build import contour_moves
 
+            arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
             files["dxf"] = timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
                                  report=rep, units=units, force=force)
         if "plot" in targets:

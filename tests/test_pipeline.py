@@ -229,40 +229,10 @@ def test_facts_come_from_the_report_when_checked():
     assert g["min_radius"] == math.inf and g["min_radius_at"] is None and g["corners"] == 4
 
 
-def test_side_by_side_stages_give_the_same_files(tmp_path, monkeypatch):
-    # Large contours run the check, the toolpath and the drawing's arcs side
-    # by side in worker processes; the files must not depend on where each
-    # stage ran.
-    import pathgen.pipeline as pipeline
-
-    def job(folder):
-        folder.mkdir()
-        return run(SAMPLES / "profile.csv", tool_diameter=6, dxf=folder / "p.dxf", gcode=folder / "p.nc")
-
-    job(tmp_path / "serial")
-    monkeypatch.setattr(pipeline, "PARALLEL_PIECES", 1)
-    pools = []
-    real = pipeline._SideJobs.__init__
-
-    def spy(self, enabled):
-        real(self, enabled)
-        pools.append(self.pool is not None)
-
-    monkeypatch.setattr(pipeline._SideJobs, "__init__", spy)
-    res = job(tmp_path / "parallel")
-    assert pools == [True] and res.toolpath.block_count > 0
-    for name in ("p.dxf", "p.nc"):
-        assert (tmp_path / "serial" / name).read_bytes() == (tmp_path / "parallel" / name).read_bytes()
-
-
-@pytest.mark.parametrize("parallel", [False, True])
-def test_errors_from_side_by_side_stages_reach_the_caller(monkeypatch, tmp_path, parallel):
+def test_an_impossible_cut_is_an_error_and_writes_nothing(tmp_path):
     # A circle of radius 5 cut inside with a 20 mm tool: nothing can be cut
     # (the inward offset of a circle by d > R is empty; Steiner, SOURCES.md §9).
-    import pathgen.pipeline as pipeline
-
-    if parallel:
-        monkeypatch.setattr(pipeline, "PARALLEL_PIECES", 1)
     with pytest.raises(PathgenError, match="empty|cannot"):
-        run(circle(5.0), closed=True, side="inside", tool_diameter=20, gcode=tmp_path / "p.nc")
+        run(circle(5.0), closed=True, side="inside", tool_diameter=20, gcode=tmp_path / "p.nc",
+            report=tmp_path / "p.report.json")
     assert list(tmp_path.iterdir()) == []
