@@ -18,6 +18,7 @@ inside the commands that need them.
 from __future__ import annotations
 
 import argparse
+import math
 import os
 import sys
 
@@ -184,8 +185,6 @@ def build_parser() -> argparse.ArgumentParser:
 
 # -- formatting -----------------------------------------------------------------
 def _fmt_len(v, units="mm") -> str:
-    import math
-
     if v is None:
         return "-"
     if isinstance(v, float) and math.isinf(v):
@@ -238,7 +237,7 @@ def _report_json(result) -> str:
     import json
 
     rep = result.report
-    payload = {"source": result.source, "contour": result.facts}
+    payload = {"source": result.source, "contour": _finite_or_null(result.facts)}
     if rep is not None:
         payload["report"] = rep.to_dict(units=result.units)
     if result.files:
@@ -247,17 +246,12 @@ def _report_json(result) -> str:
 
 
 def _json_default(o):
-    import math
-
-    if isinstance(o, float) and not math.isfinite(o):
-        return None
-    return str(o)
+    return str(o)  # paths
 
 
-def _jsonable_facts(facts: dict) -> dict:
-    import math
-
-    return {k: (None if isinstance(v, float) and not math.isfinite(v) else v) for k, v in facts.items()}
+def _finite_or_null(record: dict) -> dict:
+    """The record with inf/NaN numbers as None (JSON null, never Infinity)."""
+    return {k: (None if isinstance(v, float) and not math.isfinite(v) else v) for k, v in record.items()}
 
 
 # -- commands -------------------------------------------------------------------
@@ -289,7 +283,6 @@ def _emit(result, a, *, caution: str, out=sys.stdout, err=sys.stderr) -> int:
         for note in result.notes:
             err.write(f"pathgen {a.command}: note: {' '.join(note.split())}\n")
     if a.json:
-        result = result.__class__(**{**result.__dict__, "facts": _jsonable_facts(result.facts)})
         out.write(_report_json(result) + "\n")
     elif text:
         out.write("\n".join(_summary_lines(result)) + "\n")
@@ -377,7 +370,7 @@ def _table(rows) -> str:
         body.append((
             r["file"],
             cell(r["length"], lambda v: f"{v:.3f}"),
-            cell(r["min_radius"], lambda v: "straight" if v == float("inf") else f"{v:.3f}"),
+            cell(r["min_radius"], lambda v: "straight" if math.isinf(v) else f"{v:.3f}"),
             cell(r["tight_spots"], str),
             cell(r["blocks"], str),
             cell(r["time"], _fmt_time),
@@ -400,9 +393,8 @@ def _emit_rows(rows, a, out, err) -> int:
 
     worst = max((r["exit"] for r in rows), default=EXIT_OK)
     if a.json:
-        clean = [{k: (None if isinstance(v, float) and v in (float("inf"), float("-inf")) else v)
-                  for k, v in r.items()} for r in rows]
-        out.write(json.dumps({"files": clean, "exit": worst}, indent=2, sort_keys=True) + "\n")
+        clean = [_finite_or_null(r) for r in rows]
+        out.write(json.dumps({"files": clean, "exit": worst}, indent=2, sort_keys=True, allow_nan=False) + "\n")
     elif not a.quiet:
         out.write(_table(rows))
         done = sum(r["exit"] < 2 for r in rows)
@@ -467,7 +459,7 @@ def main(argv=None, *, out=None, err=None) -> int:
     except SystemExit as exc:  # --help and --version exit 0 through argparse
         return int(exc.code or 0)
     if a.command is None:
-        parser.print_help(out)
+        err.write(f"pathgen: give a command: {', '.join(_COMMANDS)} (see pathgen --help)\n")
         return EXIT_BAD
     from .errors import PathgenError
 

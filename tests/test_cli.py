@@ -112,9 +112,8 @@ def test_usage_errors(args, says):
     assert_one_line_error(*call(*args), names=says)
 
 
-def test_no_command_prints_help_and_fails():
-    status, out, err = call()
-    assert status == 2 and "COMMAND" in out
+def test_no_command_is_a_usage_error():
+    assert_one_line_error(*call(), names="give a command: check, gcode, dxf, plot, demo, batch")
 
 
 @pytest.mark.parametrize(
