@@ -219,7 +219,8 @@ def _summary_lines(result) -> list[str]:
         ]
     tp = result.toolpath
     if tp is not None:
-        lines.append(f"program: {tp.block_count} moves, measured deviation {tp.deviation:.4f} {tp.units} "
+        lines.append(f"program: {tp.block_count} moves, estimated time {_fmt_time(tp.time)} with rapids "
+                     f"and plunges, measured deviation {tp.deviation:.4f} {tp.units} "
                      f"(tolerance {tp.tolerance:.4f} {tp.units})")
     for kind_, p in result.files.items():
         lines.append(f"wrote {kind_}: {p}")
