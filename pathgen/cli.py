@@ -149,9 +149,12 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None) -> None:
                    help="lead-in and lead-out move (default: arc)")
 
     g = p.add_argument_group("output")
-    if output:
+    if output == "OUTDIR":
+        g.add_argument("-o", "--output", metavar=output, help="folder for the programs and reports (required)")
+    elif output:
+        suffix = output.split("|")[0].rsplit(".", 1)[-1]
         g.add_argument("-o", "--output", metavar=output,
-                       help=f"file to write (default: the input's name with {output.split('.')[-1]!r}, in the current folder)")
+                       help=f"file to write (default: the input's name with .{suffix}, in the current folder)")
     g.add_argument("--force", action="store_true", help="overwrite existing files")
     g.add_argument("--json", action="store_true", help="print the report as JSON on stdout (nothing else)")
     g.add_argument("--quiet", action="store_true", help="print nothing but errors and the caution")
