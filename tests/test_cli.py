@@ -421,3 +421,19 @@ def test_corner_angle_option():
     facts = json.loads(call("check", plate, "--json", "--corner-angle", "off")[1])["contour"]
     assert facts["corners"] == 0 and facts["min_radius"] < 5
     assert_one_line_error(*call("check", plate, "--corner-angle", "200"), names="180")
+
+
+@pytest.mark.skipif(not BAD, reason="bad-input corpus tests/data/bad/ not present")
+def test_batch_on_the_whole_bad_corpus(tmp_path):
+    import shutil
+
+    d = tmp_path / "bad"
+    shutil.copytree(ROOT / "tests" / "data" / "bad", d)
+    status, out, err = call("batch", d, "-o", tmp_path / "out", "--tool-diameter", "6", "--json")
+    data = json.loads(out)
+    assert status == data["exit"] == 2
+    points_files = [p for p in BAD if p.suffix.lower() in (".csv", ".txt", ".xy", ".dxf")]
+    assert [r["file"] for r in data["files"]] == [p.name for p in points_files]
+    for row in data["files"]:
+        assert row["exit"] == 2 and row["file"] in row["message"] and "\n" not in row["message"]
+    assert list((tmp_path / "out").iterdir()) == []  # nothing written, no temporary file
