@@ -34,7 +34,7 @@ from ..errors import InputError
 from .flatten import MOVES, approximate
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
-from .offset import assemble, regular_windows
+from .offset import assemble, regular_windows, unique_spots
 
 __all__ = ["make_toolpath", "contour_moves", "choose_seam", "DIRECTIONS", "LEADS"]
 
@@ -327,7 +327,7 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     chain = _close(chain, contour.closed)
     if target is not None:
         chain = _start_at(chain, target)
-    spots = spots + trims
+    spots = unique_spots(spots + trims, tol)
     forward = _travel_forward(d, direction)
     if not forward:
         chain = chain.reversed()

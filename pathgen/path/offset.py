@@ -34,10 +34,10 @@ from ..errors import InputError
 from .measure import Chain, arc_geometry, eval_side, sample_chain, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
 
-__all__ = ["regular_windows", "assemble", "distance_to_contour"]
+__all__ = ["regular_windows", "assemble", "distance_to_contour", "unique_spots"]
 
 _EPS_REG = 1e-3
-_MERGE_TIGHT = 2.0  # tight stretches closer than this many tool radii are one spot
+_MERGE_TIGHT = 0.5  # tight stretches closer than this many tool radii are one spot
 
 
 def _curvature(contour, t):
@@ -442,10 +442,21 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     # 3. whatever still crosses itself (loops the steps above left, e.g.
     # where noise makes many tiny tight spots) is cut at the crossing
     cut, more = _remove_loops(cut, closed, dist, r, tol)
-    return cut, _unique_spots(spots + more, tol)
+    # 4. safety net: the finished path must stay clear of the contour
+    counts = np.clip(np.ceil(_lengths(cut) / step) + 2, 4, 4096).astype(np.int64)
+    pts, _, _ = sample_chain(cut, counts)
+    dd = dist(pts)
+    worst = int(np.argmin(dd))
+    if dd[worst] < r - 1.5 * tol - 1e-9:
+        x = pts[worst]
+        raise InputError(
+            f"the tool (radius {r:g} mm) path would cut {r - dd[worst]:.4f} mm into the part near "
+            f"({x[0]:.4f}, {x[1]:.4f}) after trimming; use a smaller tool"
+        )
+    return cut, unique_spots(spots + more, tol)
 
 
-def _unique_spots(spots, tol):
+def unique_spots(spots, tol):
     out = []
     for sp in spots:
         if not any(o["reason"] == sp["reason"] and math.hypot(o["x"] - sp["x"], o["y"] - sp["y"]) <= 10 * tol
@@ -462,9 +473,11 @@ def _remove_loops(chain, closed, dist, r, tol, max_rounds=200):
 
     spots = []
     before, before_len = chain, float(_lengths(chain).sum())
+    done_all = False
     for _ in range(max_rounds):
         k = len(chain)
         if k < 3:
+            done_all = True
             break
         counts = np.full(k, 16)
         pts, owner, _ = sample_chain(chain, counts)
@@ -473,15 +486,21 @@ def _remove_loops(chain, closed, dist, r, tol, max_rounds=200):
         a, b = tree.query(lines, predicate="intersects")
         keep = (b > a + 1) & ~(closed & (a == 0) & (b == k - 1))
         if not np.any(keep):
+            done_all = True
             break
         a, b = a[keep], b[keep]
         order = np.lexsort((b, a))
         done = False
+        real = False  # a crossing away from the moves' ends that could not be computed
         eps = 1e-9 * max(1.0, float(np.abs(chain.start).max()))
         for i, j in zip(a[order], b[order]):
             xs = [x for x in _intersections(chain, int(i), int(j), eps)
                   if 1e-12 < _param_on(chain, int(i), x) and _param_on(chain, int(j), x) < 1 - 1e-12]
             if not xs:
+                touch = shapely.get_coordinates(lines[i].intersection(lines[j]))
+                ends = np.vstack([chain.start[[i, j]], chain.end[[i, j]]])
+                near_end = np.hypot(*(touch[:, None, :] - ends[None]).transpose(2, 0, 1)).min(axis=1) <= 1e-6
+                real |= not bool(np.all(near_end))
                 continue
             x = min(xs, key=lambda p: _param_on(chain, int(i), p))
             inner = np.arange(i + 1, j)
@@ -507,12 +526,16 @@ def _remove_loops(chain, closed, dist, r, tol, max_rounds=200):
             done = True
             break
         if not done:
+            done_all = not real
             break
-    if len(chain) < 2 or float(_lengths(chain).sum()) < 0.25 * before_len:
-        # the crossings did not resolve into one path: keep the path as it
-        # was and say so (it may touch itself where noted)
-        x = before.start[0]
-        return before, [dict(_spot(x, "unresolved"))]
+    if len(chain) < 2 or float(_lengths(chain).sum()) < 0.25 * before_len or not done_all:
+        # the crossings did not resolve into one simple path: refuse rather
+        # than hand out a path that may cut into the part
+        x = spots[-1] if spots else _spot(before.start[0], "overlap")
+        raise InputError(
+            f"the tool (radius {r:g} mm) path could not be trimmed into one simple path near "
+            f"({x['x']:.4f}, {x['y']:.4f}); use a smaller tool"
+        )
     return chain, spots
 
 
