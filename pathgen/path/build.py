@@ -321,7 +321,7 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
             target = p + d * contour.normal(tu)
     elif seam is not None:
         raise InputError("seam applies to closed contours only; an open contour starts at its first point")
-    windows, joins, spots = regular_windows(contour, d, lo, hi)
+    windows, joins, spots = regular_windows(contour, d, lo, hi, tol)
     parts, dev, stats = _approximate_all(contour, windows, d, tol, moves)
     chain, trims = assemble(contour, parts, joins, d, tol, closed=contour.closed)
     chain = _close(chain, contour.closed)

@@ -31,13 +31,12 @@ import math
 import numpy as np
 
 from ..errors import InputError
-from .measure import Chain, arc_geometry, eval_side, sample_chain, unit_tangent_side
+from .measure import Chain, arc_geometry, eval_side, offset_points, sample_chain, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
 
 __all__ = ["regular_windows", "assemble", "distance_to_contour", "unique_spots"]
 
 _EPS_REG = 1e-3
-_MERGE_TIGHT = 0.5  # tight stretches closer than this many tool radii are one spot
 
 
 def _curvature(contour, t):
@@ -45,7 +44,7 @@ def _curvature(contour, t):
     return (d1[..., 0] * d2[..., 1] - d1[..., 1] * d2[..., 0]) / np.hypot(d1[..., 0], d1[..., 1]) ** 3
 
 
-def regular_windows(contour, d: float, lo: float, hi: float):
+def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
     """Windows [a, b] of [lo, hi] split at corners, without unreachable stretches.
 
     Returns
@@ -82,15 +81,25 @@ def regular_windows(contour, d: float, lo: float, hi: float):
                 starts.insert(0, 0)
             if bad[-1]:
                 ends.append(len(g) - 1)
-            # stretches closer than the tool's diameter (along the contour)
-            # are one spot: the tool bridges them (noise splits one tight
-            # fillet into several)
+            # neighbouring tight stretches are one spot when they are closer
+            # than half the tool radius along the contour, or when the
+            # regular bit between them would be trimmed anyway (its tool
+            # positions all come closer to the contour than the tool radius):
+            # noise splits one tight fillet into several
             d1 = contour(g, 1)
             speed = np.hypot(d1[:, 0], d1[:, 1])
             s_g = np.concatenate([[0.0], np.cumsum(0.5 * (speed[1:] + speed[:-1]) * np.diff(g))])
             merged = [[starts[0], ends[0]]]
+            dist = None
             for i0, i1 in zip(starts[1:], ends[1:]):
-                if s_g[i0] - s_g[merged[-1][1]] < _MERGE_TIGHT * abs(d):
+                mid = g[merged[-1][1] + 1:i0]
+                if dist is None:
+                    dist = distance_to_contour(contour, tol, abs(d))
+                if len(mid) > 64:
+                    mid = mid[np.linspace(0, len(mid) - 1, 64).astype(np.int64)]
+                q = offset_points(contour, mid, d) if len(mid) else np.zeros((0, 2))
+                close = s_g[i0] - s_g[merged[-1][1]] < 0.5 * abs(d)
+                if len(mid) == 0 or close or np.all(dist(q) < abs(d) - tol):
                     merged[-1][1] = i1
                 else:
                     merged.append([i0, i1])
