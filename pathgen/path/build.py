@@ -266,7 +266,8 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     direction : "climb", "conventional", "forward" or "reverse" (see the
         module's direction rule).
     seam : None (flattest stretch) or (x, y): the closed cut starts at the
-        contour point nearest to it.  Open contours start at their start.
+        point of the finished (trimmed) path nearest to the tool position at
+        the contour point nearest (x, y).  Open contours start at their start.
     lead : "arc" (quarter circle of radius ``lead_length``, tangent to the
         path), "line" (``lead_length`` long, at 45° from the tool side) or
         "none"; always on the tool side, in and out.
@@ -282,6 +283,24 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     -------
     Toolpath with measured ``deviation`` <= tolerance, ``time`` (s) and
     ``info`` (direction, travel, passes, seam, trimmed spots, block counts).
+
+    Raises
+    ------
+    InputError
+        For a bad option, or when the tool cannot cut the contour safely:
+        it does not fit, its path would split, or after trimming it would
+        still come closer to the contour than its radius (never returned).
+
+    Examples
+    --------
+    >>> import numpy as np
+    >>> from pathgen.spline import fit
+    >>> from pathgen.checks.machine import Tool, Cut
+    >>> th = np.linspace(0, 2 * np.pi, 200, endpoint=False)
+    >>> part = fit(np.c_[10 * np.cos(th), 10 * np.sin(th)], closed=True)
+    >>> tp = make_toolpath(part, Tool(6.0), Cut(side="outside"), depth=2.0, step_down=1.0)
+    >>> tp.info["passes"], tp.info["travel"], tp.deviation <= 0.01
+    (2, 'against the contour', True)
     """
     from ..checks.machine import Cut, Machine, Tool
 

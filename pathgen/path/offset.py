@@ -15,10 +15,13 @@ The offset is built in three steps:
 2. the caller approximates each window (lines or offset biarcs);
 3. :func:`assemble` joins the windows: a corner the tool goes around gets
    an arc of radius r about the corner (the exact offset of a sharp
-   corner); then every move that comes closer to the contour than r
-   (minus the tolerance) is a loop or overlap and is cut away, and the two
-   sides are joined at their exact intersection (line/line, line/arc or
-   arc/arc).  What was cut is recorded as a spot for the report.
+   corner); where the sides overlap (a corner the tool sits in, a tight
+   spot) they are cut at their exact crossing (line/line, line/arc or
+   arc/arc) nearest to the gap; then every move that comes closer to the
+   contour than r (minus the tolerance) is cut away the same way (narrow
+   gaps); then any remaining self-crossing is cut out; last, the finished
+   path is measured against the contour and refused (InputError) if it
+   would cut into the part.  What was cut is recorded as a spot.
 
 Distances to the contour come from a dense polyline of it and a k-d tree
 (``scipy.spatial.cKDTree``); no quadratic all-pairs distances.
