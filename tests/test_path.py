@@ -445,6 +445,20 @@ def test_leads_passes_and_heights(lead):
         assert _angle(te[2:3], ts[cut_first:cut_first + 1])[0] < 1e-6
 
 
+def test_feeds_follow_the_machine_limits():
+    # centripetal limit v <= sqrt(a R), F = 60 v (SOURCES §8); programmed feed is a ceiling
+    from pathgen.checks.machine import Machine
+
+    c = fit(circle_points(5.0, 200), closed=True)
+    m = Machine(max_feed=6000.0, max_accel=200.0, block_rate=1000.0)
+    tp = make_toolpath(c, Tool(2.0), Cut(side="inside", feed=5000.0), m, lead="none")
+    arcs = tp.kind >= 2
+    radius = np.hypot(*(tp.start[arcs, :2] - tp.center[arcs]).T)  # 4 mm: tool center
+    assert np.all(tp.feed[arcs] <= 60 * np.sqrt(200.0 * radius) * (1 + 1e-9))
+    assert np.all(tp.feed[tp.kind != RAPID] <= 5000.0)
+    assert np.all(tp.feed[tp.kind != RAPID] > 0)
+
+
 def test_open_profile_and_inch_units():
     x = np.linspace(0, 50, 60)
     c = fit(np.c_[x, 5 * np.sin(x / 8)])
