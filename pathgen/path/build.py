@@ -108,13 +108,16 @@ def _start_at(chain: Chain, point) -> Chain:
 
 
 def _approximate_all(contour, windows, d, tol, moves):
-    parts, dev, stats = [], 0.0, {"spans": 0, "boost_rounds": 0, "split_rounds": 0}
+    """Approximate each window; counts add up, rounds take the most."""
+    parts, dev = [], 0.0
+    stats = {"spans": 0, "merged_spans": 0, "boost_rounds": 0, "split_rounds": 0}
     for w in windows:
         chain, dv, st = approximate(contour, w[None], d, tol, moves=moves)
         parts.append(chain)
         dev = max(dev, dv)
         for key in stats:
-            stats[key] = max(stats[key], st[key]) if key != "spans" else stats[key] + st[key]
+            summed = key in ("spans", "merged_spans")
+            stats[key] = stats[key] + st[key] if summed else max(stats[key], st[key])
     return parts, dev, stats
 
 
