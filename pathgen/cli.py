@@ -207,7 +207,9 @@ def _summary_lines(result) -> list[str]:
     else the contour's facts; then the program and the files written."""
     text = _report_text(result)
     if text:
-        lines = [f"{result.source}:", text.rstrip("\n")]
+        # the report's own caution line is left to the command's closing CAUTION
+        body = [ln for ln in text.rstrip("\n").splitlines() if not ln.startswith("Verify every toolpath")]
+        lines = [f"{result.source}:", *body]
     else:
         f = result.facts
         kind = "closed" if f["closed"] else "open"

@@ -132,3 +132,23 @@ def test_large_program_round_trips(tmp_path):
     got = np.array([m.end for m in prog.moves if m.g == 1][1:])  # skip the plunge
     assert got.shape == (n, 3)
     assert np.max(np.abs(got - end)) <= 0.5e-4 + 1e-12  # half a unit of the 4th decimal
+
+
+def test_program_moves_only_where_the_path_goes():
+    # A machinist expects the first motion after the safe-height retract to go
+    # to the lead-in start, never to an unrequested point such as the work
+    # origin (common practice). The planner's rapid from an assumed origin
+    # must not become a G0 X0 Y0.
+    from pathgen import fit, make_toolpath
+    from pathgen.checks.machine import Cut, Tool
+    from pathgen.export.gcode import gcode_text
+
+    th = np.linspace(0, 2 * np.pi, 90, endpoint=False)
+    contour = fit(np.c_[60 + 20 * np.cos(th), 40 + 20 * np.sin(th)], closed=True)
+    tp = make_toolpath(contour, Tool(6.0), Cut(feed=800.0, side="outside", tolerance=0.01))
+    prog = gr.read(gcode_text(tp))
+    xy = [(m.end[0], m.end[1]) for m in prog.moves if m.end[0] is not None]
+    # every position lies near the circle's tool-center path (R + r = 23, lead inside 35)
+    assert all(15 < np.hypot(x - 60, y - 40) < 35 for x, y in xy), xy[:3]
+    first_xy = next(m for m in prog.moves if m.end[0] is not None)
+    np.testing.assert_allclose(first_xy.end[:2], tp.end[0, :2], atol=1e-4)

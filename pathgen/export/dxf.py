@@ -291,8 +291,8 @@ def _build(contour, points, toolpath, arcs, report, units):
     if points is None:
         points = np.asarray(contour.points, float)
         if len(points) > MAX_DEFAULT_POINTS:
-            notes.append(f"{len(points)} input points were not drawn (more than {MAX_DEFAULT_POINTS}); "
-                         f"pass points= to draw them")
+            notes.append(f"{len(points)} input points were not drawn (more than {MAX_DEFAULT_POINTS}, "
+                         f"to keep the drawing small); the contour and paths are complete")
             points = np.empty((0, 2))
     pts = _as_xy(points, "points") * k
     for x, y in pts.tolist():

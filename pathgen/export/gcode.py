@@ -12,6 +12,9 @@ Program layout
 3. Optional ``S… M3`` when a spindle speed is given.
 4. ``G0 Z<safe height>``, ``G0`` to the first move's start in X and Y,
    ``G1 Z…`` down to its depth at the plunge feed when it starts lower.
+   When the path itself opens with a rapid at safe height, that rapid's
+   start is only the planner's assumption of where the machine stands, so
+   the program goes from safe height straight to the rapid's end.
 5. The moves: ``G0`` rapids, ``G1`` lines, ``G2``/``G3`` arcs in center
    format (I, J = the center's offset from the arc's start; never R).
    Axis words are written when their value changes; an F word where the
@@ -79,6 +82,7 @@ def _num(v: float, digits: int = 6) -> str:
     v = float(v) + 0.0
     if not math.isfinite(v):
         return "unknown"
+    v = round(v, 9) + 0.0  # a comment needs no digits below a nanometre
     s = np.format_float_positional(v, precision=digits, unique=False, fractional=False, trim="-")
     return "0" if s in ("-0", "0") else s
 
@@ -284,7 +288,11 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
     pre_kind = [RAPID, RAPID]
     pre_end = [[np.nan, np.nan, safe], [p0[0], p0[1], safe]]
     pre_feed = [0.0, 0.0]
-    if p0[2] != safe:  # down at the plunge feed, or up at rapid
+    if tp.kind[0] == RAPID and p0[2] == safe:
+        # the path opens with a rapid at safe height: its start is only where
+        # the planner assumed the machine to be, so go straight to its end
+        pre_kind, pre_end, pre_feed = [RAPID], [[np.nan, np.nan, safe]], [0.0]
+    elif p0[2] != safe:  # down at the plunge feed, or up at rapid
         pre_kind.append(LINE if p0[2] < safe else RAPID)
         pre_end.append([p0[0], p0[1], p0[2]])
         pre_feed.append(plunge if p0[2] < safe else 0.0)
