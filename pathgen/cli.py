@@ -147,6 +147,10 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None) -> None:
     g.add_argument("--seam", type=_pair, metavar="X,Y", help="start a closed cut nearest to this point")
     g.add_argument("--lead", choices=("arc", "line", "none"), default="arc",
                    help="lead-in and lead-out move (default: arc)")
+    g.add_argument("--direction", choices=("climb", "conventional"), default="climb",
+                   help="milling direction with a clockwise (M3) spindle (default: climb)")
+    g.add_argument("--plunge-feed", type=_number, metavar="F",
+                   help="feed of the plunge to depth per minute (default: half the cutting feed)")
 
     g = p.add_argument_group("output")
     if output == "OUTDIR":
@@ -269,6 +273,7 @@ def _run_options(a) -> dict:
         tool_diameter=a.tool_diameter, feed=a.feed, accel=a.accel, side=a.side,
         tolerance=a.tolerance, moves=a.moves, depth=a.depth, step_down=a.step_down,
         safe_height=a.safe_height, seam=a.seam, lead=a.lead, force=a.force,
+        direction=a.direction, plunge_feed=a.plunge_feed,
     )
 
 

@@ -170,6 +170,8 @@ def run(
     safe_height=None,
     seam=None,
     lead: str = "arc",
+    direction: str = "climb",
+    plunge_feed=None,
     gcode=None,
     dxf=None,
     report=None,
@@ -212,6 +214,12 @@ def run(
     seam : (x, y) or None
         Start a closed cut at the contour point nearest to (x, y).
     lead : {"arc", "line", "none"}
+    direction : {"climb", "conventional"}
+        Milling direction with a clockwise (M3) spindle; see
+        ``docs/toolpath.md`` for the rule relating side and travel.
+    plunge_feed : float or None
+        Feed of the plunge to depth (units/min); None: half the
+        programmed feed (the toolpath stage's default).
     gcode, dxf, report, plot : path or None
         Files to write.  ``report`` names the JSON report; a text version
         is written beside it with the suffix ``.txt``.
@@ -228,6 +236,7 @@ def run(
     check_option("side", side, SIDES)
     check_option("moves", moves, MOVES)
     check_option("lead", lead, LEADS)
+    check_option("direction", direction, ("climb", "conventional"))
     scale = MM_PER_INCH if units == "inch" else 1.0
     tol_mm = check_positive("tolerance", tolerance) * scale
     tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
@@ -312,8 +321,9 @@ def run(
     if "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets)):
         from .path.build import make_toolpath
 
-        kw = {"moves": moves, "lead": lead, "seam": seam, "units": units}
-        for name, value in (("depth", depth), ("step_down", step_down), ("safe_height", safe_height)):
+        kw = {"moves": moves, "lead": lead, "seam": seam, "units": units, "direction": direction}
+        for name, value in (("depth", depth), ("step_down", step_down), ("safe_height", safe_height),
+                            ("plunge_feed", plunge_feed)):
             if value is not None:
                 kw[name] = _length(name.replace("_", " "), value, scale)
         tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)

@@ -437,3 +437,29 @@ def test_batch_on_the_whole_bad_corpus(tmp_path):
     for row in data["files"]:
         assert row["exit"] == 2 and row["file"] in row["message"] and "\n" not in row["message"]
     assert list((tmp_path / "out").iterdir()) == []  # nothing written, no temporary file
+
+
+def test_direction_and_plunge_feed_reach_the_program(tmp_path):
+    # Common practice (M3 spindle, the sense of left cutter compensation G41):
+    # an outside cut of a counter-clockwise part is climb when the tool travels
+    # clockwise (G2), conventional when it travels counter-clockwise (G3).
+    import gcode_reader as gr
+    import numpy as np
+
+    th = np.linspace(0, 2 * np.pi, 120, endpoint=False)
+    pts = tmp_path / "disc.csv"
+    pts.write_text("x,y\n" + "".join(f"{50 + 25 * np.cos(a):.4f},{50 + 25 * np.sin(a):.4f}\n" for a in th))
+    senses = {}
+    for direction in ("climb", "conventional"):
+        nc = tmp_path / f"{direction}.nc"
+        code = main([
+            "gcode", str(pts), "-o", str(nc), "--tool-diameter", "6", "--direction", direction,
+            "--plunge-feed", "123", "--quiet",
+        ], out=io.StringIO(), err=io.StringIO())
+        assert code == 0
+        prog = gr.read(nc.read_text())
+        arcs = [m.g for m in prog.moves if m.g in (2, 3)]
+        senses[direction] = max(set(arcs), key=arcs.count)
+        plunges = [m for m in prog.moves if m.g == 1 and m.start[:2] == m.end[:2] and m.end[2] < m.start[2]]
+        assert plunges and all(m.feed == 123 for m in plunges)
+    assert senses == {"climb": 2, "conventional": 3}
