@@ -15,22 +15,14 @@ Run:  python benchmarks/checks.py [--quick]
 from __future__ import annotations
 
 import argparse
-import statistics
-import time
 
 import numpy as np
 
 import pathgen
 from pathgen.checks.feed import accel_passes, feeds_for_moves
+from _timing import median_time
 
 
-def _median_time(fn, repeat):
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def _outline(n, noise):
@@ -63,10 +55,10 @@ def main(argv=None):
     for n in sizes:
         for noise in (0.0, 0.002):
             pts = _outline(n, noise)
-            t_fit = _median_time(lambda: pathgen.fit(pts, closed=True), repeat)
+            t_fit = median_time(lambda: pathgen.fit(pts, closed=True), repeat)
             contour = pathgen.fit(pts, closed=True)
             rep = pathgen.check(contour, machine, tool, cut)
-            t_chk = _median_time(lambda: pathgen.check(contour, machine, tool, cut), repeat)
+            t_chk = median_time(lambda: pathgen.check(contour, machine, tool, cut), repeat)
             print(f"{n:>8} {noise:>9} {t_fit:>8.3f} {t_chk:>8.3f} {t_chk / t_fit:>10.1f} "
                   f"{len(rep.tight_spots):>6}")
 
@@ -80,8 +72,8 @@ def main(argv=None):
         fast = accel_passes(wl, step, 300.0)
         slow = _passes_loop(wl, step, 300.0)
         assert np.allclose(fast, slow, rtol=1e-9, atol=1e-6)
-        t_fast = _median_time(lambda: accel_passes(wl, step, 300.0), repeat)
-        t_slow = _median_time(lambda: _passes_loop(wl, step, 300.0), 1)
+        t_fast = median_time(lambda: accel_passes(wl, step, 300.0), repeat)
+        t_slow = median_time(lambda: _passes_loop(wl, step, 300.0), 1)
         print(f"{n:>8} {t_fast:>13.4f} {t_slow:>8.3f} {t_slow / t_fast:>16.0f}")
 
     print("\nfeeds_for_moves on lines round an outline")
@@ -91,7 +83,7 @@ def main(argv=None):
         z = np.zeros((k, 1))
         start, end = np.hstack([pts[:-1], z]), np.hstack([pts[1:], z])
         kind, center = np.ones(k, int), np.zeros((k, 2))
-        t = _median_time(lambda: feeds_for_moves(kind, start, end, center, feed=2500.0,
+        t = median_time(lambda: feeds_for_moves(kind, start, end, center, feed=2500.0,
                                                  machine=machine), repeat)
         print(f"{k:>8} {t:>8.4f} {1e6 * t / k:>9.2f}")
 

@@ -7,7 +7,6 @@ time of write_dxf for contours of growing size.
 
 from __future__ import annotations
 
-import statistics
 import sys
 import tempfile
 import time
@@ -15,15 +14,9 @@ import warnings
 from pathlib import Path
 
 import numpy as np
+from _timing import median_time
 
 
-def median(fn, repeat=3):
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def polyline_ratio(n: int):
@@ -43,8 +36,8 @@ def polyline_ratio(n: int):
         lw.lwpoints.values = verts
         lw.closed = True
 
-    tb = median(bulk)
-    td = median(documented, repeat=1 if n > 20_000 else 3)
+    tb = median_time(bulk)
+    td = median_time(documented, repeat=1 if n > 20_000 else 3)
     print(f"{n:>9} {td:>14.4f} {tb:>10.4f} {td / tb:>8.0f}")
 
 

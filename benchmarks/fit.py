@@ -12,22 +12,14 @@ Run:  python benchmarks/fit.py [--quick]
 from __future__ import annotations
 
 import argparse
-import statistics
-import time
 
 import numpy as np
 from scipy.interpolate import CubicSpline
 
 import pathgen
+from _timing import median_time
 
 
-def _median_time(fn, repeat):
-    times = []
-    for _ in range(repeat):
-        t0 = time.perf_counter()
-        fn()
-        times.append(time.perf_counter() - t0)
-    return statistics.median(times)
 
 
 def _data(n, closed):
@@ -61,8 +53,8 @@ def main(argv=None):
                 y, bc = p, end
             ref = CubicSpline(t, y, bc_type=bc)
             diff = np.abs(c.coefficients - ref.c).max() / np.abs(ref.c).max()
-            tp = _median_time(lambda: pathgen.fit(p, closed=closed, end="not-a-knot" if closed else end, **kw), repeat)
-            ts = _median_time(lambda: CubicSpline(t, y, bc_type=bc), repeat)
+            tp = median_time(lambda: pathgen.fit(p, closed=closed, end="not-a-knot" if closed else end, **kw), repeat)
+            ts = median_time(lambda: CubicSpline(t, y, bc_type=bc), repeat)
             print(f"{n:>8} {end:>11} {tp:10.5f} {ts:10.5f} {tp / ts:6.2f}   {diff:.1e}")
     print()
     print("evaluation of value, 1st and 2nd derivative at 10·n sorted parameters")
@@ -74,8 +66,8 @@ def main(argv=None):
         u = np.linspace(c.breaks[0], c.breaks[-1], 10 * n)
         repeat = 3 if n >= 10**6 else 5
         diff = max(np.abs(c(u, nu) - ref(u, nu)).max() for nu in range(3))
-        tp = _median_time(lambda: [c(u, nu) for nu in range(3)], repeat)
-        ts = _median_time(lambda: [ref(u, nu) for nu in range(3)], repeat)
+        tp = median_time(lambda: [c(u, nu) for nu in range(3)], repeat)
+        ts = median_time(lambda: [ref(u, nu) for nu in range(3)], repeat)
         print(f"{n:>8} {tp:10.5f} {ts:10.5f} {tp / ts:6.2f}   {diff:.1e}")
 
 
