@@ -31,6 +31,7 @@ import numpy as np
 
 from .._options import MM_PER_INCH, UNITS, check_option, check_positive, side_sign
 from ..errors import InputError
+from .arcfit import band_arcs
 from .flatten import MOVES, approximate
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
@@ -112,7 +113,11 @@ def _approximate_all(contour, windows, d, tol, moves):
     parts, dev = [], 0.0
     stats = {"spans": 0, "merged_spans": 0, "boost_rounds": 0, "split_rounds": 0}
     for w in windows:
-        chain, dv, st = approximate(contour, w[None], d, tol, moves=moves)
+        if moves == "arcs":
+            # arcs fitted inside the tolerance band (falls back to curve-tangent biarcs)
+            chain, dv, st = band_arcs(contour, w[None], d, tol)
+        else:
+            chain, dv, st = approximate(contour, w[None], d, tol, moves=moves)
         parts.append(chain)
         dev = max(dev, dv)
         for key in stats:

@@ -1,0 +1,486 @@
+"""Tangent-continuous arcs fitted inside the tolerance band of a curve.
+
+Biarcs that take the curve's own tangents at every span end follow every
+wiggle of a curve interpolating noisy points.  This module instead builds
+a G1 arc spline (Meek & Walton 1992; an arc spline is a chain of lines
+and arcs, each tangent to the next) greedily inside the band of
+half-width e around the target q(t) = P(t) + d·N(t):
+
+* each arc starts where the previous one ends, along its end tangent;
+* it runs as far along q as some arc of that start and tangent keeps
+  every sample of q within e (a curvature interval per sample, so the
+  test is a running max/min over the samples ahead, vectorized);
+* its end is the radial projection of the last sample onto the arc, so
+  the end may sit off the curve inside the band;
+* among a few candidate ends (how far, which curvature of the feasible
+  interval) the one from which the *next* arc reaches furthest is kept
+  (one step of lookahead, all candidates as arrays).
+
+Windows start at q(a) along the curve's tangent and end at q(b): along
+the curve's tangent there with a biarc (Bolton 1975), or, where the path
+has a corner anyway (d = 0 at a corner, the end of an open contour), with
+one arc through q(b).  Where no arc can continue, the chain returns to
+the curve with a biarc onto the curve's point and tangent and starts again
+from there.  Every move is measured afterwards
+(:func:`pathgen.path.measure.chain_deviation`); a window that does not
+measure within the tolerance is fitted again with a narrower band, and
+last with the curve-tangent biarcs of :mod:`pathgen.path.flatten`.
+
+Distance of a point X to the circle through S with unit tangent T and
+signed curvature k (N the left normal of T, w = X - S, a = w·N, b = w·w)::
+
+    g(k) = (k b - 2a) / (1 + sqrt(1 - 2ak + k²b))        (k = 0: the line, -a)
+
+|g(k)| <= e holds exactly for k in [2(a - e), 2(a + e)] / (b - e²) when
+b > e² (points nearer than e to S need no test) [derived: |X - C| = 1/|k| ± e
+with C = S + N/k].
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .biarc import biarc_chain, merge_chain
+from .measure import Chain, chain_deviation, eval_side, offset_points, unit_tangent_side
+from .model import ARC_CCW, ARC_CW, LINE
+
+__all__ = ["band_arcs"]
+
+#: the band used for the fit, as a fraction of the tolerance; retries narrow it
+_BANDS = (0.97, 0.9, 0.75)
+#: largest turn of the curve under one arc (rad)
+_CAP = 0.75 * np.pi
+#: sagitta of the sample polyline, as a fraction of the tolerance
+_SAMPLE_SAG = 0.01
+_TARGET = 0.99
+_KINK = 1e-10  # rad: a biarc with a bigger kink (a near-line written as a line) is not taken
+
+
+def _left(v):
+    return np.stack([-v[..., 1], v[..., 0]], axis=-1)
+
+
+def _dot(a, b):
+    return np.einsum("...i,...i->...", a, b)
+
+
+def _samples(contour, a, b, d, tol):
+    """Parameters t, points X = q(t), unit tangents and their unwrapped angle.
+
+    Every spline break in [a, b] and at least two steps per piece; more where
+    q bends, so the polyline's sagitta stays below 1 % of the tolerance; no
+    step longer than 20·tol (the resolution of an arc's end).
+    """
+    brk = contour.breaks
+    if contour.closed:
+        period = brk[-1] - brk[0]
+        k0 = int(np.floor((a - brk[0]) / period)) - 1
+        k1 = int(np.ceil((b - brk[0]) / period)) + 1
+        bb = np.concatenate([brk[:-1] + k * period for k in range(k0, k1)])
+    else:
+        bb = brk
+    bb = bb[(bb > a) & (bb < b)]
+    g = np.concatenate([[a], bb, [b]])
+    g = (g[:-1, None] + np.diff(g)[:, None] * (np.arange(2) / 2.0)).ravel()
+    g = np.append(g, b)
+    d1, d2 = contour(g, 1), contour(g, 2)
+    speed = np.hypot(d1[:, 0], d1[:, 1])
+    kappa = (d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) / speed**3
+    stretch = np.maximum(1.0 - d * kappa, 1e-3)
+    kq = np.abs(kappa) / stretch
+    ds = speed * stretch
+    kmax = np.maximum(kq[1:], kq[:-1])
+    with np.errstate(divide="ignore"):
+        h = np.minimum(np.sqrt(8.0 * _SAMPLE_SAG * tol / kmax), 20.0 * tol)
+    length = 0.5 * (ds[1:] + ds[:-1]) * np.diff(g)
+    m = np.clip(np.ceil(length / h), 1, 10_000).astype(np.int64)
+    owner = np.repeat(np.arange(len(g) - 1), m)
+    j = np.arange(m.sum()) - np.repeat(np.cumsum(m) - m, m)
+    t = np.append(g[owner] + np.diff(g)[owner] * (j / m[owner]), b)
+    X = offset_points(contour, t, d)
+    tan = contour(t, 1)
+    # window ends: the pieces on the window's side of a break (corners)
+    X[0] = eval_side(contour, np.array([a]), 0, left=False)[0]
+    X[-1] = eval_side(contour, np.array([b]), 0, left=True)[0]
+    tan[0] = unit_tangent_side(contour, np.array([a]), left=False)[0]
+    tan[-1] = unit_tangent_side(contour, np.array([b]), left=True)[0]
+    tan /= np.linalg.norm(tan, axis=1, keepdims=True)
+    if d != 0.0:
+        X[0] += d * _left(tan[0])
+        X[-1] += d * _left(tan[-1])
+    theta = np.unwrap(np.arctan2(tan[:, 1], tan[:, 0]))
+    return t, X, tan, theta
+
+
+class _Band:
+    """The samples of one window and the reach of arcs inside the band."""
+
+    def __init__(self, t, X, tan, theta, e):
+        self.t, self.X, self.tan, self.theta, self.e = t, X, tan, theta, e
+        self.n = len(t)
+        self.chunk = 64
+
+    def intervals(self, S, T, i0, L):
+        """Feasible curvature intervals for samples i0+1 .. i0+L (rows: states)."""
+        n, e = self.n, self.e
+        idx = i0[:, None] + 1 + np.arange(L)
+        past = idx >= n
+        idx = np.minimum(idx, n - 1)
+        w = self.X[idx] - S[:, None, :]
+        a = _dot(w, _left(T)[:, None, :])
+        b = _dot(w, w)
+        B = b - e * e
+        test = B > 0
+        Bs = np.where(test, B, 1.0)
+        lo = np.where(test, 2.0 * (a - e) / Bs, -np.inf)
+        hi = np.where(test, 2.0 * (a + e) / Bs, np.inf)
+        turn = np.abs(self.theta[idx] - self.theta[i0][:, None])
+        stop = past | (turn > _CAP) | (_dot(w, T[:, None, :]) < -e)
+        lo = np.where(stop, np.inf, lo)
+        hi = np.where(stop, -np.inf, hi)
+        rl = np.maximum.accumulate(lo, axis=1)
+        rh = np.minimum.accumulate(hi, axis=1)
+        return idx, a, b, rl, rh, past
+
+    def reach(self, S, T, i0):
+        """Last sample index each state's arc can reach, and its intervals."""
+        M = len(i0)
+        L = self.chunk
+        while True:
+            idx, a, b, rl, rh, past = self.intervals(S, T, i0, L)
+            ok = rl <= rh
+            bad = ~ok
+            has_fail = bad.any(axis=1)
+            if np.all(has_fail | past[:, -1]) or L >= self.n:
+                break
+            L = min(4 * L, self.n)
+        first = np.where(has_fail, np.argmax(bad, axis=1), L)
+        j = i0 + first  # samples i0+1 .. i0+first are feasible
+        j = np.minimum(j, self.n - 1)
+        self.chunk = max(64, int(2 * np.max(first, initial=1)))
+        return j, idx, a, b, rl, rh
+
+    def minimax(self, a, b, rl, rh, last):
+        """Curvature minimizing the largest distance of samples 0..last (per row)."""
+        L = a.shape[1]
+        mask = np.arange(L)[None, :] <= last[:, None]
+        lo, hi = rl.copy(), rh.copy()
+        for _ in range(40):
+            k = 0.5 * (lo + hi)
+            g = _dist(k[:, None], a, b)
+            gmax = np.where(mask, g, -np.inf).max(axis=1)
+            gmin = np.where(mask, g, np.inf).min(axis=1)
+            up = gmax + gmin < 0  # the circle lies too far right: bend more left
+            lo = np.where(up, k, lo)
+            hi = np.where(up, hi, k)
+        return 0.5 * (lo + hi)
+
+
+def _dist(k, a, b):
+    """Signed distance g(k) of points (a = w·N, b = w·w) to the circle of curvature k."""
+    return (k * b - 2.0 * a) / (1.0 + np.sqrt(np.maximum(1.0 - 2.0 * a * k + k * k * b, 0.0)))
+
+
+def _arc_end(S, T, k, X):
+    """End point and end tangent of the arc from S along T with curvature k,
+    stopped on the ray from its center through X (k = 0: the foot of X)."""
+    N = _left(T)
+    line = k == 0
+    ks = np.where(line, 1.0, k)
+    C = S + N / ks[:, None]
+    r = 1.0 / np.abs(ks)
+    v = X - C
+    u = v / np.linalg.norm(v, axis=1, keepdims=True)
+    E_arc = C + u * r[:, None]
+    T_arc = np.sign(ks)[:, None] * _left(u)
+    E_line = S + _dot(X - S, T)[:, None] * T
+    E = np.where(line[:, None], E_line, E_arc)
+    TE = np.where(line[:, None], T, T_arc)
+    return E, TE, np.where(line[:, None], 0.0, C)
+
+
+def _sweep(S, E, C, k):
+    """Turn of each arc (0 for lines), rad."""
+    rs, re = S - C, E - C
+    cr = rs[:, 0] * re[:, 1] - rs[:, 1] * re[:, 0]
+    ang = np.mod(np.sign(k) * np.arctan2(cr, _dot(rs, re)), 2 * np.pi)
+    return np.where(k == 0, 0.0, ang)
+
+
+def _candidates(band, S, T, i0, j, idx, a, b, rl, rh):
+    """Candidate (end index, curvature) pairs for one state."""
+    first = j - i0  # number of feasible samples
+    if first < 1:
+        return np.zeros(0, np.int64), np.zeros(0)
+    offs = np.unique(np.clip(np.round(first * np.array([1.0, 0.93, 0.85, 0.7, 0.5])), 1, first)).astype(np.int64)
+    cols = offs - 1
+    lo, hi = rl[0, cols], rh[0, cols]
+    km = band.minimax(np.repeat(a, len(cols), 0), np.repeat(b, len(cols), 0),
+                      lo, hi, cols)
+    fr = np.array([0.15, 0.5, 0.85])
+    ks = [km[:, None], lo[:, None] + (hi - lo)[:, None] * fr]
+    ks.append(np.where((lo <= 0) & (hi >= 0), 0.0, np.nan)[:, None])
+    K = np.concatenate(ks, axis=1)
+    J = np.repeat((i0 + offs)[:, None], K.shape[1], axis=1)
+    K, J = K.ravel(), J.ravel()
+    keep = np.isfinite(K)
+    K, J = K[keep], J[keep]
+    # an arc whose radius is huge against its chord is a line (R >= 1e4 chord)
+    chord = np.linalg.norm(band.X[J] - S, axis=1)
+    near_line = (K != 0) & (np.abs(K) * chord <= 1.02e-4)
+    K = np.where(near_line, 0.0, K)
+    col = J - i0 - 1
+    lo_c, hi_c = rl[0, col], rh[0, col]
+    ok = (K >= lo_c) & (K <= hi_c)
+    return J[ok], K[ok]
+
+
+def _prim(kind_k, S, E, C, t0, t1):
+    kind = np.where(kind_k == 0, LINE, np.where(kind_k > 0, ARC_CCW, ARC_CW)).astype(np.int8)
+    return Chain(kind, S, E, np.where((kind_k == 0)[:, None], 0.0, C), t0, t1)
+
+
+def _kinks_ok(chain, T_start, T_end):
+    """Tangent jumps inside a chain and at its ends all below _KINK."""
+    s_t, e_t = _tangents(chain)
+    jumps = [_angle(e_t[:-1], s_t[1:]), _angle(s_t[:1], T_start[None]), _angle(e_t[-1:], T_end[None])]
+    return float(np.concatenate(jumps).max()) < _KINK
+
+
+def _tangents(chain):
+    out = []
+    for at_end in (False, True):
+        p = chain.end if at_end else chain.start
+        rel = p - chain.center
+        arc_t = np.where((chain.kind == ARC_CCW)[:, None], _left(rel), -_left(rel))
+        v = np.where((chain.kind == LINE)[:, None], chain.end - chain.start, arc_t)
+        out.append(v / np.linalg.norm(v, axis=1, keepdims=True))
+    return out
+
+
+def _angle(u, v):
+    cross = u[:, 0] * v[:, 1] - u[:, 1] * v[:, 0]
+    return np.abs(np.arctan2(cross, _dot(u, v)))
+
+
+def _biarcs_to(contour, d, tol, S, T, t_s, P2, T2, t2):
+    """Biarcs from states (S, T) to on-curve ends (P2, T2), all (m, 2):
+    a list of (two-move Chain, within tolerance and tangent-continuous)."""
+    m = len(P2)
+    ta = np.asarray(t_s, dtype=np.float64)
+    ch, ok = biarc_chain(S, T, P2, T2, ta, t2)
+    # joint parameters: the curve point nearest to each joint
+    tm = _nearest_param(contour, d, ch.end[0::2], ta, t2)
+    ch.t1[0::2] = tm
+    ch.t0[1::2] = tm
+    length = np.linalg.norm(ch.end - ch.start, axis=1)
+    ok &= (length[0::2] > 1e-6) & (length[1::2] > 1e-6)
+    dev = chain_deviation(contour, d, ch, tol)
+    dev = np.maximum(dev[0::2], dev[1::2])
+    out = []
+    for i in range(m):
+        piece = ch.take(slice(2 * i, 2 * i + 2))
+        good = bool(ok[i]) and dev[i] <= _TARGET * tol and _kinks_ok(piece, T[i], T2[i])
+        out.append((piece, good))
+    return out
+
+
+def _nearest_param(contour, d, pts, ta, tb, n=33):
+    """Parameter in [ta, tb] of the point of q nearest to each point (sampled, refined)."""
+    f = np.linspace(0.0, 1.0, n)
+    t = ta[:, None] + (tb - ta)[:, None] * f
+    q = offset_points(contour, t, d)
+    i = np.argmin(np.linalg.norm(q - pts[:, None, :], axis=2), axis=1)
+    lo = np.maximum(i - 1, 0)
+    hi = np.minimum(i + 1, n - 1)
+    a = t[np.arange(len(pts)), lo]
+    b = t[np.arange(len(pts)), hi]
+    for _ in range(30):  # golden-free ternary on a unimodal bracket
+        m1, m2 = a + (b - a) / 3, b - (b - a) / 3
+        d1 = np.linalg.norm(offset_points(contour, m1, d) - pts, axis=1)
+        d2 = np.linalg.norm(offset_points(contour, m2, d) - pts, axis=1)
+        a = np.where(d1 > d2, m1, a)
+        b = np.where(d1 > d2, b, m2)
+    tm = 0.5 * (a + b)
+    h = tb - ta
+    return np.clip(tm, ta + 1e-3 * h, tb - 1e-3 * h)
+
+
+def _fit_window(contour, a, b, d, tol, frac, free_end):
+    """G1 arcs in the band of half-width frac·tol on one window, or None."""
+    t, X, tan, theta = _samples(contour, a, b, d, tol)
+    band = _Band(t, X, tan, theta, frac * tol)
+    n = band.n
+    parts = []  # Chains
+    states = []  # (S, T, i0) at the start of each part
+    S, T, i0 = X[0], tan[0], 0
+    restarts = 0
+    for _ in range(4 * n):
+        j, idx, aa, bb, rl, rh = band.reach(S[None], T[None], np.array([i0]))
+        j = int(j[0])
+        if j == n - 1:
+            end = _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end)
+            if end is not None:
+                parts.extend(end)
+                break
+        J, K = _candidates(band, S, T, i0, j, idx, aa, bb, rl, rh)
+        if j == n - 1:  # could not close from here: keep some way before the end
+            keep = J < n - 1
+            J, K = J[keep], K[keep]
+        if len(J) == 0:
+            # cannot continue: return to the curve with a biarc, or step back
+            got = _restart(contour, d, tol, band, S, T, i0)
+            restarts += 1
+            if got is None:
+                if not parts or restarts > 50:
+                    return None
+                parts.pop()
+                S, T, i0 = states.pop()
+                got = _restart(contour, d, tol, band, S, T, i0)
+                if got is None:
+                    return None
+            piece, i_new = got
+            states.append((S, T, i0))
+            parts.append(piece)
+            S, T, i0 = piece.end[-1], tan[i_new], i_new
+            continue
+        E, TE, C = _arc_end(np.repeat(S[None], len(J), 0), np.repeat(T[None], len(J), 0), K, X[J])
+        sw = _sweep(np.repeat(S[None], len(J), 0), E, C, K)
+        good = (sw <= 0.95 * np.pi) & np.all(np.isfinite(E), axis=1)
+        J, K, E, TE, C = J[good], K[good], E[good], TE[good], C[good]
+        if len(J) == 0:
+            return None
+        if len(J) > 1:
+            j2, *_ = band.reach(E, TE, J)
+            score = j2.astype(np.float64) * (n + 1) + J
+            best = int(np.argmax(score))
+        else:
+            best = 0
+        states.append((S, T, i0))
+        parts.append(_prim(K[best:best + 1], S[None], E[best:best + 1], C[best:best + 1],
+                           np.array([t[i0]]), np.array([t[J[best]]])))
+        S, T, i0 = E[best], TE[best], int(J[best])
+    else:
+        return None
+    chain = Chain.concat(parts)
+    chain.start[0] = X[0]
+    chain.end[-1] = X[-1]
+    chain.start[1:] = chain.end[:-1]
+    return chain, restarts
+
+
+def _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end):
+    """Moves from the state to the window's end, or None."""
+    n, X, t = band.n, band.X, band.t
+    if free_end:
+        # one arc through q(b), any end tangent
+        w = X[-1] - S
+        kk = 2.0 * _dot(w, _left(T)) / max(_dot(w, w), 1e-300)
+        col = n - 1 - i0 - 1
+        if col < 0 or rl[0, col] <= kk <= rh[0, col]:
+            chord = np.hypot(*w)
+            if abs(kk) * chord <= 1.02e-4:
+                kk = 0.0
+            E, TE, C = _arc_end(S[None], T[None], np.array([kk]), X[-1:])
+            piece = _prim(np.array([kk]), S[None], X[-1:], C, np.array([t[i0]]), np.array([t[-1]]))
+            return [piece]
+        return None
+    Tb = band.tan[-1]
+    # a single move when it already ends along the curve's tangent
+    w = X[-1] - S
+    kk = 2.0 * _dot(w, _left(T)) / max(_dot(w, w), 1e-300)
+    E, TE, C = _arc_end(S[None], T[None], np.array([kk]), X[-1:])
+    col = n - 1 - i0 - 1
+    if (col < 0 or rl[0, col] <= kk <= rh[0, col]) and _angle(TE, Tb[None])[0] < _KINK:
+        return [_prim(np.array([kk]), S[None], X[-1:], C, np.array([t[i0]]), np.array([t[-1]]))]
+    # a biarc to the end, or an arc and then a biarc
+    got = _biarcs_to(contour, d, tol, S[None], T[None], t[i0:i0 + 1], X[-1:], Tb[None], t[-1:])
+    if got[0][1]:
+        return [got[0][0]]
+    J, K = _candidates(band, S, T, i0, n - 1, None, aa, bb, rl, rh)
+    keep = (J < n - 2) & (J > i0)
+    J, K = J[keep], K[keep]
+    if len(J) == 0:
+        return None
+    m = len(J)
+    E, TE, C = _arc_end(np.repeat(S[None], m, 0), np.repeat(T[None], m, 0), K, X[J])
+    ends = np.repeat(X[-1:], m, 0)
+    got = _biarcs_to(contour, d, tol, E, TE, t[J], ends, np.repeat(Tb[None], m, 0), np.repeat(t[-1:], m))
+    for i in np.argsort(-J, kind="stable"):  # the longest first move that closes
+        if got[i][1]:
+            first = _prim(K[i:i + 1], S[None], E[i:i + 1], C[i:i + 1], np.array([t[i0]]), np.array([t[J[i]]]))
+            return [first, got[i][0]]
+    return None
+
+
+def _restart(contour, d, tol, band, S, T, i0):
+    """A biarc from the state back onto the curve (its point and tangent)
+    as far along as measures within the tolerance: (piece, index) or None."""
+    n = band.n
+    steps = np.unique(np.minimum(i0 + np.array([1, 2, 4, 8, 16, 32, 64, 128, 256, 512]), n - 1))
+    steps = steps[steps > i0]
+    if len(steps) == 0:
+        return None
+    m = len(steps)
+    got = _biarcs_to(contour, d, tol, np.repeat(S[None], m, 0), np.repeat(T[None], m, 0),
+                     np.full(m, band.t[i0]), band.X[steps], band.tan[steps], band.t[steps])
+    for i in range(len(steps) - 1, -1, -1):
+        if got[i][1]:
+            return got[i][0], int(steps[i])
+    return None
+
+
+def _is_corner(contour, t):
+    if not contour.corners:
+        return False
+    b = contour.breaks
+    ct = b[list(contour.corners)]
+    if contour.closed:
+        period = b[-1] - b[0]
+        x = np.mod(t - ct + 0.5 * period, period) - 0.5 * period
+        return bool(np.any(np.abs(x) <= 1e-12 * max(1.0, period)))
+    return bool(np.any(np.abs(t - ct) <= 1e-12 * max(1.0, abs(t))))
+
+
+def band_arcs(contour, windows, d: float, tol: float):
+    """G1 arcs (and lines) within ``tol`` of q = P + d·N on each window.
+
+    Same contract as :func:`pathgen.path.flatten.approximate` with
+    ``moves="arcs"``: returns (chain, measured deviation, stats).  A window
+    whose band fit does not measure within the tolerance falls back to the
+    curve-tangent biarcs.
+    """
+    from .flatten import approximate
+
+    windows = np.atleast_2d(np.asarray(windows, dtype=np.float64))
+    lo_dom, hi_dom = contour.domain
+    parts, dev = [], 0.0
+    stats = {"spans": 0, "boost_rounds": 0, "split_rounds": 0, "merged_spans": 0}
+    for a, b in windows:
+        free_end = (not contour.closed and b >= hi_dom) or (d == 0.0 and _is_corner(contour, b))
+        best = None
+        for r, frac in enumerate(_BANDS):
+            got = _fit_window(contour, a, b, d, tol, frac, free_end)
+            if got is None:
+                continue
+            chain, restarts = got
+            merged = merge_chain(chain, atol=min(0.05 * tol, 1e-4))
+            mdev = chain_deviation(contour, d, merged, tol)
+            if mdev.max(initial=0.0) > _TARGET * tol:
+                merged = chain
+                mdev = chain_deviation(contour, d, chain, tol)
+            if mdev.max(initial=0.0) <= _TARGET * tol:
+                best = (merged, float(mdev.max(initial=0.0)))
+                stats["boost_rounds"] = max(stats["boost_rounds"], r)
+                stats["split_rounds"] += restarts
+                stats["spans"] += len(chain)
+                stats["merged_spans"] += len(chain) - len(merged)
+                break
+        if best is None:
+            chain, dv, st = approximate(contour, np.array([[a, b]]), d, tol, moves="arcs")
+            best = (chain, dv)
+            for key in stats:
+                stats[key] += st[key]
+        parts.append(best[0])
+        dev = max(dev, best[1])
+    return Chain.concat(parts), dev, stats
