@@ -108,8 +108,9 @@ def _angle(text: str):
     return "off" if text.strip().lower() == "off" else _number(text)
 
 
-def _add_shared(p: argparse.ArgumentParser, *, output: str | None) -> None:
-    """The options every job command shares (one spelling each)."""
+def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool = False) -> None:
+    """The options every job command shares (one spelling each); ``program``
+    adds the options of the G-code program for commands that write one."""
     g = p.add_argument_group("input and fit")
     shape = g.add_mutually_exclusive_group()
     shape.add_argument("--closed", dest="closed", action="store_const", const=True, default=None,
@@ -152,6 +153,14 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None) -> None:
     g.add_argument("--plunge-feed", type=_number, metavar="F",
                    help="feed of the plunge to depth per minute (default: half the cutting feed)")
 
+    if program:
+        g = p.add_argument_group("program")
+        g.add_argument("--spindle-speed", type=_number, metavar="RPM",
+                       help="start the spindle clockwise at this speed (S… M3) and stop it at the end (M5)")
+        g.add_argument("--one-feed", action="store_true",
+                       help="write one constant cutting feed instead of the planned feed per block")
+        g.add_argument("--line-numbers", action="store_true", help="number the blocks (N words)")
+
     g = p.add_argument_group("output")
     if output == "OUTDIR":
         g.add_argument("-o", "--output", metavar=output, help="folder for the programs and reports (required)")
@@ -177,15 +186,15 @@ def build_parser() -> argparse.ArgumentParser:
                            formatter_class=argparse.RawDescriptionHelpFormatter)
         if name in outputs:
             p.add_argument("points", metavar="POINTS", help="points file (.csv .txt .xy .dxf)")
-            _add_shared(p, output=outputs[name])
+            _add_shared(p, output=outputs[name], program=name == "gcode")
         elif name == "demo":
             p.add_argument("directory", metavar="DIR", nargs="?", default="pathgen-demo",
                            help="folder to write into (default: pathgen-demo)")
-            _add_shared(p, output=None)
+            _add_shared(p, output=None, program=True)
             p.add_argument("--jobs", type=int, metavar="N", help="worker processes (default: all CPU cores)")
         else:  # batch
             p.add_argument("directory", metavar="DIR", help="folder of points files (.csv .txt .xy .dxf)")
-            _add_shared(p, output="OUTDIR")
+            _add_shared(p, output="OUTDIR", program=True)
             p.add_argument("--jobs", type=int, metavar="N", help="worker processes (default: all CPU cores)")
     return parser
 
@@ -274,6 +283,8 @@ def _run_options(a) -> dict:
         tolerance=a.tolerance, moves=a.moves, depth=a.depth, step_down=a.step_down,
         safe_height=a.safe_height, seam=a.seam, lead=a.lead, force=a.force,
         direction=a.direction, plunge_feed=a.plunge_feed,
+        spindle_speed=getattr(a, "spindle_speed", None), one_feed=getattr(a, "one_feed", False),
+        line_numbers=getattr(a, "line_numbers", False),
     )
 
 

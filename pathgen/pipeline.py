@@ -172,6 +172,9 @@ def run(
     lead: str = "arc",
     direction: str = "climb",
     plunge_feed=None,
+    spindle_speed=None,
+    one_feed: bool = False,
+    line_numbers: bool = False,
     gcode=None,
     dxf=None,
     report=None,
@@ -220,6 +223,13 @@ def run(
     plunge_feed : float or None
         Feed of the plunge to depth (units/min); None: half the
         programmed feed (the toolpath stage's default).
+    spindle_speed : float or None
+        rev/min; when given the program starts the spindle (S… M3) and
+        stops it at the end (M5).
+    one_feed : bool
+        Write one constant cutting feed instead of the planned feed per block.
+    line_numbers : bool
+        Number the program's blocks (N words).
     gcode, dxf, report, plot : path or None
         Files to write.  ``report`` names the JSON report; a text version
         is written beside it with the suffix ``.txt``.
@@ -237,6 +247,8 @@ def run(
     check_option("moves", moves, MOVES)
     check_option("lead", lead, LEADS)
     check_option("direction", direction, ("climb", "conventional"))
+    if spindle_speed is not None:
+        spindle_speed = check_positive("spindle speed", spindle_speed)
     scale = MM_PER_INCH if units == "inch" else 1.0
     tol_mm = check_positive("tolerance", tolerance) * scale
     tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
@@ -339,7 +351,9 @@ def run(
             from .export.gcode import write_gcode
 
             files["gcode"] = timed("gcode", write_gcode, tp, targets["gcode"], force=force,
-                                   source=Path(source).name)
+                                   source=Path(source).name, program_name=Path(targets["gcode"]).stem,
+                                   spindle_speed=spindle_speed, single_feed=one_feed,
+                                   line_numbers=line_numbers)
         if "report" in targets:
             from .export.report import write_report
 

@@ -463,3 +463,23 @@ def test_direction_and_plunge_feed_reach_the_program(tmp_path):
         plunges = [m for m in prog.moves if m.g == 1 and m.start[:2] == m.end[:2] and m.end[2] < m.start[2]]
         assert plunges and all(m.feed == 123 for m in plunges)
     assert senses == {"climb": 2, "conventional": 3}
+
+
+def test_program_options_spindle_one_feed_line_numbers(tmp_path):
+    # NISTIR 6556 §3.3.1 (N words 0-99999), §3.6 (M3 starts the spindle
+    # clockwise, M5 stops it, S sets the speed): the words appear when asked.
+    import gcode_reader as gr
+
+    nc = tmp_path / "bracket.nc"
+    code = main(["gcode", str(SAMPLES / "bracket.csv"), "-o", str(nc), "--tool-diameter", "6",
+                 "--spindle-speed", "18000", "--one-feed", "--line-numbers", "--feed", "900", "--quiet"],
+                out=io.StringIO(), err=io.StringIO())
+    assert code == 0
+    text = nc.read_text()
+    prog = gr.read(text)
+    assert [(w, s) for _, w, s in prog.spindle] == [("M3", 18000.0), ("M5", None)]
+    cut_feeds = {m.feed for m in prog.moves if m.g in (1, 2, 3) and m.start[:2] != m.end[:2]}
+    assert cut_feeds == {900.0}
+    blocks = [ln for ln in text.splitlines() if ln and not ln.startswith("(")]
+    assert all(re.match(r"N\d{1,5} ", ln) for ln in blocks)
+    assert "(pathgen program: bracket)" in text
