@@ -214,7 +214,13 @@ def _candidates(band, S, T, i0, j, idx, a, b, rl, rh):
         return np.zeros(0, np.int64), np.zeros(0)
     offs = np.unique(np.clip(np.round(first * np.array([1.0, 0.93, 0.85, 0.7, 0.5])), 1, first)).astype(np.int64)
     cols = offs - 1
-    lo, hi = rl[0, cols], rh[0, cols]
+    # samples within e of S bound nothing: keep the curvature finite (radius >= e)
+    kmax = 1.0 / band.e
+    lo, hi = np.maximum(rl[0, cols], -kmax), np.minimum(rh[0, cols], kmax)
+    good = lo <= hi
+    offs, cols, lo, hi = offs[good], cols[good], lo[good], hi[good]
+    if len(offs) == 0:
+        return np.zeros(0, np.int64), np.zeros(0)
     km = band.minimax(np.repeat(a, len(cols), 0), np.repeat(b, len(cols), 0),
                       lo, hi, cols)
     fr = np.array([0.15, 0.5, 0.85])

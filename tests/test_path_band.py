@@ -1,0 +1,252 @@
+"""Arcs fitted inside the tolerance band (pathgen.path.arcfit).
+
+Every check compares against something computed independently of the
+fitting and measuring code: a k-d tree (``scipy.spatial.cKDTree``) over a
+dense sampling of the spline, the chord bound of that sampling, plain
+circle geometry, or the old curve-tangent biarcs.
+"""
+
+from __future__ import annotations
+
+import pathlib
+
+import numpy as np
+import pytest
+from scipy.spatial import cKDTree
+
+from conftest import ellipse_points
+from pathgen.checks.machine import Cut, Tool
+from pathgen.outline import fit_outline
+from pathgen.path.arcfit import _dist, band_arcs
+from pathgen.path.build import contour_moves, make_toolpath
+from pathgen.path.flatten import approximate
+from pathgen.path.measure import Chain, arc_geometry
+from pathgen.path.model import ARC_CCW, LINE, RAPID
+from pathgen.path.offset import regular_windows
+from pathgen.points import read_points
+from pathgen.spline import fit
+
+SAMPLES = pathlib.Path(__file__).resolve().parents[1] / "samples"
+NAMES = ("bracket", "hook", "plate", "profile")
+
+
+def _sample(name):
+    return fit_outline(read_points(SAMPLES / f"{name}.csv"))
+
+
+def _noisy_ellipse():
+    # seeded probe-like noise (sigma 5 µm) on a 30 x 20 mm ellipse, points ~0.8 mm
+    # apart (denser noisy points make the interpolating spline bend tighter than
+    # a 6 mm tool in places, which is the trimming's business, not this file's)
+    rng = np.random.default_rng(5)
+    pts = ellipse_points(30.0, 20.0, 200) + rng.normal(0.0, 0.005, (200, 2))
+    return fit(pts, closed=True)
+
+
+def _moves(tp, *, z=None):
+    """Cutting moves of a toolpath (one pass: the given z) as a 2-D Chain."""
+    m = tp.kind != RAPID
+    m &= tp.start[:, 2] == tp.end[:, 2]
+    if z is not None:
+        m &= tp.start[:, 2] == z
+    nan = np.full(m.sum(), np.nan)
+    return Chain(tp.kind[m], tp.start[m, :2], tp.end[m, :2], tp.center[m], nan, nan)
+
+
+def _dense_curve(contour, d, tol):
+    """Points of q = P + d·N, m steps per spline piece, and their chord bound.
+
+    Chord bound (SOURCES §4, Filip-Magedson-Markot 1986, from memory): a
+    step h strays from its chord by at most h²/8·max‖q''‖.  Steps never
+    straddle a break (corners); q'' is taken from second differences inside
+    each piece, doubled for safety.  Returns (points, bound).
+    """
+    b = contour.breaks
+    m = 8
+    for _ in range(10):
+        f = np.arange(m + 1) / m
+        h = np.diff(b)[:, None]
+        # a hair inside each piece at its ends, so a corner's two sides both appear
+        t = b[:-1, None] + h * np.clip(f, 1e-12, 1 - 1e-12)[None, :]
+        q = contour(t) + d * contour.normal(t) if d else contour(t)
+        d2 = np.linalg.norm(q[:, 2:] - 2 * q[:, 1:-1] + q[:, :-2], axis=2)  # ≈ h_step²·‖q''‖
+        bound = 2.0 * float(d2.max()) / 8.0
+        if bound <= 2e-3 * tol or m >= 4096:
+            return q.reshape(-1, 2), bound
+        m *= 2
+    return q.reshape(-1, 2), bound
+
+
+def _polyline_distance(poly, pts, k=16):
+    """Distance from points to a polyline (k nearest vertices, both segments of each).
+
+    Missing the true nearest segment can only make the result larger
+    (a conservative check of an upper bound).
+    """
+    tree = cKDTree(poly)
+    _, idx = tree.query(pts, k=min(k, len(poly)))
+    best = np.full(len(pts), np.inf)
+    for j in range(idx.shape[1]):
+        for off in (-1, 0):
+            i0 = np.clip(idx[:, j] + off, 0, len(poly) - 2)
+            a, b = poly[i0], poly[i0 + 1]
+            ab = b - a
+            u = np.einsum("ij,ij->i", pts - a, ab) / np.maximum(np.einsum("ij,ij->i", ab, ab), 1e-300)
+            foot = a + np.clip(u, 0.0, 1.0)[:, None] * ab
+            best = np.minimum(best, np.linalg.norm(pts - foot, axis=1))
+    return best
+
+
+def _sample_moves(chain, step):
+    """Points along the moves (chord step ``step`` mm) and the sagitta of that sampling."""
+    pts, sag = [], 0.0
+    for i in range(len(chain)):
+        s, e = chain.start[i], chain.end[i]
+        if chain.kind[i] == LINE:
+            m = max(int(np.ceil(np.hypot(*(e - s)) / step)), 1)
+            pts.append(s + (e - s) * (np.arange(m + 1) / m)[:, None])
+            continue
+        r, a0, sw = arc_geometry(s, e, chain.center[i], chain.kind[i] == ARC_CCW)
+        # at most ``step`` apart, and a sagitta of at most 1e-3·step/2 (both SOURCES §4)
+        dphi = 2.0 * np.arccos(max(1.0 - 5e-4 * step / r, -1.0))
+        m = max(int(np.ceil(abs(sw) * r / step)), int(np.ceil(abs(sw) / dphi)), 1)
+        a = a0 + sw * np.arange(m + 1) / m
+        pts.append(chain.center[i] + r * np.c_[np.cos(a), np.sin(a)])
+        sag = max(sag, r * (1.0 - np.cos(0.5 * abs(sw) / m)))  # sagitta, SOURCES §4
+    return np.vstack(pts), sag
+
+
+def _independent_deviation(chain, contour, d, tol):
+    """(moves → curve, curve → moves) upper bounds, mm, from k-d trees."""
+    q, q_bound = _dense_curve(contour, d, tol)
+    pts, sag = _sample_moves(chain, 2.0 * tol)  # the sagitta of this step is added below
+    to_curve = _polyline_distance(q, pts).max() + q_bound
+    to_moves = _polyline_distance(pts, q).max() + sag
+    return to_curve, to_moves
+
+
+def _joint_kinks(chain):
+    """Angle between the end tangent of each move and the start tangent of the next."""
+    tang = []
+    for at_end in (False, True):
+        p = chain.end if at_end else chain.start
+        rel = p - chain.center
+        arc_t = np.where((chain.kind == ARC_CCW)[:, None], np.c_[-rel[:, 1], rel[:, 0]], np.c_[rel[:, 1], -rel[:, 0]])
+        v = np.where((chain.kind == LINE)[:, None], chain.end - chain.start, arc_t)
+        tang.append(v / np.linalg.norm(v, axis=1, keepdims=True))
+    u, v = tang[1][:-1], tang[0][1:]
+    cross = u[:, 0] * v[:, 1] - u[:, 1] * v[:, 0]
+    return np.abs(np.arctan2(cross, np.einsum("ij,ij->i", u, v))), chain.end[:-1]
+
+
+# -- the curvature interval behind the band test --------------------------------
+def test_curvature_interval_matches_circle_distance(rng):
+    # Circle through S tangent to T with curvature k: center S + N/k, radius
+    # 1/|k|.  A point X is within e of it exactly when
+    # k ∈ [2(a - e), 2(a + e)] / (b - e²), a = (X - S)·N, b = |X - S|²
+    # (derived in the module).  Checked against plain circle geometry.
+    S = rng.normal(size=2)
+    ang = rng.uniform(0, 2 * np.pi)
+    T = np.array([np.cos(ang), np.sin(ang)])
+    N = np.array([-T[1], T[0]])
+    X = S + rng.normal(scale=3.0, size=(2000, 2))
+    k = rng.uniform(-1.0, 1.0, 2000)
+    e = 0.05
+    w = X - S
+    a, b = w @ N, np.einsum("ij,ij->i", w, w)
+    C = S + N / k[:, None]
+    exact = np.abs(np.linalg.norm(X - C, axis=1) - 1.0 / np.abs(k))  # |distance to the circle|
+    np.testing.assert_allclose(np.abs(_dist(k, a, b)), exact, rtol=1e-9, atol=1e-12)
+    inside = (k >= 2 * (a - e) / (b - e * e)) & (k <= 2 * (a + e) / (b - e * e))
+    far = b > e * e
+    margin = np.abs(exact - e) > 1e-9  # not on the band's edge
+    assert inside.sum() > 20 and (~inside).sum() > 20
+    np.testing.assert_array_equal(inside[far & margin], exact[far & margin] <= e)
+
+
+# -- within tolerance, measured and independently -------------------------------
+@pytest.mark.parametrize("tol", [0.1, 0.01, 0.001])
+@pytest.mark.parametrize("name", NAMES + ("noisy ellipse",))
+def test_band_arcs_within_tolerance(name, tol):
+    c = _noisy_ellipse() if name == "noisy ellipse" else _sample(name)
+    tp = contour_moves(c, tolerance=tol, moves="arcs")
+    assert 0 <= tp.deviation <= tol
+    to_curve, to_moves = _independent_deviation(_moves(tp), c, 0.0, tol)
+    assert to_curve <= tol * 1.001
+    assert to_moves <= tol * 1.001
+    assert np.isfinite(tp.start).all() and np.isfinite(tp.center).all()
+    np.testing.assert_array_equal(tp.start[1:], tp.end[:-1])  # moves meet exactly
+
+
+@pytest.mark.parametrize("name", NAMES + ("noisy ellipse",))
+def test_band_arcs_are_tangent_continuous_except_at_corners(name):
+    c = _noisy_ellipse() if name == "noisy ellipse" else _sample(name)
+    corners = c(c.breaks[list(c.corners)]) if c.corners else np.zeros((0, 2))
+    for tol in (0.1, 0.01, 0.001):
+        ch = _moves(contour_moves(c, tolerance=tol, moves="arcs"))
+        if c.closed:  # the seam is a joint too
+            ch = Chain.concat([ch, ch.take(slice(0, 1))])
+        kink, at = _joint_kinks(ch)
+        if len(corners):
+            near = np.min(np.linalg.norm(at[:, None] - corners[None], axis=2), axis=1) < 1e-9
+        else:
+            near = np.zeros(len(at), bool)
+        assert kink[~near].max(initial=0.0) < 1e-9
+        if len(corners):
+            assert near.sum() == len(corners) and kink[near].min() > 0.1  # real corners stay corners
+
+
+@pytest.mark.parametrize("name, side", [("bracket", "outside"), ("bracket", "inside"),
+                                        ("profile", "outside"), ("profile", "inside"),
+                                        ("noisy ellipse", "outside"), ("noisy ellipse", "inside")])
+def test_offsets_stay_within_tolerance_of_the_true_offset(name, side):
+    # the tool center must follow P + d·N, d = ±r (Farouki & Neff 1990; SOURCES §9)
+    c = _noisy_ellipse() if name == "noisy ellipse" else _sample(name)
+    tol = 0.01
+    tp = make_toolpath(c, Tool(6.0), Cut(side=side, tolerance=tol), lead="none")
+    assert tp.info["trimmed"] == []  # nothing unreachable on these: the offset is all of q
+    assert tp.deviation <= tol
+    ch = _moves(tp, z=tp.start[:, 2].min())
+    to_curve, to_moves = _independent_deviation(ch, c, tp.info["offset"], tol)
+    assert to_curve <= tol * 1.001
+    assert to_moves <= tol * 1.001
+    kink, _ = _joint_kinks(ch)
+    assert kink.max() < 1e-9
+
+
+# -- fewer blocks ---------------------------------------------------------------
+@pytest.mark.parametrize("name", NAMES + ("noisy ellipse",))
+def test_band_arcs_need_no_more_blocks_than_biarcs_or_lines(name):
+    # the reason the band fit is the default: measured on each part at 0.01 mm
+    c = _noisy_ellipse() if name == "noisy ellipse" else _sample(name)
+    lo, hi = c.domain
+    windows, _, _ = regular_windows(c, 0.0, lo, hi)
+    band, dev, _ = band_arcs(c, windows, 0.0, 0.01)
+    old = sum(len(approximate(c, w[None], 0.0, 0.01, moves="arcs")[0]) for w in windows)
+    lines = len(contour_moves(c, tolerance=0.01, moves="lines"))
+    assert dev <= 0.01
+    assert len(band) <= old
+    assert len(band) <= lines
+    if name != "plate":  # the plate is straight lines between corners: 8 either way
+        assert len(band) < old and len(band) < lines
+
+
+def test_noisy_ellipse_blocks_scale_like_arcs():
+    # arcs: count ∝ e^(-1/3) on smooth curves (SOURCES §4, scaling only); a
+    # noisy outline needs more as the tolerance nears the noise, never fewer
+    c = _noisy_ellipse()
+    n = [len(contour_moves(c, tolerance=e, moves="arcs")) for e in (0.1, 0.01)]
+    assert n[1] > n[0]
+    assert n[1] / n[0] >= 10 ** (1 / 3) * 0.75
+
+
+def test_straight_stretch_is_one_line_and_circle_is_exact():
+    # a circle is reproduced by arcs of its own radius and center; a straight
+    # run (between corners) is one line: plate sides
+    th = np.linspace(0, 2 * np.pi, 400, endpoint=False)
+    c = fit(np.c_[10 * np.cos(th), 10 * np.sin(th)], closed=True)
+    tp = contour_moves(c, tolerance=0.01)
+    assert len(tp) <= 4
+    np.testing.assert_allclose(np.hypot(*(tp.start[:, :2] - tp.center).T), 10.0, atol=1e-5)
+    plate = contour_moves(_sample("plate"), tolerance=0.01)
+    assert len(plate) == 8 and (plate.kind == LINE).all()
