@@ -53,7 +53,15 @@ _CAP = 0.75 * np.pi
 #: sagitta of the sample polyline, as a fraction of the tolerance
 _SAMPLE_SAG = 0.01
 _TARGET = 0.99
-_KINK = 1e-10  # rad: a biarc with a bigger kink (a near-line written as a line) is not taken
+_KINK = 1e-10
+#: candidate ends, as fractions of the reach, and curvatures, as fractions
+#: of the feasible interval there (besides the minimax one and a line)
+_J_FRACTIONS = np.array([1.0, 0.98, 0.95, 0.9, 0.85, 0.75, 0.6, 0.45, 0.3])
+_K_FRACTIONS = np.array([0.05, 0.25, 0.5, 0.75, 0.95])
+#: the final measurement samples this many times more densely than the default
+_DENSITY = 4
+#: states kept per step of the search (1: plain greedy with lookahead)
+_BEAM = 6  # rad: a biarc with a bigger kink (a near-line written as a line) is not taken
 
 
 def _left(v):
@@ -67,9 +75,10 @@ def _dot(a, b):
 def _samples(contour, a, b, d, tol):
     """Parameters t, points X = q(t), unit tangents and their unwrapped angle.
 
-    Every spline break in [a, b] and at least two steps per piece; more where
-    q bends, so the polyline's sagitta stays below 1 % of the tolerance; no
-    step longer than 20·tol (the resolution of an arc's end).
+    Steps h = min(√(8·0.01·tol/κ_q), 20·tol): the polyline's sagitta stays
+    below 1 % of the tolerance, with κ_q the largest curvature at the breaks
+    and quarter points of pieces a step spans; no step is longer than 20·tol (the
+    resolution of an arc's end).
     """
     brk = contour.breaks
     if contour.closed:
@@ -81,7 +90,7 @@ def _samples(contour, a, b, d, tol):
         bb = brk
     bb = bb[(bb > a) & (bb < b)]
     g = np.concatenate([[a], bb, [b]])
-    g = (g[:-1, None] + np.diff(g)[:, None] * (np.arange(2) / 2.0)).ravel()
+    g = (g[:-1, None] + np.diff(g)[:, None] * (np.arange(4) / 4.0)).ravel()
     g = np.append(g, b)
     d1, d2 = contour(g, 1), contour(g, 2)
     speed = np.hypot(d1[:, 0], d1[:, 1])
@@ -89,14 +98,20 @@ def _samples(contour, a, b, d, tol):
     stretch = np.maximum(1.0 - d * kappa, 1e-3)
     kq = np.abs(kappa) / stretch
     ds = speed * stretch
+    # the largest curvature near each step (an offset's curvature κ/(1 - dκ)
+    # peaks sharply where 1 - dκ is small: take the neighbours' too)
+    kq = np.maximum(kq, np.maximum(np.r_[kq[1:], kq[-1]], np.r_[kq[0], kq[:-1]]))
     kmax = np.maximum(kq[1:], kq[:-1])
     with np.errstate(divide="ignore"):
         h = np.minimum(np.sqrt(8.0 * _SAMPLE_SAG * tol / kmax), 20.0 * tol)
     length = 0.5 * (ds[1:] + ds[:-1]) * np.diff(g)
-    m = np.clip(np.ceil(length / h), 1, 10_000).astype(np.int64)
-    owner = np.repeat(np.arange(len(g) - 1), m)
-    j = np.arange(m.sum()) - np.repeat(np.cumsum(m) - m, m)
-    t = np.append(g[owner] + np.diff(g)[owner] * (j / m[owner]), b)
+    # samples evenly in U = ∫ ds / h: one per step h (pieces shorter than h
+    # share a sample; h comes from the largest curvature at any break or
+    # midpoint it spans, so wiggles between samples are accounted for)
+    U = np.concatenate([[0.0], np.cumsum(length / h)])
+    m = max(int(np.ceil(U[-1])), 1)
+    t = np.interp(np.linspace(0.0, U[-1], m + 1), U, g)
+    t[0], t[-1] = a, b
     X = offset_points(contour, t, d)
     tan = contour(t, 1)
     # window ends: the pieces on the window's side of a break (corners)
@@ -207,12 +222,12 @@ def _sweep(S, E, C, k):
     return np.where(k == 0, 0.0, ang)
 
 
-def _candidates(band, S, T, i0, j, idx, a, b, rl, rh):
+def _candidates(band, S, T, i0, j, a, b, rl, rh):
     """Candidate (end index, curvature) pairs for one state."""
     first = j - i0  # number of feasible samples
     if first < 1:
         return np.zeros(0, np.int64), np.zeros(0)
-    offs = np.unique(np.clip(np.round(first * np.array([1.0, 0.93, 0.85, 0.7, 0.5])), 1, first)).astype(np.int64)
+    offs = np.unique(np.clip(np.round(first * _J_FRACTIONS), 1, first)).astype(np.int64)
     cols = offs - 1
     # samples within e of S bound nothing: keep the curvature finite (radius >= e)
     kmax = 1.0 / band.e
@@ -223,7 +238,7 @@ def _candidates(band, S, T, i0, j, idx, a, b, rl, rh):
         return np.zeros(0, np.int64), np.zeros(0)
     km = band.minimax(np.repeat(a, len(cols), 0), np.repeat(b, len(cols), 0),
                       lo, hi, cols)
-    fr = np.array([0.15, 0.5, 0.85])
+    fr = _K_FRACTIONS
     ks = [km[:, None], lo[:, None] + (hi - lo)[:, None] * fr]
     ks.append(np.where((lo <= 0) & (hi >= 0), 0.0, np.nan)[:, None])
     K = np.concatenate(ks, axis=1)
@@ -312,67 +327,91 @@ def _nearest_param(contour, d, pts, ta, tb, n=33):
     return np.clip(tm, ta + 1e-3 * h, tb - 1e-3 * h)
 
 
-def _fit_window(contour, a, b, d, tol, frac, free_end):
-    """G1 arcs in the band of half-width frac·tol on one window, or None."""
+def _fit_window(contour, a, b, d, tol, frac, free_end, beam_width=_BEAM):
+    """G1 arcs in the band of half-width frac·tol on one window, or None.
+
+    A beam search over the number of moves: at every step each kept state
+    (end point, end tangent, sample index) proposes candidate arcs, each
+    scored by how far the next arc from its end reaches; the best
+    ``beam_width`` distinct ends are kept.  Returns (Chain, restarts).
+    """
     t, X, tan, theta = _samples(contour, a, b, d, tol)
     band = _Band(t, X, tan, theta, frac * tol)
     n = band.n
-    parts = []  # Chains
-    states = []  # (S, T, i0) at the start of each part
-    S, T, i0 = X[0], tan[0], 0
+    # a node: (S, T, i0, move Chain or None, parent node)
+    beam = [(X[0], tan[0], 0, None, None)]
     restarts = 0
     for _ in range(4 * n):
-        j, idx, aa, bb, rl, rh = band.reach(S[None], T[None], np.array([i0]))
-        j = int(j[0])
-        if j == n - 1:
-            end = _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end)
+        S = np.array([nd[0] for nd in beam])
+        T = np.array([nd[1] for nd in beam])
+        I0 = np.array([nd[2] for nd in beam], dtype=np.int64)
+        j, idx, aa, bb, rl, rh = band.reach(S, T, I0)
+        for r in np.flatnonzero(j == n - 1):
+            rows = slice(r, r + 1)
+            end = _close(contour, d, tol, band, S[r], T[r], int(I0[r]), aa[rows], bb[rows], rl[rows], rh[rows],
+                         free_end)
             if end is not None:
-                parts.extend(end)
-                break
-        J, K = _candidates(band, S, T, i0, j, idx, aa, bb, rl, rh)
-        if j == n - 1:  # could not close from here: keep some way before the end
-            keep = J < n - 1
-            J, K = J[keep], K[keep]
+                return _collect(beam[r], end, X), restarts
+        R, J, K = [], [], []
+        for r in range(len(beam)):
+            rows = slice(r, r + 1)
+            Jr, Kr = _candidates(band, S[r], T[r], int(I0[r]), int(j[r]), aa[rows], bb[rows], rl[rows], rh[rows])
+            if j[r] == n - 1:  # could not close from here: keep some way before the end
+                keep = Jr < n - 1
+                Jr, Kr = Jr[keep], Kr[keep]
+            R.append(np.full(len(Jr), r))
+            J.append(Jr)
+            K.append(Kr)
+        R, J, K = np.concatenate(R), np.concatenate(J), np.concatenate(K)
+        if len(J):
+            E, TE, C = _arc_end(S[R], T[R], K, X[J])
+            sw = _sweep(S[R], E, C, K)
+            good = (sw <= 0.95 * np.pi) & np.all(np.isfinite(E), axis=1)
+            R, J, K, E, TE, C = R[good], J[good], K[good], E[good], TE[good], C[good]
         if len(J) == 0:
             # cannot continue: return to the curve with a biarc, or step back
-            got = _restart(contour, d, tol, band, S, T, i0)
+            node = beam[0]
             restarts += 1
+            got = None
+            while node is not None and restarts <= 50:
+                got = _restart(contour, d, tol, band, node[0], node[1], node[2])
+                if got is not None:
+                    break
+                node = node[4]
             if got is None:
-                if not parts or restarts > 50:
-                    return None
-                parts.pop()
-                S, T, i0 = states.pop()
-                got = _restart(contour, d, tol, band, S, T, i0)
-                if got is None:
-                    return None
+                return None
             piece, i_new = got
-            states.append((S, T, i0))
-            parts.append(piece)
-            S, T, i0 = piece.end[-1], tan[i_new], i_new
+            beam = [(piece.end[-1], tan[i_new], i_new, piece, node)]
             continue
-        E, TE, C = _arc_end(np.repeat(S[None], len(J), 0), np.repeat(T[None], len(J), 0), K, X[J])
-        sw = _sweep(np.repeat(S[None], len(J), 0), E, C, K)
-        good = (sw <= 0.95 * np.pi) & np.all(np.isfinite(E), axis=1)
-        J, K, E, TE, C = J[good], K[good], E[good], TE[good], C[good]
-        if len(J) == 0:
-            return None
-        if len(J) > 1:
-            j2, *_ = band.reach(E, TE, J)
-            score = j2.astype(np.float64) * (n + 1) + J
-            best = int(np.argmax(score))
-        else:
-            best = 0
-        states.append((S, T, i0))
-        parts.append(_prim(K[best:best + 1], S[None], E[best:best + 1], C[best:best + 1],
-                           np.array([t[i0]]), np.array([t[J[best]]])))
-        S, T, i0 = E[best], TE[best], int(J[best])
-    else:
-        return None
+        j2, *_ = band.reach(E, TE, J)
+        score = j2.astype(np.float64) * (n + 1) + J
+        order = np.argsort(-score, kind="stable")
+        # distinct ends only: same sample, same tangent and offset to ~1e-9
+        ang = np.round(np.arctan2(TE[:, 1], TE[:, 0]) * 1e8)
+        off = np.round(_dot(E - X[J], _left(tan[J])) / band.e * 1e8)
+        _, first = np.unique(np.c_[J, ang, off][order], axis=0, return_index=True)
+        order = order[np.sort(first)][:beam_width]
+        new = []
+        for i in order:
+            r = R[i]
+            prim = _prim(K[i:i + 1], S[r][None], E[i:i + 1], C[i:i + 1], np.array([t[I0[r]]]), np.array([t[J[i]]]))
+            new.append((E[i], TE[i], int(J[i]), prim, beam[r]))
+        beam = new
+    return None
+
+
+def _collect(node, end, X):
+    """The moves from the window's start to ``node``, then ``end``."""
+    parts = list(end)
+    while node is not None and node[3] is not None:
+        parts.append(node[3])
+        node = node[4]
+    parts = parts[len(end):][::-1] + parts[:len(end)]
     chain = Chain.concat(parts)
     chain.start[0] = X[0]
     chain.end[-1] = X[-1]
     chain.start[1:] = chain.end[:-1]
-    return chain, restarts
+    return chain
 
 
 def _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end):
@@ -403,7 +442,7 @@ def _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end):
     got = _biarcs_to(contour, d, tol, S[None], T[None], t[i0:i0 + 1], X[-1:], Tb[None], t[-1:])
     if got[0][1]:
         return [got[0][0]]
-    J, K = _candidates(band, S, T, i0, n - 1, None, aa, bb, rl, rh)
+    J, K = _candidates(band, S, T, i0, n - 1, aa, bb, rl, rh)
     keep = (J < n - 2) & (J > i0)
     J, K = J[keep], K[keep]
     if len(J) == 0:
@@ -471,10 +510,10 @@ def band_arcs(contour, windows, d: float, tol: float):
                 continue
             chain, restarts = got
             merged = merge_chain(chain, atol=min(0.05 * tol, 1e-4))
-            mdev = chain_deviation(contour, d, merged, tol)
+            mdev = chain_deviation(contour, d, merged, tol, density=_DENSITY)
             if mdev.max(initial=0.0) > _TARGET * tol:
                 merged = chain
-                mdev = chain_deviation(contour, d, chain, tol)
+                mdev = chain_deviation(contour, d, chain, tol, density=_DENSITY)
             if mdev.max(initial=0.0) <= _TARGET * tol:
                 best = (merged, float(mdev.max(initial=0.0)))
                 stats["boost_rounds"] = max(stats["boost_rounds"], r)

@@ -200,8 +200,10 @@ def distance_to_own(points, owner, chain: Chain) -> np.ndarray:
     return dist
 
 
-def _sample_counts(contour, chain: Chain, tol: float) -> np.ndarray:
-    """Samples per primitive so that polyline sagittas stay below 0.5 % of tol."""
+def _sample_counts(contour, chain: Chain, tol: float, density: int = 1) -> np.ndarray:
+    """Samples per primitive so that polyline sagittas stay below 0.5 % of tol
+    (times ``density``: more samples where the curve has features narrower
+    than a sampling step, e.g. an offset near a cusp)."""
     k = len(chain)
     counts = np.full(k, 24, dtype=np.int64)
     arcs = chain.kind != LINE
@@ -219,10 +221,10 @@ def _sample_counts(contour, chain: Chain, tol: float) -> np.ndarray:
     else:
         pieces = np.searchsorted(b, t1) - np.searchsorted(b, t0)
     counts = np.maximum(counts, np.minimum(pieces + 2, 20000).astype(np.int64))
-    return counts
+    return counts if density == 1 else (counts - 1) * int(density) + 1
 
 
-def chain_deviation(contour, d: float, chain: Chain, tol: float) -> np.ndarray:
+def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int = 1) -> np.ndarray:
     """Measured maximum distance of each primitive from q(t) = P(t) + d·N(t).
 
     Parameters
@@ -231,6 +233,7 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float) -> np.ndarray:
     d : signed offset along the left normal, mm (0 for the contour itself).
     chain : primitives with finite spans ``t0``, ``t1`` (either order).
     tol : the tolerance the sample density is chosen for, mm.
+    density : samples per primitive, as a multiple of the default count.
 
     Returns
     -------
@@ -240,7 +243,7 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float) -> np.ndarray:
     k = len(chain)
     if k == 0:
         return np.zeros(0)
-    counts = _sample_counts(contour, chain, tol)
+    counts = _sample_counts(contour, chain, tol, density)
     owner = np.repeat(np.arange(k), counts)
     first = np.cumsum(counts) - counts
     j = np.arange(owner.size) - first[owner]
