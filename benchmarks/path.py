@@ -5,7 +5,9 @@ Prints, all measured in this run:
   * line count vs the asymptotic minimum N ≈ ∫√(|κ|/(8e)) ds and, for a
     circle, vs ⌈π / acos(1 − e/R)⌉;
   * arcs vs lines block ratios at 0.01 mm on the sample parts and on an
-    ellipse and a superellipse;
+    ellipse and a superellipse: the default arcs (fitted inside the
+    tolerance band) and the curve-tangent biarcs side by side;
+  * the same ratios on the sample parts at 0.1 and 0.001 mm;
   * the time to turn a 10⁵-point closed outline into an arc toolpath.
 """
 
@@ -24,6 +26,8 @@ sys.path.insert(0, os.path.join(os.path.dirname(__file__), ".."))
 import pathgen  # noqa: E402
 from pathgen.checks.machine import Cut, Tool  # noqa: E402
 from pathgen.path.build import contour_moves, make_toolpath  # noqa: E402
+from pathgen.path.flatten import approximate  # noqa: E402
+from pathgen.path.offset import regular_windows  # noqa: E402
 from pathgen.spline import fit  # noqa: E402
 
 
@@ -34,6 +38,17 @@ def asymptotic_lines(contour, e, n=200_000):
     tm = 0.5 * (t[1:] + t[:-1])
     ds = np.hypot(*contour(tm, 1).T) * np.diff(t)
     return float(np.sum(np.sqrt(np.abs(contour.curvature(tm)) / (8 * e)) * ds))
+
+
+def tangent_biarcs(contour, e, d=0.0):
+    """The curve-tangent biarcs (the arcs before the band fit): (count, deviation)."""
+    lo, hi = contour.domain
+    windows, _, _ = regular_windows(contour, d, lo, hi, e)
+    n, dev = 0, 0.0
+    for w in windows:
+        chain, dv, _ = approximate(contour, w[None], d, e, moves="arcs")
+        n, dev = n + len(chain), max(dev, dv)
+    return n, dev
 
 
 def shapes():
@@ -67,11 +82,26 @@ def main():
         n_min = asymptotic_lines(c, e)
         ratio = f"{len(lines) / n_min:6.3f}" if n_min >= 1 else "   n/a"  # straight edges only
         print(f"   {name:32s} {len(lines):7d} {n_min:8.1f} {ratio}")
-        rows.append((name, len(lines), len(arcs), lines.deviation, arcs.deviation))
+        rows.append((name, len(lines), len(arcs), lines.deviation, arcs.deviation, *tangent_biarcs(c, e)))
     print(f"\n2. arcs vs lines at e = {e} mm (blocks of the contour itself)")
-    print(f"   {'shape':32s} {'lines':>7s} {'arcs':>6s} {'lines/arcs':>10s} {'dev lines':>10s} {'dev arcs':>9s}")
-    for name, nl, na, dl, da in rows:
-        print(f"   {name:32s} {nl:7d} {na:6d} {nl / na:10.2f} {dl:10.5f} {da:9.5f}")
+    print("   arcs: fitted in the tolerance band (default); biarcs: on the curve's tangents")
+    print(f"   {'shape':32s} {'lines':>6s} {'arcs':>5s} {'biarcs':>6s} {'lines/arcs':>10s} "
+          f"{'lines/biarcs':>12s} {'dev lines':>9s} {'dev arcs':>8s} {'dev biarcs':>10s}")
+    for name, nl, na, dl, da, nb, db in rows:
+        print(f"   {name:32s} {nl:6d} {na:5d} {nb:6d} {nl / na:10.2f} {nl / nb:12.2f} "
+              f"{dl:9.5f} {da:8.5f} {db:10.5f}")
+
+    print("\n   lines/arcs on the sample parts at other tolerances (arcs: band fit)")
+    print(f"   {'shape':32s} " + " ".join(f"{'e=' + str(t):>14s}" for t in (0.1, 0.01, 0.001)))
+    for name, c in shapes():
+        if not name.startswith("sample"):
+            continue
+        cells = []
+        for t in (0.1, 0.01, 0.001):
+            nl = len(contour_moves(c, tolerance=t, moves="lines"))
+            na = len(contour_moves(c, tolerance=t, moves="arcs"))
+            cells.append(f"{nl:5d}/{na:<4d}{nl / na:5.2f}")
+        print(f"   {name:32s} " + " ".join(f"{x:>14s}" for x in cells))
 
     print("\n3. speed: 10^5-point closed outline (invented cam-like part) to an arc toolpath")
     n = 100_000
@@ -92,6 +122,10 @@ def main():
               f"measured deviation {tp.deviation:.5f} mm")
     ratio = res["lines"][1].info["blocks"]["per_pass"] / res["arcs"][1].info["blocks"]["per_pass"]
     print(f"   lines/arcs on this part: {ratio:.2f}")
+    t2 = time.perf_counter()
+    nb, db = tangent_biarcs(c, e, d=res["arcs"][1].info["offset"])
+    print(f"   curve-tangent biarcs of the same offset (approximation only): {time.perf_counter() - t2:.2f} s, "
+          f"{nb} moves, measured deviation {db:.5f} mm")
 
 
 if __name__ == "__main__":
