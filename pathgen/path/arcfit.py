@@ -287,16 +287,22 @@ def _angle(u, v):
 def _biarcs_to(contour, d, tol, S, T, t_s, P2, T2, t2):
     """Biarcs from states (S, T) to on-curve ends (P2, T2), all (m, 2):
     a list of (two-move Chain, within tolerance and tangent-continuous)."""
+    from .flatten import _curve_joints
+
     m = len(P2)
     ta = np.asarray(t_s, dtype=np.float64)
-    ch, ok = biarc_chain(S, T, P2, T2, ta, t2)
+    tb = np.asarray(t2, dtype=np.float64)
+    # the joint where the joint circle crosses the curve (a third point of
+    # it), else the equal-tangent-length joint
+    joint, _ = _curve_joints(contour, d, S, T, P2, T2, ta, tb)
+    ch, ok = biarc_chain(S, T, P2, T2, ta, tb, joint=joint)
     # joint parameters: the curve point nearest to each joint
-    tm = _nearest_param(contour, d, ch.end[0::2], ta, t2)
+    tm = _nearest_param(contour, d, ch.end[0::2], ta, tb)
     ch.t1[0::2] = tm
     ch.t0[1::2] = tm
     length = np.linalg.norm(ch.end - ch.start, axis=1)
     ok &= (length[0::2] > 1e-6) & (length[1::2] > 1e-6)
-    dev = chain_deviation(contour, d, ch, tol)
+    dev = chain_deviation(contour, d, ch, tol, density=_DENSITY)
     dev = np.maximum(dev[0::2], dev[1::2])
     out = []
     for i in range(m):
