@@ -167,7 +167,7 @@ def test_curvature_interval_matches_circle_distance(rng):
 # -- within tolerance, measured and independently -------------------------------
 @pytest.mark.parametrize("tol", [0.1, 0.01, 0.001])
 @pytest.mark.parametrize("name", NAMES + ("noisy ellipse",))
-def test_band_arcs_within_tolerance(name, tol):
+def test_band_arcs_within_tolerance_and_tangent_continuous(name, tol):
     c = _noisy_ellipse() if name == "noisy ellipse" else _sample(name)
     tp = contour_moves(c, tolerance=tol, moves="arcs")
     assert 0 <= tp.deviation <= tol
@@ -176,24 +176,17 @@ def test_band_arcs_within_tolerance(name, tol):
     assert to_moves <= tol * 1.001
     assert np.isfinite(tp.start).all() and np.isfinite(tp.center).all()
     np.testing.assert_array_equal(tp.start[1:], tp.end[:-1])  # moves meet exactly
-
-
-@pytest.mark.parametrize("name", NAMES + ("noisy ellipse",))
-def test_band_arcs_are_tangent_continuous_except_at_corners(name):
-    c = _noisy_ellipse() if name == "noisy ellipse" else _sample(name)
+    # tangent-continuous at every joint (the seam of a closed one too) except corners
+    ch = _moves(tp)
+    if c.closed:
+        ch = Chain.concat([ch, ch.take(slice(0, 1))])
+    kink, at = _joint_kinks(ch)
     corners = c(c.breaks[list(c.corners)]) if c.corners else np.zeros((0, 2))
-    for tol in (0.1, 0.01, 0.001):
-        ch = _moves(contour_moves(c, tolerance=tol, moves="arcs"))
-        if c.closed:  # the seam is a joint too
-            ch = Chain.concat([ch, ch.take(slice(0, 1))])
-        kink, at = _joint_kinks(ch)
-        if len(corners):
-            near = np.min(np.linalg.norm(at[:, None] - corners[None], axis=2), axis=1) < 1e-9
-        else:
-            near = np.zeros(len(at), bool)
-        assert kink[~near].max(initial=0.0) < 1e-9
-        if len(corners):
-            assert near.sum() == len(corners) and kink[near].min() > 0.1  # real corners stay corners
+    near = np.zeros(len(at), bool)
+    if len(corners):
+        near = np.min(np.linalg.norm(at[:, None] - corners[None], axis=2), axis=1) < 1e-9
+        assert near.sum() == len(corners) and kink[near].min() > 0.1  # real corners stay corners
+    assert kink[~near].max(initial=0.0) < 1e-9
 
 
 @pytest.mark.parametrize("name, side", [("bracket", "outside"), ("bracket", "inside"),
