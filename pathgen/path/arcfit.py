@@ -3,8 +3,8 @@
 Biarcs that take the curve's own tangents at every span end follow every
 wiggle of a curve interpolating noisy points.  This module instead builds
 a G1 arc spline (Meek & Walton 1992; an arc spline is a chain of lines
-and arcs, each tangent to the next) greedily inside the band of
-half-width e around the target q(t) = P(t) + d·N(t):
+and arcs, each tangent to the next) inside the band of half-width e
+around the target q(t) = P(t) + d·N(t):
 
 * each arc starts where the previous one ends, along its end tangent;
 * it runs as far along q as some arc of that start and tangent keeps
@@ -12,9 +12,10 @@ half-width e around the target q(t) = P(t) + d·N(t):
   test is a running max/min over the samples ahead, vectorized);
 * its end is the radial projection of the last sample onto the arc, so
   the end may sit off the curve inside the band;
-* among a few candidate ends (how far, which curvature of the feasible
-  interval) the one from which the *next* arc reaches furthest is kept
-  (one step of lookahead, all candidates as arrays).
+* candidate ends (how far, which curvature of the feasible interval)
+  are scored by how far the *next* arc from each reaches, and a beam
+  search keeps the best few distinct ends at every step (all candidates
+  as arrays; a Python loop per step, never per sample).
 
 Windows start at q(a) along the curve's tangent and end at q(b): along
 the curve's tangent there with a biarc (Bolton 1975), or, where the path
@@ -52,7 +53,9 @@ _BANDS = (0.97, 0.9, 0.75)
 _CAP = 0.75 * np.pi
 #: sagitta of the sample polyline, as a fraction of the tolerance
 _SAMPLE_SAG = 0.01
+#: moves are accepted at this fraction of the tolerance (as in flatten)
 _TARGET = 0.99
+#: rad: a biarc with a bigger kink (a near-line written as a line) is not taken
 _KINK = 1e-10
 #: candidate ends, as fractions of the reach, and curvatures, as fractions
 #: of the feasible interval there (besides the minimax one and a line)
@@ -61,7 +64,7 @@ _K_FRACTIONS = np.array([0.05, 0.25, 0.5, 0.75, 0.95])
 #: the final measurement samples this many times more densely than the default
 _DENSITY = 4
 #: states kept per step of the search (1: plain greedy with lookahead)
-_BEAM = 6  # rad: a biarc with a bigger kink (a near-line written as a line) is not taken
+_BEAM = 6
 
 
 def _left(v):
@@ -159,7 +162,6 @@ class _Band:
 
     def reach(self, S, T, i0):
         """Last sample index each state's arc can reach, and its intervals."""
-        M = len(i0)
         L = self.chunk
         while True:
             idx, a, b, rl, rh, past = self.intervals(S, T, i0, L)
@@ -172,15 +174,16 @@ class _Band:
         first = np.where(has_fail, np.argmax(bad, axis=1), L)
         j = i0 + first  # samples i0+1 .. i0+first are feasible
         j = np.minimum(j, self.n - 1)
-        self.chunk = max(64, int(2 * np.max(first, initial=1)))
+        self.chunk = max(64, int(1.5 * np.max(first, initial=1)))
         return j, idx, a, b, rl, rh
 
     def minimax(self, a, b, rl, rh, last):
         """Curvature minimizing the largest distance of samples 0..last (per row)."""
-        L = a.shape[1]
+        L = int(np.max(last)) + 1
+        a, b = a[:, :L], b[:, :L]
         mask = np.arange(L)[None, :] <= last[:, None]
         lo, hi = rl.copy(), rh.copy()
-        for _ in range(40):
+        for _ in range(26):  # the bracket is the feasible interval: 2^-26 of it
             k = 0.5 * (lo + hi)
             g = _dist(k[:, None], a, b)
             gmax = np.where(mask, g, -np.inf).max(axis=1)
@@ -236,8 +239,12 @@ def _candidates(band, S, T, i0, j, a, b, rl, rh):
     offs, cols, lo, hi = offs[good], cols[good], lo[good], hi[good]
     if len(offs) == 0:
         return np.zeros(0, np.int64), np.zeros(0)
-    km = band.minimax(np.repeat(a, len(cols), 0), np.repeat(b, len(cols), 0),
-                      lo, hi, cols)
+    # the minimax curvature (the centred arc: exact on a circle) for the
+    # three farthest ends; the interval fractions cover the others
+    top = np.argsort(-offs)[:3]
+    km = np.full(len(offs), np.nan)
+    km[top] = band.minimax(np.broadcast_to(a, (len(top), a.shape[1])), np.broadcast_to(b, (len(top), b.shape[1])),
+                           lo[top], hi[top], cols[top])
     fr = _K_FRACTIONS
     ks = [km[:, None], lo[:, None] + (hi - lo)[:, None] * fr]
     ks.append(np.where((lo <= 0) & (hi >= 0), 0.0, np.nan)[:, None])
