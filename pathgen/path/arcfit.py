@@ -515,7 +515,12 @@ def band_arcs(contour, windows, d: float, tol: float):
     parts, dev = [], 0.0
     stats = {"spans": 0, "boost_rounds": 0, "split_rounds": 0, "merged_spans": 0}
     for a, b in windows:
-        free_end = (not contour.closed and b >= hi_dom) or (d == 0.0 and _is_corner(contour, b))
+        # the end tangent is free where the path has a corner anyway: the
+        # contour's own corner (d = 0), the end of an open contour, and the
+        # edge of a stretch the tool cannot reach (1 - dκ near 0: the path
+        # is trimmed before it, and a tangent end there takes tiny loops)
+        free_end = ((not contour.closed and b >= hi_dom) or (d == 0.0 and _is_corner(contour, b))
+                    or (d != 0.0 and 1.0 - d * float(contour.curvature(b)) <= 0.01))
         best = None
         for r, frac in enumerate(_BANDS):
             got = _fit_window(contour, a, b, d, tol, frac, free_end)
