@@ -19,8 +19,8 @@ around the target q(t) = P(t) + d·N(t):
 
 Windows start at q(a) along the curve's tangent and end at q(b): along
 the curve's tangent there with a biarc (Bolton 1975), or, where the path
-has a corner anyway (d = 0 at a corner, the end of an open contour), with
-one arc through q(b).  Where no arc can continue, the chain returns to
+has a corner anyway (d = 0 at a corner, the end of an open contour, the
+edge of a stretch the tool cannot reach), with one arc through q(b).  Where no arc can continue, the chain returns to
 the curve with a biarc onto the curve's point and tangent and starts again
 from there.  Every move is measured afterwards
 (:func:`pathgen.path.measure.chain_deviation`); a window that does not
