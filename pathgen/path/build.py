@@ -270,7 +270,8 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     tool : Tool (diameter, mm); None → ``Tool()``.
     cut : Cut (feed mm/min, side, tolerance mm); None → ``Cut()``.
     machine : Machine; None → ``Machine()`` (rapid speed for the time).
-    moves : "arcs" (biarcs, offset exactly) or "lines".
+    moves : "arcs" (tangent-continuous arcs and lines fitted inside the
+        tolerance band of the tool-center curve) or "lines".
     direction : "climb", "conventional", "forward" or "reverse" (see the
         module's direction rule).
     seam : None (flattest stretch) or (x, y): the closed cut starts at the
