@@ -58,6 +58,11 @@ def shapes():
     yield "ellipse 30x20", fit(np.c_[30 * c, 20 * s], closed=True)
     yield "superellipse 30x20 n=4", fit(np.c_[30 * np.sign(c) * np.abs(c) ** 0.5,
                                                 20 * np.sign(s) * np.abs(s) ** 0.5], closed=True)
+    # 200 points with seeded 5 µm noise: probe noise well below the tolerance
+    rng = np.random.default_rng(5)
+    th2 = np.linspace(0, 2 * np.pi, 200, endpoint=False)
+    yield "ellipse 30x20 noise 5um", fit(np.c_[30 * np.cos(th2), 20 * np.sin(th2)]
+                                         + rng.normal(0.0, 0.005, (200, 2)), closed=True)
     for f in sorted(glob.glob(os.path.join(os.path.dirname(__file__), "..", "samples", "*.csv"))):
         name = os.path.splitext(os.path.basename(f))[0]
         outline = pathgen.read_points(f)

@@ -234,8 +234,9 @@ def test_noisy_ellipse_blocks_scale_like_arcs():
 
 
 def test_straight_stretch_is_one_line_and_circle_is_exact():
-    # a circle is reproduced by arcs of its own radius and center; a straight
-    # run (between corners) is one line: plate sides
+    # a circle is reproduced by arcs of its own radius and center (circle
+    # reproduction, SOURCES §5: the minimax arc of co-circular samples is
+    # their circle); a straight run between corners is one line: plate sides
     th = np.linspace(0, 2 * np.pi, 400, endpoint=False)
     c = fit(np.c_[10 * np.cos(th), 10 * np.sin(th)], closed=True)
     tp = contour_moves(c, tolerance=0.01)
