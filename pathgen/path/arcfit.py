@@ -42,6 +42,7 @@ from __future__ import annotations
 import numpy as np
 
 from .biarc import biarc_chain, merge_chain
+from .flatten import _curve_joints, approximate
 from .measure import Chain, chain_deviation, eval_side, offset_points, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
 
@@ -294,8 +295,6 @@ def _angle(u, v):
 def _biarcs_to(contour, d, tol, S, T, t_s, P2, T2, t2):
     """Biarcs from states (S, T) to on-curve ends (P2, T2), all (m, 2):
     a list of (two-move Chain, within tolerance and tangent-continuous)."""
-    from .flatten import _curve_joints
-
     m = len(P2)
     ta = np.asarray(t_s, dtype=np.float64)
     tb = np.asarray(t2, dtype=np.float64)
@@ -329,7 +328,7 @@ def _nearest_param(contour, d, pts, ta, tb, n=33):
     hi = np.minimum(i + 1, n - 1)
     a = t[np.arange(len(pts)), lo]
     b = t[np.arange(len(pts)), hi]
-    for _ in range(30):  # golden-free ternary on a unimodal bracket
+    for _ in range(30):  # ternary search on a bracket around the nearest sample
         m1, m2 = a + (b - a) / 3, b - (b - a) / 3
         d1 = np.linalg.norm(offset_points(contour, m1, d) - pts, axis=1)
         d2 = np.linalg.norm(offset_points(contour, m2, d) - pts, axis=1)
@@ -508,8 +507,6 @@ def band_arcs(contour, windows, d: float, tol: float):
     whose band fit does not measure within the tolerance falls back to the
     curve-tangent biarcs.
     """
-    from .flatten import approximate
-
     windows = np.atleast_2d(np.asarray(windows, dtype=np.float64))
     lo_dom, hi_dom = contour.domain
     parts, dev = [], 0.0
