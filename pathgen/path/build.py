@@ -398,8 +398,10 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     def add(kind, s2, e2, c2, z0, z1, f):
         rows.append((kind, (s2[0], s2[1], z0), (e2[0], e2[1], z1), (c2[0], c2[1]), f))
 
-    origin = np.zeros(2)
-    add(RAPID, origin, L0, origin, safe_height, safe_height, 0.0)
+    origin = np.zeros(2)  # the center column of moves that are not arcs
+    # the path opens at the lead-in start at safe height: where the machine
+    # stands before is not known here, so no traverse from an assumed origin
+    add(RAPID, L0, L0, origin, safe_height, safe_height, 0.0)
     ck, cs, ce, cc, cf = _chain_toolpath(chain, 0.0, feed)
     blocks = []
     for k in range(1, n_pass + 1):

@@ -45,6 +45,7 @@ _C_ARC = 400.0
 _BOOSTS = 3
 _MAX_SPLITS = 60
 _MERGE_ROUNDS = 16
+_FINAL_DENSITY = 4
 
 
 def _grid(contour, windows: np.ndarray) -> np.ndarray:
@@ -192,7 +193,7 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
         U = _cumulative(g, rho * np.exp(logw))
         ta, tb = _place(g, U, windows)
         chain, span, ok = _build(contour, ta, tb, d, tol, moves)
-        dev = _measure(contour, chain, span, len(ta), d, tol, moves)
+        dev = _measure(contour, chain, span, len(ta), d, tol, moves, density=1)
         fail = (dev > target) | ~ok
         if not np.any(fail) or rounds == _BOOSTS:
             break
@@ -204,6 +205,8 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
         np.add.at(acc, i0, np.log(f[fail]))
         np.add.at(acc, i1, -np.log(f[fail]))
         logw += np.cumsum(acc)[:-1]
+    dev = np.where(ok, _measure(contour, chain, span, len(ta), d, tol, moves), dev)
+    fail = (dev > target) | ~ok
     splits = 0
     while np.any(fail):
         splits += 1
@@ -248,7 +251,7 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
         # the joined moves measure within the tolerance too
         merged = merge_chain(chain, atol=min(0.05 * tol, 1e-4))
         if len(merged) < len(chain):
-            mdev = chain_deviation(contour, d, merged, tol)
+            mdev = chain_deviation(contour, d, merged, tol, density=_FINAL_DENSITY)
             if mdev.max(initial=0.0) <= target:
                 chain, deviation = merged, max(deviation, float(mdev.max(initial=0.0)))
     stats = {"spans": int(len(ta)), "boost_rounds": int(rounds), "split_rounds": int(splits),
@@ -365,9 +368,16 @@ def _joint_params(contour, pm, ta, tb):
     return t
 
 
-def _measure(contour, chain, span, nspans, d, tol, moves):
-    """Measured deviation per span (max over its primitives)."""
-    dev = chain_deviation(contour, d, chain, tol)
+def _measure(contour, chain, span, nspans, d, tol, moves, density=_FINAL_DENSITY):
+    """Measured deviation per span (max over its primitives).
+
+    Every accepted span is measured at ``_FINAL_DENSITY``, 4× denser than
+    the measurement's default: near a cusp of an offset curve a narrow bump
+    can fall between default samples (an independent k-d tree check once
+    found 0.0101 mm where 0.0097 mm had been measured at the default
+    density).  The placement rounds only steer, at the default density.
+    """
+    dev = chain_deviation(contour, d, chain, tol, density=density)
     out = np.zeros(nspans)
     np.maximum.at(out, span, dev)
     return out
