@@ -12,7 +12,7 @@ The offset is built in three steps:
 
 1. :func:`regular_windows` splits the parameter range at corners and
    cuts out the stretches where 1 - dκ <= 0.001 (recorded as spots);
-2. the caller approximates each window (lines or offset biarcs);
+2. the caller approximates each window (lines, or arcs fitted in the tolerance band);
 3. :func:`assemble` joins the windows: a corner the tool goes around gets
    an arc of radius r about the corner (the exact offset of a sharp
    corner); where the sides overlap (a corner the tool sits in, a tight
