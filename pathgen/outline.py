@@ -438,10 +438,17 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
         order = (start + np.arange(m + 1)) % n
         q = p[order]
         hq = hgl[(start + np.arange(m)) % n]
+        # the runs as the pieces will see them from the new seam: none left
+        # (a run too short once the seam moved) means one periodic spline,
+        # never an open fit of the loop with a kink at its seam
+        if not _apart(straight_runs(q, tol, STRAIGHT_MIN_RATIO * size)):
+            c = fit(p, closed=True, param=param)
+            return _finish(c, p, closed, (), [], facts, None)
         tq = np.concatenate([[0.0], np.cumsum(hq)])
     coeffs = np.empty((4, m, 2))
     residual = np.zeros(m + 1)
     runs_out = []
+    seam_tangent = None
     for a, b in zip(bounds[:-1], bounds[1:]):
         seg = q[a:b + 1]
         ts = tq[a:b + 1]
@@ -489,6 +496,15 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
                 c_stop = _unit(seg[r0[0]], seg[r0[1]]) * v1
             else:
                 c_stop = last_cond
+            if corner_free_loop and parts[0][2] is None and (k == 0 or j == b - a):
+                # a curved stretch on both sides of the seam: give both the
+                # tangent a periodic fit has there, so the seam is no kink
+                if seam_tangent is None:
+                    seam_tangent = fit(p, closed=True, param=param)(np.sum(hgl[:start]), 1)
+                if k == 0:
+                    c_start = seam_tangent
+                if j == b - a:
+                    c_stop = seam_tangent
             if smooth is not None and len(sub) >= 3:
                 from .smooth import fit_within
 

@@ -344,3 +344,22 @@ def test_chance_straight_runs_in_noisy_points_join_tangent(rng):
     assert len(c.info["straight_runs"]) > 0  # the case this test is about
     assert c.corners == ()
     assert max(abs(tangent_jump(c, k)) for k in range(c.pieces)) <= 1e-9
+
+
+def test_smooth_dense_loop_has_no_false_corner_at_its_seam():
+    # A smooth invented cam outline r(θ) = 60 + 8 sin 3θ + 3 cos 7θ has no
+    # corner anywhere (its tangent turns continuously: differential geometry,
+    # do Carmo §1-5, from memory). Densely sampled, short stretches near its
+    # inflections pass the straight-run test; the loop must still come out
+    # tangent-continuous, with no kink at whatever seam the fit chooses.
+    n = 100_000
+    th = np.linspace(0, 2 * np.pi, n, endpoint=False)
+    r = 60 + 8 * np.sin(3 * th) + 3 * np.cos(7 * th)
+    c = fit_outline(np.round(np.c_[r * np.cos(th), r * np.sin(th)], 10), closed=True)
+    assert c.corners == ()
+    b = c.breaks
+    right = c.tangent(b[:-1])
+    left = c.tangent(b[1:] - 1e-9 * np.diff(b))  # end of each piece
+    nxt = np.roll(right, -1, axis=0)
+    jump = np.abs(np.arctan2(left[:, 0] * nxt[:, 1] - left[:, 1] * nxt[:, 0], (left * nxt).sum(axis=1)))
+    assert jump.max() < 1e-6
