@@ -58,6 +58,7 @@ def one_size(n: int, workdir: Path) -> dict:
     t0 = time.perf_counter()
     res = run(
         src,
+        closed=True,  # the file lists each point once: say that it is a loop
         tool_diameter=6.0,
         moves="arcs",
         tolerance=0.01,
