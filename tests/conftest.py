@@ -49,3 +49,15 @@ def ellipse_distance(a, b, p):
 @pytest.fixture
 def rng():
     return np.random.default_rng(20261201)
+
+
+def star_contour(seed, n=150, amplitude=2.5, harmonics=6):
+    """A smooth random star-shaped closed contour (counter-clockwise), radius
+    about 20 mm plus ``harmonics`` seeded cosine terms of up to ``amplitude``."""
+    from pathgen import fit
+
+    rng = np.random.default_rng(seed)
+    th = np.linspace(0, 2 * np.pi, n, endpoint=False)
+    r = 20.0 + sum(rng.uniform(-amplitude, amplitude) * np.cos(k * th + rng.uniform(0, 6))
+                   for k in range(1, harmonics + 1))
+    return fit(np.c_[r * np.cos(th), r * np.sin(th)], closed=True)

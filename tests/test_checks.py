@@ -9,6 +9,7 @@ import math
 
 import numpy as np
 import pytest
+from conftest import star_contour
 from hypothesis import given, settings
 from hypothesis import strategies as st
 from scipy.special import ellipe
@@ -352,10 +353,7 @@ def test_check_errors():
 
 def star(seed, n=150):
     """A smooth random star-shaped closed outline (counter-clockwise)."""
-    rng = np.random.default_rng(seed)
-    th = np.linspace(0, 2 * np.pi, n, endpoint=False)
-    r = 20.0 + sum(rng.uniform(-2.5, 2.5) * np.cos(k * th + rng.uniform(0, 6)) for k in range(1, 7))
-    return fit(np.c_[r * np.cos(th), r * np.sin(th)], closed=True)
+    return star_contour(seed, n, amplitude=2.5, harmonics=6)
 
 
 @settings(max_examples=12, deadline=None)

@@ -8,6 +8,7 @@ import math
 
 import numpy as np
 import pytest
+from conftest import star_contour
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
@@ -181,10 +182,7 @@ def test_passes_respect_the_limit_and_the_slope(n, a, seed):
 
 def star(seed, n=120):
     """A smooth random star-shaped closed outline (CCW), about 20-60 mm across."""
-    rng = np.random.default_rng(seed)
-    th = np.linspace(0, 2 * np.pi, n, endpoint=False)
-    r = 20.0 + sum(rng.uniform(-3, 3) * np.cos(k * th + rng.uniform(0, 6)) for k in range(1, 6))
-    return fit(np.c_[r * np.cos(th), r * np.sin(th)], closed=True)
+    return star_contour(seed, n, amplitude=3.0, harmonics=5)
 
 
 @settings(max_examples=15, deadline=None)
