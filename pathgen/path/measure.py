@@ -141,30 +141,47 @@ def arc_geometry(start, end, center, ccw):
     return r, a0, np.where(ccw, sweep, -sweep)
 
 
+def _geometry(chain: Chain):
+    """Per primitive: radius, start angle and signed sweep (0 for lines)."""
+    k = len(chain)
+    r, a0, sw = np.zeros(k), np.zeros(k), np.zeros(k)
+    ia = np.flatnonzero(chain.kind != LINE)
+    if len(ia):
+        r[ia], a0[ia], sw[ia] = arc_geometry(chain.start[ia], chain.end[ia], chain.center[ia],
+                                             chain.kind[ia] == ARC_CCW)
+    return r, a0, sw
+
+
+def _columns(a):
+    """The two coordinate columns of a (k, 2) array as contiguous 1-D arrays."""
+    return np.ascontiguousarray(a[:, 0]), np.ascontiguousarray(a[:, 1])
+
+
 def sample_chain(chain: Chain, counts: np.ndarray):
     """``counts[i]`` points (ends included) evenly along each primitive.
 
     Returns (points (n, 2), owner (n,), fraction (n,)).
     """
     counts = np.asarray(counts, dtype=np.int64)
-    owner = np.repeat(np.arange(len(chain)), counts)
+    k = len(chain)
+    owner = np.repeat(np.arange(k), counts)
     first = np.cumsum(counts) - counts
-    j = np.arange(owner.size) - first[owner]
-    frac = j / (counts[owner] - 1.0)
-    kind = chain.kind[owner]
-    s, e = chain.start[owner], chain.end[owner]
-    pts = s + (e - s) * frac[:, None]
-    arcs = kind != LINE
+    # owner runs are contiguous: expand per-primitive values with np.repeat
+    # (a gather per point costs several times more at 10^6 points)
+    j = np.arange(owner.size) - np.repeat(first, counts)
+    frac = j / np.repeat(counts - 1.0, counts)
+    pts = np.empty((owner.size, 2))
+    arcs = np.repeat(chain.kind != LINE, counts)
+    for col in (0, 1):
+        s = np.repeat(chain.start[:, col], counts)
+        e = np.repeat(chain.end[:, col], counts)
+        pts[:, col] = s + (e - s) * frac
     if np.any(arcs):
-        ia = np.flatnonzero(chain.kind != LINE)
-        r, a0, sw = arc_geometry(chain.start[ia], chain.end[ia], chain.center[ia], chain.kind[ia] == ARC_CCW)
-        rr = np.zeros(len(chain))
-        aa = np.zeros(len(chain))
-        ss = np.zeros(len(chain))
-        rr[ia], aa[ia], ss[ia] = r, a0, sw
-        o = owner[arcs]
-        ang = aa[o] + ss[o] * frac[arcs]
-        pts[arcs] = chain.center[o] + rr[o, None] * np.stack([np.cos(ang), np.sin(ang)], axis=-1)
+        rr, aa, ss = _geometry(chain)
+        ang = np.repeat(aa, counts)[arcs] + np.repeat(ss, counts)[arcs] * frac[arcs]
+        r = np.repeat(rr, counts)[arcs]
+        pts[arcs, 0] = np.repeat(chain.center[:, 0], counts)[arcs] + r * np.cos(ang)
+        pts[arcs, 1] = np.repeat(chain.center[:, 1], counts)[arcs] + r * np.sin(ang)
     # exact end points (s + (e - s)·1 and cos/sin need not give e bit for bit)
     pts[first] = chain.start
     pts[first + counts - 1] = chain.end
@@ -173,30 +190,51 @@ def sample_chain(chain: Chain, counts: np.ndarray):
 
 def distance_to_own(points, owner, chain: Chain) -> np.ndarray:
     """Exact distance from each point to primitive ``owner`` (line segment or arc)."""
-    kind = chain.kind[owner]
-    s, e = chain.start[owner], chain.end[owner]
+    points = np.asarray(points, dtype=np.float64)
+    owner = np.asarray(owner)
+    px, py = _columns(points)
+    sx, sy = _columns(chain.start)
+    ex, ey = _columns(chain.end)
+    line_prim = chain.kind == LINE
+    lines = line_prim.take(owner)
+    all_lines, no_lines = bool(lines.all()), not lines.any()
     dist = np.empty(len(points))
-    lines = kind == LINE
-    if np.any(lines):
-        p, a, b = points[lines], s[lines], e[lines]
-        ab = b - a
-        L2 = np.einsum("ij,ij->i", ab, ab)
-        u = np.einsum("ij,ij->i", p - a, ab) / np.where(L2 > 0, L2, 1.0)
-        foot = a + np.clip(u, 0.0, 1.0)[:, None] * ab
-        dist[lines] = np.hypot(*(p - foot).T)
-    arcs = ~lines
-    if np.any(arcs):
-        p, a, b = points[arcs], s[arcs], e[arcs]
-        c = chain.center[owner][arcs]
-        ccw = kind[arcs] == ARC_CCW
-        r, a0, sw = arc_geometry(a, b, c, ccw)
-        rel = p - c
-        rp = np.hypot(rel[:, 0], rel[:, 1])
-        ang = np.arctan2(rel[:, 1], rel[:, 0])
-        phi = np.mod(np.where(ccw, ang - a0, a0 - ang), _TWO_PI)
-        inside = phi <= np.abs(sw)
-        ends = np.minimum(np.hypot(*(p - a).T), np.hypot(*(p - b).T))
-        dist[arcs] = np.where(inside, np.abs(rp - r), ends)
+
+    def sel(v, mask, every):
+        return v if every else v[mask]
+
+    if not no_lines:
+        o = sel(owner, lines, all_lines)
+        x, y = sel(px, lines, all_lines), sel(py, lines, all_lines)
+        ax, ay = sx.take(o), sy.take(o)
+        abx, aby = ex.take(o) - ax, ey.take(o) - ay
+        L2 = abx * abx + aby * aby
+        u = ((x - ax) * abx + (y - ay) * aby) / np.where(L2 > 0, L2, 1.0)
+        np.clip(u, 0.0, 1.0, out=u)
+        d = np.hypot(x - (ax + u * abx), y - (ay + u * aby))
+        if all_lines:
+            dist = d
+        else:
+            dist[lines] = d
+    if not all_lines:
+        arcs = ~lines
+        o = sel(owner, arcs, no_lines)
+        x, y = sel(px, arcs, no_lines), sel(py, arcs, no_lines)
+        r, a0, sw = _geometry(chain)
+        cx, cy = _columns(chain.center)
+        relx, rely = x - cx.take(o), y - cy.take(o)
+        rp = np.hypot(relx, rely)
+        ang = np.arctan2(rely, relx)
+        a0o = a0.take(o)
+        ccw = (chain.kind == ARC_CCW).take(o)
+        phi = np.mod(np.where(ccw, ang - a0o, a0o - ang), _TWO_PI)
+        inside = phi <= np.abs(sw).take(o)
+        ends = np.minimum(np.hypot(x - sx.take(o), y - sy.take(o)), np.hypot(x - ex.take(o), y - ey.take(o)))
+        d = np.where(inside, np.abs(rp - r.take(o)), ends)
+        if no_lines:
+            dist = d
+        else:
+            dist[arcs] = d
     return dist
 
 
@@ -246,9 +284,9 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int
     counts = _sample_counts(contour, chain, tol, density)
     owner = np.repeat(np.arange(k), counts)
     first = np.cumsum(counts) - counts
-    j = np.arange(owner.size) - first[owner]
-    frac = j / (counts[owner] - 1.0)
-    t = chain.t0[owner] + (chain.t1[owner] - chain.t0[owner]) * frac
+    j = np.arange(owner.size) - np.repeat(first, counts)
+    frac = j / np.repeat(counts - 1.0, counts)
+    t = np.repeat(chain.t0, counts) + np.repeat(chain.t1 - chain.t0, counts) * frac
     q = offset_points(contour, t, d)
     # exact ends: primitives start and end on the curve by construction, but
     # a span ending at a corner must use the left-hand piece there
@@ -257,28 +295,36 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int
     q[last] = _offset_side(contour, chain.t1, d, left=chain.t1 > chain.t0)
     dev_a = np.maximum.reduceat(distance_to_own(q, owner, chain), first)
 
-    # primitive -> curve polyline, matching arc-length fractions
-    seg = np.hypot(*np.diff(q, axis=0).T)
+    # primitive -> curve polyline, matching arc-length fractions.  The
+    # primitive samples use the same counts, so sample i of both belongs to
+    # the same primitive (owner).
+    qx, qy = _columns(q)
+    abx, aby = np.diff(qx), np.diff(qy)
+    seg = np.hypot(abx, aby)
     seg[last[:-1]] = 0.0  # no segment between spans
     cum = np.concatenate([[0.0], np.cumsum(seg)])
     span_len = cum[last] - cum[first]
-    cfrac = (cum - cum[first][owner]) / np.where(span_len > 0, span_len, 1.0)[owner]
+    cfrac = (cum - np.repeat(cum[first], counts)) / np.repeat(np.where(span_len > 0, span_len, 1.0), counts)
     key_curve = owner + np.clip(cfrac, 0.0, 1.0) * 0.999999
-    pts, powner, pfrac = sample_chain(chain, counts)
-    key_prim = powner + pfrac * 0.999999
+    pts, _, pfrac = sample_chain(chain, counts)
+    px, py = _columns(pts)
+    key_prim = owner + pfrac * 0.999999
     pos = np.searchsorted(key_curve, key_prim)
-    best = np.full(len(pts), np.inf)
     n = len(q)
+    L2 = abx * abx + aby * aby
+    L2 = np.where(L2 > 0, L2, 1.0)
+    # segment i (q[i] -> q[i+1]) belongs to primitive owner[i] when both ends do
+    seg_owner = np.where(owner[:-1] == owner[1:], owner[:-1], -1)
+    best = np.full(len(pts), np.inf)
     for off in range(-3, 3):
         i = np.clip(pos + off, 0, n - 2)
-        same = owner[i] == owner[np.minimum(i + 1, n - 1)]
-        a, b = q[i], q[i + 1]
-        ab = b - a
-        L2 = np.einsum("ij,ij->i", ab, ab)
-        u = np.einsum("ij,ij->i", pts - a, ab) / np.where(L2 > 0, L2, 1.0)
-        foot = a + np.clip(u, 0.0, 1.0)[:, None] * ab
-        dd = np.hypot(*(pts - foot).T)
-        best = np.where(same & (owner[i] == powner), np.minimum(best, dd), best)
+        ax, ay = qx.take(i), qy.take(i)
+        sx, sy = abx.take(i), aby.take(i)
+        u = ((px - ax) * sx + (py - ay) * sy) / L2.take(i)
+        np.clip(u, 0.0, 1.0, out=u)
+        dd = np.hypot(px - (ax + u * sx), py - (ay + u * sy))
+        mine = seg_owner.take(i) == owner
+        np.minimum(best, dd, out=best, where=mine)
     best = np.where(np.isfinite(best), best, 0.0)
     dev_b = np.maximum.reduceat(best, first)
     return np.maximum(dev_a, dev_b)
