@@ -65,13 +65,39 @@ class Samples:
 
 
 def _derivs(c: np.ndarray, idx: np.ndarray, x: np.ndarray):
-    """Position, first and second derivative on piece ``idx`` at offset ``x``."""
-    xe = x[:, None]
-    c0, c1, c2, c3 = c[0][idx], c[1][idx], c[2][idx], c[3][idx]
-    p = ((c0 * xe + c1) * xe + c2) * xe + c3
-    d1 = (3.0 * c0 * xe + 2.0 * c1) * xe + c2
-    d2 = 6.0 * c0 * xe + 2.0 * c1
-    return p, d1, d2
+    """Position, first and second derivative on piece ``idx`` at offset ``x``.
+
+    ``c`` holds the coefficients per coordinate, shape (2, 4, m) (see
+    :func:`_per_coordinate`): a 1-D ``take`` per coefficient and coordinate
+    is several times faster than gathering (m, 2) rows at 10^6 samples.
+    """
+    x = np.asarray(x, dtype=np.float64)
+    out = np.empty((3, 2, len(x)))
+    x3 = 3.0 * x
+    x6 = 2.0 * x3
+    for k in range(2):
+        c0, c1, c2, c3 = (c[k, i].take(idx) for i in range(4))
+        r = c0 * x
+        r += c1
+        r *= x
+        r += c2
+        r *= x
+        r += c3
+        out[0, k] = r
+        c1 *= 2.0
+        r = c0 * x3
+        r += c1
+        r *= x
+        r += c2
+        out[1, k] = r
+        np.multiply(c0, x6, out=out[2, k])
+        out[2, k] += c1
+    return out[0].T, out[1].T, out[2].T
+
+
+def _per_coordinate(c: np.ndarray) -> np.ndarray:
+    """(4, m, 2) coefficients as a contiguous (2, 4, m) array."""
+    return np.ascontiguousarray(np.moveaxis(c, 2, 0))
 
 
 def _curv(d1: np.ndarray, d2: np.ndarray) -> np.ndarray:
@@ -129,18 +155,22 @@ def _refine_maxima(c, h, idx, x, kabs, iterations: int = 30):
 def _piece_lengths(c: np.ndarray, h: np.ndarray, halves: int = 1) -> np.ndarray:
     """Length of every piece: 10-point Gauss-Legendre on ``halves`` sub-steps.
 
-    One step is exact to rounding for the nearly constant speed of chord-
-    parametrized pieces (the ellipse perimeter test holds it to 1e-8).
+    ``c`` per coordinate, (2, 4, m).  One step is exact to rounding for the
+    nearly constant speed of chord-parametrized pieces (the ellipse
+    perimeter test holds it to 1e-8).
     """
     nodes, weights = np.polynomial.legendre.leggauss(10)
     total = np.zeros(len(h))
-    m = len(h)
     for k in range(halves):
         u = (k + (nodes + 1.0) / 2.0) / halves  # (10,) in [0, 1]
-        xe = (h[:, None] * u[None, :])[..., None]
-        d = (3.0 * c[0][:, None, :] * xe + 2.0 * c[1][:, None, :]) * xe + c[2][:, None, :]
-        total += (np.hypot(d[..., 0], d[..., 1]) * (weights / 2.0)).sum(axis=1) * h / halves
-    return total.reshape(m)
+        part = np.zeros(len(h))
+        for node, weight in zip(u, weights):
+            x = h * node
+            dx = (3.0 * c[0, 0] * x + 2.0 * c[0, 1]) * x + c[0, 2]
+            dy = (3.0 * c[1, 0] * x + 2.0 * c[1, 1]) * x + c[1, 2]
+            part += np.hypot(dx, dy) * (weight / 2.0)
+        total += part * h / halves
+    return total
 
 
 def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True) -> Samples:
@@ -160,10 +190,11 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     Samples
     """
     breaks = np.asarray(getattr(contour, "breaks", None), dtype=float)
-    c = np.ascontiguousarray(getattr(contour, "coefficients", None), dtype=float)
+    c = np.asarray(getattr(contour, "coefficients", None), dtype=float)
     if breaks.ndim != 1 or c.ndim != 3 or c.shape[0] != 4 or c.shape[2] != 2:
         raise InputError("contour must be a pathgen Contour (piecewise cubic), got "
                          f"{type(contour).__name__}")
+    c = _per_coordinate(c)
     m = len(breaks) - 1
     h = np.diff(breaks)
     closed = bool(contour.closed)
