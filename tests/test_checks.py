@@ -372,3 +372,56 @@ def test_largest_tool_is_the_reach_threshold(seed, side):
     under = check(c, FAST, Tool(0.95 * big), Cut(side=side))
     assert all(t.min_radius > 0.95 * big / 2 for t in under.tight_spots if t.reason == "reach")
     json.dumps(under.to_dict(), allow_nan=False)
+
+
+@pytest.mark.parametrize("shape", ["circle", "ellipse", "star", "square"])
+@pytest.mark.parametrize("per_piece", [None, 5])
+def test_samples_run_in_order_along_the_contour(shape, per_piece):
+    # sample_contour merges per-piece grids, piece ends at corners and the
+    # refined maxima of |κ| without sorting everything; on a circle |κ| is
+    # flat to rounding, so maxima sit next to each other.  The samples must
+    # still run in order of parameter and arc length, and the arc length
+    # must reach the perimeter: 2πR (handbook), 4a·E(1 - b²/a²) for the
+    # ellipse (scipy.special.ellipe), 4 × side for the square (handbook).
+    from pathgen.checks.sampling import sample_contour
+
+    if shape == "circle":
+        c, perimeter = circle(7.0), 2 * np.pi * 7.0
+    elif shape == "ellipse":
+        c, perimeter = ellipse(3.5, 2.1, n=400), 4 * 3.5 * ellipe(1 - (2.1 / 3.5) ** 2)
+    elif shape == "star":
+        c, perimeter = star_contour(3), None
+    else:
+        c, perimeter = square(5.0), 20.0
+    s = sample_contour(c, per_piece=per_piece)
+    assert np.all(np.diff(s.t) >= -1e-12 * (c.breaks[-1] - c.breaks[0]))
+    assert np.all(np.diff(s.s) >= 0.0)
+    assert s.s[0] == 0.0 and s.s[-1] == pytest.approx(s.length, rel=1e-12)
+    if perimeter is not None:
+        assert s.length == pytest.approx(perimeter, rel=1e-6)
+    assert (np.count_nonzero(s.corner) == 8) == (shape == "square")  # both sides of 4 corners
+    # away from corners each sample's tangent is the contour's at its parameter
+    smooth = ~s.corner
+    assert np.allclose(s.tangent[smooth], c.tangent(s.t[smooth]), atol=1e-9)
+
+
+def test_samples_stay_in_order_when_two_maxima_share_a_gap(monkeypatch):
+    # A plateau of |κ| can give two refined maxima between the same pair of
+    # samples, reported out of order; the merge must then sort them.
+    import pathgen.checks.sampling as sampling
+
+    real = sampling._refine_maxima
+
+    def twice(c, h, idx, x, kabs, iterations=30):
+        pi, px, k = real(c, h, idx, x, kabs, iterations)
+        assert len(pi) > 0
+        # a second maximum just before the first, listed after it
+        gap_lo = np.where(px >= x[k], x[k], x[np.maximum(k - 1, 0)])
+        extra = px[:1] - 0.5 * (px[:1] - gap_lo[:1])
+        return np.r_[pi, pi[:1]], np.r_[px, extra], np.r_[k, k[:1]]
+
+    monkeypatch.setattr(sampling, "_refine_maxima", twice)
+    c = ellipse(3.5, 2.1, n=400)
+    s = sampling.sample_contour(c)
+    assert np.all(np.diff(s.t) >= 0.0)
+    assert s.length == pytest.approx(4 * 3.5 * ellipe(1 - (2.1 / 3.5) ** 2), rel=1e-6)  # scipy.special.ellipe

@@ -116,11 +116,12 @@ def _refine_maxima(c, h, idx, x, kabs, iterations: int = 30):
 
     A maximum is bracketed by the samples on either side of a discrete
     local maximum in the same piece (or by the piece end).  Returns the
-    piece and offset of each refined maximum that lies strictly inside.
+    piece and offset of each refined maximum that lies strictly inside, and
+    the index of the sample it was found from.
     """
     n = len(idx)
     if n < 3:
-        return idx[:0], x[:0]
+        return idx[:0], x[:0], idx[:0]
     same_prev = np.r_[False, idx[1:] == idx[:-1]]
     same_next = np.r_[idx[:-1] == idx[1:], False]
     prev = np.r_[-np.inf, kabs[:-1]]
@@ -129,7 +130,7 @@ def _refine_maxima(c, h, idx, x, kabs, iterations: int = 30):
     peak &= same_prev | same_next
     k = np.flatnonzero(peak)
     if k.size == 0:
-        return idx[:0], x[:0]
+        return idx[:0], x[:0], idx[:0]
     pi = idx[k]
     lo = np.where(same_prev[k], x[np.maximum(k - 1, 0)], 0.0)
     hi = np.where(same_next[k], x[np.minimum(k + 1, n - 1)], h[pi])
@@ -149,7 +150,7 @@ def _refine_maxima(c, h, idx, x, kabs, iterations: int = 30):
         x1, x2 = x1n, x2n
     xm = 0.5 * (a + b)
     inside = (xm > lo) & (xm < hi)
-    return pi[inside], xm[inside]
+    return pi[inside], xm[inside], k[inside]
 
 
 def _piece_lengths(c: np.ndarray, h: np.ndarray, halves: int = 1) -> np.ndarray:
@@ -227,20 +228,25 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     x = (h[:, None] * j[None, :]).ravel()
     end_pieces = np.flatnonzero(is_corner[1:m]) if m > 1 else np.zeros(0, int)  # piece p ends at corner p+1
     end_pieces = np.r_[end_pieces, m - 1]
-    idx = np.r_[idx, end_pieces]
-    x = np.r_[x, h[end_pieces]]
-    endflag = np.r_[np.zeros(m * per_piece, bool), np.ones(len(end_pieces), bool)]
+    # the base samples are in (piece, offset) order: insert a piece's end
+    # after its last sample (no sort of the whole array)
+    at = (end_pieces + 1) * per_piece
+    idx = np.insert(idx, at, end_pieces)
+    x = np.insert(x, at, h[end_pieces])
+    endflag = np.insert(np.zeros(m * per_piece, bool), at, True)
 
     if refine:
-        order = np.lexsort((x, idx))
-        idx, x, endflag = idx[order], x[order], endflag[order]
         _, d1, d2 = _derivs(c, idx, x)
-        pi, px = _refine_maxima(c, h, idx, x, np.abs(_curv(d1, d2)))
-        idx = np.r_[idx, pi]
-        x = np.r_[x, px]
-        endflag = np.r_[endflag, np.zeros(len(pi), bool)]
-    order = np.lexsort((x, idx))
-    idx, x, endflag = idx[order], x[order], endflag[order]
+        pi, px, k = _refine_maxima(c, h, idx, x, np.abs(_curv(d1, d2)))
+        # each maximum lies between the samples either side of sample k
+        at = k + (px >= x[k])
+        idx = np.insert(idx, at, pi)
+        x = np.insert(x, at, px)
+        endflag = np.insert(endflag, at, False)
+        ordered = (idx[1:] > idx[:-1]) | ((idx[1:] == idx[:-1]) & (x[1:] >= x[:-1]))
+        if not ordered.all():  # two maxima between the same samples (a plateau)
+            order = np.lexsort((x, idx))
+            idx, x, endflag = idx[order], x[order], endflag[order]
 
     p, d1, d2 = _derivs(c, idx, x)
     speed = np.hypot(d1[:, 0], d1[:, 1])
