@@ -226,11 +226,13 @@ def _sweep(S, E, C, k):
     return np.where(k == 0, 0.0, ang)
 
 
-def _candidates(band, S, T, i0, j, a, b, rl, rh):
-    """Candidate (end index, curvature) pairs for one state."""
+def _ends(band, i0, j, rl, rh):
+    """Candidate end offsets of one state and the feasible curvature
+    interval at each: (offs, cols, lo, hi, top) or None.  ``top`` indexes
+    the (up to) three farthest ends, which also get the minimax curvature."""
     first = j - i0  # number of feasible samples
     if first < 1:
-        return np.zeros(0, np.int64), np.zeros(0)
+        return None
     offs = np.unique(np.clip(np.round(first * _J_FRACTIONS), 1, first)).astype(np.int64)
     cols = offs - 1
     # samples within e of S bound nothing: keep the curvature finite (radius >= e)
@@ -239,13 +241,18 @@ def _candidates(band, S, T, i0, j, a, b, rl, rh):
     good = lo <= hi
     offs, cols, lo, hi = offs[good], cols[good], lo[good], hi[good]
     if len(offs) == 0:
-        return np.zeros(0, np.int64), np.zeros(0)
+        return None
+    return offs, cols, lo, hi, np.argsort(-offs)[:3]
+
+
+def _pairs(band, S, i0, ends, km_top, rl, rh):
+    """Candidate (end index, curvature) pairs of one state, given the
+    minimax curvatures of its farthest ends."""
+    offs, cols, lo, hi, top = ends
     # the minimax curvature (the centred arc: exact on a circle) for the
     # three farthest ends; the interval fractions cover the others
-    top = np.argsort(-offs)[:3]
     km = np.full(len(offs), np.nan)
-    km[top] = band.minimax(np.broadcast_to(a, (len(top), a.shape[1])), np.broadcast_to(b, (len(top), b.shape[1])),
-                           lo[top], hi[top], cols[top])
+    km[top] = km_top
     fr = _K_FRACTIONS
     ks = [km[:, None], lo[:, None] + (hi - lo)[:, None] * fr]
     ks.append(np.where((lo <= 0) & (hi >= 0), 0.0, np.nan)[:, None])
@@ -262,6 +269,41 @@ def _candidates(band, S, T, i0, j, a, b, rl, rh):
     lo_c, hi_c = rl[0, col], rh[0, col]
     ok = (K >= lo_c) & (K <= hi_c)
     return J[ok], K[ok]
+
+
+_NONE = (np.zeros(0, np.int64), np.zeros(0))
+
+
+def _candidates(band, S, T, i0, j, a, b, rl, rh):
+    """Candidate (end index, curvature) pairs for one state."""
+    ends = _ends(band, i0, j, rl, rh)
+    if ends is None:
+        return _NONE
+    _, cols, lo, hi, top = ends
+    km = band.minimax(np.broadcast_to(a, (len(top), a.shape[1])), np.broadcast_to(b, (len(top), b.shape[1])),
+                      lo[top], hi[top], cols[top])
+    return _pairs(band, S, i0, ends, km, rl, rh)
+
+
+def _candidates_all(band, S, I0, j, a, b, rl, rh):
+    """:func:`_candidates` for every state of the beam, with one minimax
+    over all their farthest ends (the same numbers, far fewer numpy calls)."""
+    ends = [_ends(band, int(I0[r]), int(j[r]), rl[r:r + 1], rh[r:r + 1]) for r in range(len(S))]
+    live = [r for r, e in enumerate(ends) if e is not None]
+    out = [_NONE] * len(S)
+    if not live:
+        return out
+    rows = np.concatenate([np.full(len(ends[r][4]), r) for r in live])
+    lo = np.concatenate([ends[r][2][ends[r][4]] for r in live])
+    hi = np.concatenate([ends[r][3][ends[r][4]] for r in live])
+    last = np.concatenate([ends[r][1][ends[r][4]] for r in live])
+    km = band.minimax(a[rows], b[rows], lo, hi, last)
+    at = 0
+    for r in live:
+        n_top = len(ends[r][4])
+        out[r] = _pairs(band, S[r], int(I0[r]), ends[r], km[at:at + n_top], rl[r:r + 1], rh[r:r + 1])
+        at += n_top
+    return out
 
 
 def _prim(kind_k, S, E, C, t0, t1):
@@ -365,9 +407,7 @@ def _fit_window(contour, a, b, d, tol, frac, free_end, beam_width=_BEAM):
             if end is not None:
                 return _collect(beam[r], end, X), restarts
         R, J, K = [], [], []
-        for r in range(len(beam)):
-            rows = slice(r, r + 1)
-            Jr, Kr = _candidates(band, S[r], T[r], int(I0[r]), int(j[r]), aa[rows], bb[rows], rl[rows], rh[rows])
+        for r, (Jr, Kr) in enumerate(_candidates_all(band, S, I0, j, aa, bb, rl, rh)):
             if j[r] == n - 1:  # could not close from here: keep some way before the end
                 keep = Jr < n - 1
                 Jr, Kr = Jr[keep], Kr[keep]
