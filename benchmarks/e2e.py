@@ -1,16 +1,18 @@
 """End to end: points file → G-code with arcs, report and DXF.
 
 Prints, for closed outlines of 10^5 and 10^6 points, the wall time of each
-stage (so the slowest is visible), the total and the peak memory, each size
-run in a fresh process; then the time of ``pathgen --help`` and of
+stage (so the slowest is visible), the total and the peak memory: each the
+median of three runs, every run in a fresh process (the machine is shared,
+and one run can be 40 % slower than the next); then the time of ``pathgen --help`` and of
 ``pathgen check`` on a 200-point sample, as medians of a few runs.  Targets
 (shared 2-core machine): 10^5 points < 3 s, 10^6 points < 30 s and < 2 GB,
 ``--help`` < 0.3 s, ``check`` on 200 points < 1 s.
 
 Usage::
 
-    python benchmarks/e2e.py            # 10^5 and 10^6
-    python benchmarks/e2e.py --quick    # 10^5 only
+    python benchmarks/e2e.py              # 10^5 and 10^6, three runs each
+    python benchmarks/e2e.py --quick      # 10^5 only
+    python benchmarks/e2e.py --repeat 5   # five runs of each size
 
 Numbers vary with the machine's load: read them as ratios to the targets.
 """
@@ -94,6 +96,16 @@ def _child(n: int) -> dict:
     return json.loads(out.stdout.strip().splitlines()[-1])
 
 
+def _median_row(runs: list[dict]) -> dict:
+    """Stage by stage, total and peak memory: the medians over the runs."""
+    out = dict(runs[0])
+    out["stages"] = {s: statistics.median(r["stages"].get(s, 0.0) for r in runs) for s in runs[0]["stages"]}
+    out["total"] = statistics.median(r["total"] for r in runs)
+    out["peak_mb"] = statistics.median(r["peak_mb"] for r in runs)
+    out["totals"] = [r["total"] for r in runs]
+    return out
+
+
 def _median_time(cmd: list[str], repeat: int = 5) -> float:
     times = []
     for _ in range(repeat):
@@ -106,6 +118,7 @@ def _median_time(cmd: list[str], repeat: int = 5) -> float:
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="10^5 points only")
+    ap.add_argument("--repeat", type=int, default=3, help="runs of each size (median reported)")
     ap.add_argument("--child", type=int, help=argparse.SUPPRESS)
     ap.add_argument("--dir", help=argparse.SUPPRESS)
     a = ap.parse_args()
@@ -115,9 +128,11 @@ def main() -> None:
 
     targets = {100_000: 3.0, 1_000_000: 30.0}
     sizes = [100_000] if a.quick else [100_000, 1_000_000]
-    rows = [_child(n) for n in sizes]
+    rows = [_median_row([_child(n) for _ in range(max(1, a.repeat))]) for n in sizes]
     stages = list(dict.fromkeys(s for r in rows for s in r["stages"]))
     print("End to end, closed outline, arcs at 0.01 mm, 6 mm tool, G-code + report + DXF")
+    print(f"(median of {max(1, a.repeat)} runs, each in a fresh process; totals of every run: "
+          + "; ".join(f"{r['n']:,d}: " + ", ".join(f"{t:.2f}" for t in r["totals"]) for r in rows) + " s)")
     print(f"{'stage':<12}" + "".join(f"{r['n']:>14,d} pts" for r in rows))
     for s in stages:
         print(f"{s:<12}" + "".join(f"{r['stages'].get(s, 0.0):>16.3f} s" for r in rows))
