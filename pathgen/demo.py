@@ -155,6 +155,15 @@ def _round_rect_with_slot():
     ]
 
 
+def _probe_noise(seed: int, sigma: float, shape, on: bool):
+    """Seeded Gaussian noise of ``sigma`` mm (zeros when ``on`` is false)."""
+    import numpy as np
+
+    if not on:
+        return np.zeros(shape)
+    return np.random.default_rng(seed).normal(0.0, sigma, shape)
+
+
 def _bracket_segments():
     """Segments of the L-bracket, counter-clockwise from the bottom-left."""
     ro, ri = 8.0, 10.0  # outer corner radius, inner fillet radius
@@ -174,7 +183,7 @@ def _bracket_segments():
     ]
 
 
-def _bracket():
+def _bracket(noise=True):
     import numpy as np
 
     p = _sample_loop(_bracket_segments(), 1.3)
@@ -182,11 +191,10 @@ def _bracket():
     bottom = p[:, 1] < 1e-9
     dent = 1.2 * np.exp(-0.5 * ((p[:, 0] - 70.0) / 5.0) ** 2)
     p[bottom, 1] += dent[bottom]
-    rng = np.random.default_rng(20261)
-    return p + rng.normal(0.0, 0.005, p.shape)
+    return p + _probe_noise(20261, 0.005, p.shape, noise)
 
 
-def _profile():
+def _profile(noise=True):
     import numpy as np
 
     x = np.linspace(0.0, 130.0, 20001)
@@ -194,11 +202,10 @@ def _profile():
     s = np.concatenate([[0.0], np.cumsum(np.hypot(np.diff(x), np.diff(y)))])
     ss = np.linspace(0.0, s[-1], 160)
     p = np.column_stack([np.interp(ss, s, x), np.interp(ss, s, y)])
-    rng = np.random.default_rng(20262)
-    return p + rng.normal(0.0, 0.01, p.shape)
+    return p + _probe_noise(20262, 0.01, p.shape, noise)
 
 
-def _plate():
+def _plate(noise=True):  # from a drawing: never noisy
     import numpy as np
 
     corners = [(0, 0), (55, 0), (55, 15), (85, 15), (85, 0), (140, 0), (140, 70), (0, 70)]
@@ -206,27 +213,30 @@ def _plate():
     return np.asarray(_sample_loop(segs, 5.0))
 
 
-def _hook():
+def _hook(noise=True):
     import numpy as np
 
     segs = _round_rect_with_slot()
     p = _sample_loop(segs, 1.0, fine={5: 0.4, 6: 0.5, 7: 0.4, 8: 0.5, 9: 0.4})
-    rng = np.random.default_rng(20264)
-    return p + rng.normal(0.0, 0.003, p.shape)
+    return p + _probe_noise(20264, 0.003, p.shape, noise)
 
 
 _MAKERS = {"bracket": _bracket, "profile": _profile, "plate": _plate, "hook": _hook}
 
 
-def make_part(name: str):
+def make_part(name: str, *, noise: bool = True):
     """The sample part ``name`` as an (n, 2) float64 array in mm, rounded
-    to 4 decimals (what its file holds)."""
+    to 4 decimals (what its file holds).
+
+    ``noise=False`` gives the same points without the probe noise (the
+    exact geometry, sampled the same way), to tell what the noise costs.
+    """
     import numpy as np
 
     from ._options import check_option
 
     check_option("part", name, PARTS)
-    p = np.round(_MAKERS[name](), 4)
+    p = np.round(_MAKERS[name](noise=bool(noise)), 4)
     p[p == 0.0] = 0.0  # no negative zero
     return p
 

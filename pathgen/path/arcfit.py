@@ -381,14 +381,16 @@ def _nearest_param(contour, d, pts, ta, tb, n=33):
     return np.clip(tm, ta + 1e-3 * h, tb - 1e-3 * h)
 
 
-def _fit_window(contour, a, b, d, tol, frac, free_end, beam_width=_BEAM):
+def _fit_window(contour, a, b, d, tol, frac, free_end, beam_width=None):
     """G1 arcs in the band of half-width frac·tol on one window, or None.
 
     A beam search over the number of moves: at every step each kept state
     (end point, end tangent, sample index) proposes candidate arcs, each
     scored by how far the next arc from its end reaches; the best
-    ``beam_width`` distinct ends are kept.  Returns (Chain, restarts).
+    ``beam_width`` distinct ends are kept (default ``_BEAM``, read at call
+    time).  Returns (Chain, restarts).
     """
+    beam_width = _BEAM if beam_width is None else beam_width
     t, X, tan, theta = _samples(contour, a, b, d, tol)
     band = _Band(t, X, tan, theta, frac * tol)
     n = band.n
