@@ -89,3 +89,22 @@ def check_positive(name: str, value, *, allow_zero: bool = False) -> float:
         bound = ">= 0" if allow_zero else "> 0"
         raise InputError(f"{name} must be a finite number {bound}, got {value!r}")
     return v
+
+
+def duration_text(seconds) -> str:
+    """A time estimate for people: "8.4 s", "2 min 05.0 s", "1 h 02 min 05.0 s";
+    "not estimated" when there is none (not finite, or not positive).
+
+    >>> duration_text(8.44), duration_text(125.0), duration_text(3725.0)
+    ('8.4 s', '2 min 05.0 s', '1 h 02 min 05.0 s')
+    """
+    s = float(seconds)
+    if not math.isfinite(s) or s <= 0:
+        return "not estimated"
+    if s < 60:
+        return f"{s:.1f} s"
+    m, sec = divmod(s, 60.0)
+    if m < 60:
+        return f"{int(m)} min {sec:04.1f} s"
+    h, m = divmod(int(m), 60)
+    return f"{h} h {m:02d} min {sec:04.1f} s"

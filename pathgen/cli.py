@@ -209,10 +209,9 @@ def _fmt_len(v, units="mm") -> str:
 
 
 def _fmt_time(seconds) -> str:
-    if seconds is None:
-        return "-"
-    m, s = divmod(float(seconds), 60.0)
-    return f"{int(m)} min {s:04.1f} s" if m else f"{s:.1f} s"
+    from ._options import duration_text
+
+    return "-" if seconds is None else duration_text(seconds)
 
 
 def _summary_lines(result) -> list[str]:

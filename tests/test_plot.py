@@ -179,3 +179,27 @@ def test_real_check_and_toolpath(tmp_path):
     p = plot(tmp_path / "real.svg", contour, toolpath=tp, report=rep)
     ids = _svg_ids(p)
     assert sum(i.startswith("tight-spot-") and "label" not in i for i in ids) == len(rep.tight_spots)
+
+
+def test_picture_time_is_the_programs_estimate(tmp_path):
+    # The picture, the G-code header and the batch table give one estimate
+    # of the program's time (rapids, leads and passes included); without a
+    # program the picture says it is one pass along the contour.
+    import re
+
+    from pathgen.checks.machine import Cut, Tool
+    from pathgen.checks.report import check
+    from pathgen.export.gcode import write_gcode
+    from pathgen.path.build import make_toolpath
+
+    contour = _part()
+    tool, cut = Tool(6.0), Cut(side="outside", feed=500.0)
+    rep = check(contour, tool=tool, cut=cut)
+    tp = make_toolpath(contour, tool, cut, depth=3.0, step_down=1.0)
+    header = write_gcode(tp, tmp_path / "p.nc").read_text()
+    in_header = re.search(r"estimated cycle time: ([^)]*)\)", header).group(1)
+    texts = " | ".join(t.get_text() for t in plot_figure(contour, toolpath=tp, report=rep).texts)
+    assert f"estimated cycle time {in_header}" in texts
+    assert "min" in in_header  # three passes of about 230 mm at 500 mm/min: over a minute
+    texts = " | ".join(t.get_text() for t in plot_figure(contour, report=rep).texts)
+    assert f"one pass along the contour {rep.cycle_time:.1f} s" in texts

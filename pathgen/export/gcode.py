@@ -39,6 +39,7 @@ from pathlib import Path
 
 import numpy as np
 
+from .._options import duration_text
 from ..errors import ExportError, InputError
 from ..path.model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath, arc_sweep
 from ._atomic import atomic_write
@@ -85,19 +86,6 @@ def _num(v: float, digits: int = 6) -> str:
     v = round(v, 9) + 0.0  # a comment needs no digits below a nanometre
     s = np.format_float_positional(v, precision=digits, unique=False, fractional=False, trim="-")
     return "0" if s in ("-0", "0") else s
-
-
-def _duration(seconds: float) -> str:
-    s = float(seconds)
-    if not math.isfinite(s) or s <= 0:
-        return "not estimated"
-    if s < 60:
-        return f"{s:.1f} s"
-    m, sec = divmod(s, 60.0)
-    if m < 60:
-        return f"{int(m)} min {sec:04.1f} s"
-    h, m = divmod(int(m), 60)
-    return f"{h} h {m:02d} min {sec:04.1f} s"
 
 
 def _fixed(value: float, decimals: int) -> str:
@@ -241,7 +229,7 @@ def _header(tp: Toolpath, program_name: str, source: str) -> list[str]:
     lines.append(
         _comment(
             f"moves: {len(tp)}; cutting length: {_num(tp.cutting_length)} {u}; "
-            f"estimated cycle time: {_duration(tp.time)}"
+            f"estimated cycle time: {duration_text(tp.time)}"
         )
     )
     lines.extend(_comment(c) for c in CAUTION)

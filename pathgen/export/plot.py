@@ -19,7 +19,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .._options import MM_PER_INCH, UNITS, check_option
+from .._options import MM_PER_INCH, UNITS, check_option, duration_text
 from ..errors import InputError
 from ..path.model import ARC_CCW, ARC_CW, RAPID, Toolpath
 from ._atomic import atomic_paths
@@ -261,11 +261,15 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
         facts.append(f"smallest radius {_fmt(float(min_r) * k)} {u}")
     if report is not None:
         facts.append(f"tight spots: {len(spots)}")
+    if toolpath is not None:
+        # the program's estimate, as in the G-code header and the batch table
+        facts.append(f"program: {toolpath.block_count} blocks")
+        facts.append(f"estimated cycle time {duration_text(toolpath.time)}")
+    elif report is not None:
+        # no program: one pass along the contour, without rapids or leads
         ct = getattr(report, "cycle_time", None)
         if ct is not None and math.isfinite(float(ct)):
-            facts.append(f"cycle time {float(ct):.1f} s")
-    if toolpath is not None:
-        facts.append(f"{toolpath.block_count} blocks")
+            facts.append(f"one pass along the contour {float(ct):.1f} s")
     fig.text(0.72, 0.32, "\n".join(facts), fontsize=11.5, va="top", family="DejaVu Sans", linespacing=1.6)
     fig.suptitle("pathgen: contour, tool path and tight spots", fontsize=15, x=0.06, ha="left", y=0.97)
     fig.text(0.06, 0.025, "CAUTION: " + CAUTION, fontsize=11, color="#b00020", weight="bold")
