@@ -244,3 +244,80 @@ def test_straight_stretch_is_one_line_and_circle_is_exact():
     np.testing.assert_allclose(np.hypot(*(tp.start[:, :2] - tp.center).T), 10.0, atol=1e-5)
     plate = contour_moves(_sample("plate"), tolerance=0.01)
     assert len(plate) == 8 and (plate.kind == LINE).all()
+
+
+def _polygon_outline(corners, step):
+    """Points every ``step`` mm along a closed polygon (its corners exact)."""
+    corners = np.asarray(corners, dtype=np.float64)
+    pts = []
+    for p0, p1 in zip(corners, np.roll(corners, -1, axis=0)):
+        k = max(1, int(np.ceil(np.hypot(*(p1 - p0)) / step)))
+        pts.append(p0 + (p1 - p0) * (np.arange(k) / k)[:, None])
+    return np.vstack(pts)
+
+
+def test_corner_past_the_seam_is_seen_from_the_side_asked_for():
+    # A closed outline's corner one or more periods away (windows after the
+    # seam run past the last break) must give the incoming edge's direction
+    # from the left and the outgoing one from the right.  Reference: the
+    # polygon's own edge directions (plane geometry).
+    from pathgen.outline import fit_outline
+    from pathgen.path.measure import unit_tangent_side
+    from pathgen.points import clean_points
+
+    poly = np.array([[0.0, 0.0], [37.3, 0.0], [41.9, 13.7], [29.1, 31.3], [3.7, 26.9], [-6.1, 11.3]])
+    c = fit_outline(clean_points(_polygon_outline(poly, 1.7), closed=True))
+    assert len(c.corners) == len(poly)
+    b = c.breaks
+    period = b[-1] - b[0]
+    edges = np.diff(np.vstack([poly, poly[:1]]), axis=0)
+    edges /= np.hypot(*edges.T)[:, None]
+    for i, k in enumerate(sorted(c.corners)):
+        at = c(b[k])
+        j = int(np.argmin(np.hypot(*(poly - at).T)))  # which polygon corner
+        incoming, outgoing = edges[j - 1], edges[j]
+        for shift in (-2, -1, 1, 2, 3):
+            t = np.array([b[k] + shift * period])
+            np.testing.assert_allclose(unit_tangent_side(c, t, left=True)[0], incoming, atol=1e-9)
+            np.testing.assert_allclose(unit_tangent_side(c, t, left=False)[0], outgoing, atol=1e-9)
+
+
+def test_straight_window_with_tangent_ends_is_one_line():
+    # An offset window along a straight edge between two corners ends along
+    # the curve's tangent; the band fit must give one line there (rounding
+    # leaves a curvature of ~1e-17/mm, and an arc of that radius is no line:
+    # its measured deviation is garbage and the fit falls back).
+    from pathgen.outline import fit_outline
+    from pathgen.path.arcfit import _fit_window
+    from pathgen.points import clean_points
+
+    poly = np.array([[0.0, 0.0], [37.3, 0.0], [41.9, 13.7], [29.1, 31.3], [3.7, 26.9], [-6.1, 11.3]])
+    c = fit_outline(clean_points(_polygon_outline(poly, 1.7), closed=True))
+    b = c.breaks
+    ks = sorted(c.corners) + [sorted(c.corners)[0] + c.pieces]
+    for k0, k1 in zip(ks[:-1], ks[1:]):
+        t0 = b[k0]
+        t1 = b[k1] if k1 < len(b) else b[k1 - c.pieces] + (b[-1] - b[0])
+        chain, restarts = _fit_window(c, t0, t1, -3.0, 0.002, 0.97, False)
+        assert len(chain) == 1 and chain.kind[0] == LINE and restarts == 0
+
+
+def test_splitting_that_makes_no_progress_stops_with_a_clear_error(monkeypatch):
+    # A span that fails however short it gets must end the split rounds
+    # with an error naming the spot, not double the spans every round.
+    import pathgen.path.flatten as flatten
+    from pathgen.errors import PathgenError
+
+    th = np.linspace(0, 2 * np.pi, 200, endpoint=False)
+    c = fit(np.c_[30 * np.cos(th), 20 * np.sin(th)], closed=True)
+    real, calls = flatten._build, []
+
+    def refuse_near_zero(contour, ta, tb, d, tol, moves):
+        calls.append(len(ta))
+        chain, span, ok = real(contour, ta, tb, d, tol, moves)
+        return chain, span, ok & ~((ta <= 1.0) & (tb >= 1.0))  # any span over t = 1 "fails"
+
+    monkeypatch.setattr(flatten, "_build", refuse_near_zero)
+    with pytest.raises(PathgenError, match="could not approximate"):
+        approximate(c, np.array([[0.0, c.breaks[-1]]]), 0.0, 0.01, moves="arcs")
+    assert len(calls) < 30 and max(calls) < 1000

@@ -488,6 +488,8 @@ def _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end):
     # a single move when it already ends along the curve's tangent
     w = X[-1] - S
     kk = 2.0 * _dot(w, _left(T)) / max(_dot(w, w), 1e-300)
+    if abs(kk) * np.hypot(*w) <= 1.02e-4:
+        kk = 0.0  # radius huge against the chord (a straight window): a line
     E, TE, C = _arc_end(S[None], T[None], np.array([kk]), X[-1:])
     col = n - 1 - i0 - 1
     if (col < 0 or rl[0, col] <= kk <= rh[0, col]) and _angle(TE, Tb[None])[0] < _KINK:

@@ -44,6 +44,8 @@ TARGET = 0.99
 _C_ARC = 400.0
 _BOOSTS = 3
 _MAX_SPLITS = 60
+#: split rounds in a row without progress before giving up
+_STUCK_ROUNDS = 8
 _MERGE_ROUNDS = 16
 _FINAL_DENSITY = 4
 
@@ -208,9 +210,16 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
     dev = np.where(ok, _measure(contour, chain, span, len(ta), d, tol, moves), dev)
     fail = (dev > target) | ~ok
     splits = 0
+    best, stuck = (np.inf, np.inf), 0
     while np.any(fail):
         splits += 1
-        if splits > _MAX_SPLITS:
+        # splitting must make progress: fewer failing spans or a smaller
+        # worst deviation; a span that fails however short it gets (a biarc
+        # that cannot follow there) would otherwise double every round
+        now = (int(fail.sum()), float(np.where(ok, dev, np.inf)[fail].max()))
+        stuck = 0 if (now[0] < best[0] or now[1] < 0.99 * best[1]) else stuck + 1
+        best = (min(best[0], now[0]), min(best[1], now[1]))
+        if splits > _MAX_SPLITS or stuck >= _STUCK_ROUNDS:
             i = int(np.argmax(fail))
             at = eval_side(contour, np.array([ta[i]]), 0, left=False)[0]
             raise PathgenError(

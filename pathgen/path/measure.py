@@ -99,7 +99,14 @@ def eval_side(contour, t, nu: int, *, left: bool) -> np.ndarray:
     b = contour.breaks
     if contour.closed:
         period = b[-1] - b[0]
-        t = b[0] + np.mod(t - b[0], period)
+        wrapped = b[0] + np.mod(t - b[0], period)
+        # a break a period or more away (a corner past the seam) comes back
+        # onto the break only to rounding: snap it, or the side chosen
+        # below would be the wrong one by a hair
+        j = np.clip(np.searchsorted(b, wrapped), 1, len(b) - 1)
+        j = np.where(wrapped - b[j - 1] < b[j] - wrapped, j - 1, j)
+        slack = 64.0 * np.finfo(np.float64).eps * (np.abs(t) + abs(b[0]) + period)
+        t = np.where(np.abs(wrapped - b[j]) <= slack, b[j], wrapped)
         if left:
             t = np.where(t <= b[0], b[-1], t)
     idx = np.searchsorted(b, t, side="left" if left else "right") - 1
