@@ -482,10 +482,10 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
             break
         count = len(drop)
         shown = ", ".join(where(i).rsplit(" ", 1)[-1] for i in drop[:5])
-        label = "lines" if nums is not None else "points"
+        what = "lines" if nums is not None else "points"
         more = f" and {count - 5} more" if count > 5 else ""
         steps.append(f"merged {count} repeated point{'s' if count > 1 else ''} into the "
-                     f"point before (closer than {tol:.3g} mm; {label} {shown}{more})")
+                     f"point before (closer than {tol:.3g} mm; {what} {shown}{more})")
         keep = np.ones(len(p), bool)
         keep[drop] = False
         p = p[keep]

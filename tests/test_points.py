@@ -240,6 +240,11 @@ def test_jump_warning_names_the_gap():
     assert o.warnings[0].startswith("array point 14: a gap of")
     assert "check that the points are in order" in o.warnings[0]
     assert clean_points(arc).warnings == ()
+    # with a repeated point merged first, the gap is still named
+    o = clean_points(np.vstack([pts[:3], pts[2:]]))
+    assert any("merged 1 repeated point" in s for s in o.steps)
+    assert len(o.warnings) == 1 and o.warnings[0].startswith("array point 14: a gap of")
+    assert "(point 15)" in o.warnings[0]
 
 
 def test_self_crossing_warned_as_shapely_says():
