@@ -27,7 +27,9 @@ Cleaning, each step recorded in ``Outline.steps``
     :class:`~pathgen.errors.InputError`: fewer than 2 distinct points,
     non-finite values, coordinates beyond ``MAX_COORD_MM``, closed outlines
     whose points all lie on one line.  Warned about (``Outline.warnings``):
-    a jump much longer than the typical spacing, a closed outline that
+    a jump much longer than the typical spacing, two points much closer
+    together than the typical spacing (a repeated probe reading: a curve
+    through both swings wide when they disagree), a closed outline that
     crosses itself.
 """
 
@@ -51,6 +53,7 @@ __all__ = [
     "MAX_COORD_MM",
     "MIN_SIZE_MM",
     "JUMP_RATIO",
+    "CROWD_RATIO",
     "MAX_LINE_CHARS",
 ]
 
@@ -63,6 +66,8 @@ MIN_SIZE_MM = 1e-6
 MAX_COORD_MM = 1e6
 #: A step longer than this many times the median step is reported.
 JUMP_RATIO = 10.0
+#: A step shorter than this fraction of the median step is reported.
+CROWD_RATIO = 0.05
 #: Longest line accepted in a text file of points (characters).
 MAX_LINE_CHARS = 1000
 
@@ -539,6 +544,16 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
                 f"{where(i)}: a gap of {d[i]:.4g} mm to the next point ({label(j)}), "
                 f"{d[i] / med:.0f}x the median spacing {med:.4g} mm{n_more}; check that "
                 "the points are in order along the outline (a long straight edge is fine)")
+        crowded = np.flatnonzero(d < CROWD_RATIO * med)
+        if len(crowded):
+            i = int(crowded[np.argmin(d[crowded])])
+            j = (i + 1) % len(p)
+            n_more = f" ({len(crowded)} such pairs)" if len(crowded) > 1 else ""
+            warnings.append(
+                f"{where(i)}: only {d[i]:.4g} mm to the next point ({label(j)}), "
+                f"1/{med / d[i]:.0f} of the median spacing {med:.4g} mm{n_more}; a curve through "
+                "two points this close swings wide when they disagree (a repeated reading?): "
+                "drop one, or smooth (--smooth)")
     if closed and check_crossing and len(p) >= 4:
         import shapely
 

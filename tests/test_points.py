@@ -339,3 +339,28 @@ def test_inline_comments_in_both_parses(tmp_path):
         o = read_points(tmp_path / name)
         np.testing.assert_array_equal(o.points, [[0, 0], [10, 0], [10, 5]])
     assert read_points(tmp_path / "slow.csv").line_numbers.tolist() == [3, 4, 5]
+
+
+def test_crowded_points_warned():
+    # Two readings 7 µm apart on a circle probed every 1.05 mm, the second
+    # 4 µm inside the first: the interpolating curve swings about 0.1 mm
+    # wide over several mm (measured against the R 20 circle, handbook
+    # geometry), so the reader says where they are.
+    from pathgen.outline import fit_outline
+
+    th = np.linspace(0, 2 * np.pi, 120, endpoint=False)
+    p = np.c_[20 * np.cos(th), 20 * np.sin(th)]
+    along = np.array([-np.sin(th[30]), np.cos(th[30])])
+    p = np.insert(p, 31, p[30] + 0.006 * along - 0.004 * p[30] / 20, axis=0)
+    o = clean_points(p, closed=True)
+    assert len(o.warnings) == 1
+    assert o.warnings[0].startswith("array point 30: only 0.007211 mm to the next point (point 31)")
+    assert "1/145 of the median spacing" in o.warnings[0]
+    c = fit_outline(o)
+    swing = np.abs(np.hypot(*c(np.linspace(*c.domain, 20001)).T) - 20.0).max()
+    assert swing > 0.05
+    # the same circle without the second reading: no warning, no swing
+    o = clean_points(np.delete(p, 31, axis=0), closed=True)
+    assert o.warnings == ()
+    c = fit_outline(o)
+    assert np.abs(np.hypot(*c(np.linspace(*c.domain, 20001)).T) - 20.0).max() < 1e-4

@@ -47,6 +47,30 @@ def _curvature(contour, t):
     return (d1[..., 0] * d2[..., 1] - d1[..., 1] * d2[..., 0]) / np.hypot(d1[..., 0], d1[..., 1]) ** 3
 
 
+def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndarray:
+    """Sorted parameters over [lo, hi]: every break (unwrapped past the seam
+    of a closed contour) and 2 to 8 even sub-steps on every piece (fewer
+    on very many pieces, keeping about ``most`` values).
+
+    Every break is on the grid: where two points lie very close together
+    the piece between them is short and its curvature can peak sharply at
+    its ends, far inside one step of an even grid.
+    """
+    b = contour.breaks
+    if contour.closed:
+        period = b[-1] - b[0]
+        k0 = int(np.floor((lo - b[0]) / period))
+        k1 = int(np.ceil((hi - b[0]) / period))
+        bb = np.concatenate([b[:-1] + k * period for k in range(k0, k1 + 1)])
+    else:
+        bb = b
+    bb = bb[(bb > lo) & (bb < hi)]
+    edges = np.concatenate([[lo], bb, [hi]])
+    sub = int(np.clip(most // max(len(edges) - 1, 1), 2, 8))
+    g = (edges[:-1, None] + np.diff(edges)[:, None] * (np.arange(sub) / sub)).ravel()
+    return np.append(g, hi)
+
+
 def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
     """Windows [a, b] of [lo, hi] split at corners, without unreachable stretches.
 
@@ -70,10 +94,7 @@ def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
                 cuts.append((float(t), float(t), ("corner", float(t))))
     spots = []
     if d != 0.0:
-        # grid: every break (unwrapped) plus 8 sub-steps
-        n = max(8, int(np.ceil(8 * contour.pieces * (hi - lo) / (b[-1] - b[0]))))
-        n = min(n, 2_000_000)
-        g = np.linspace(lo, hi, n + 1)
+        g = _break_grid(contour, lo, hi)
         f = 1.0 - d * _curvature(contour, g) - _EPS_REG
         bad = f <= 0
         if np.any(bad):
