@@ -321,3 +321,33 @@ def test_splitting_that_makes_no_progress_stops_with_a_clear_error(monkeypatch):
     with pytest.raises(PathgenError, match="could not approximate"):
         approximate(c, np.array([[0.0, c.breaks[-1]]]), 0.0, 0.01, moves="arcs")
     assert len(calls) < 30 and max(calls) < 1000
+
+
+def test_windows_leave_out_a_curvature_spike_between_close_readings():
+    # Farouki & Neff (SOURCES §9): the offset P + d·N is regular only where
+    # 1 - dκ > 0.  Four readings within 0.04 mm on a circle probed every
+    # 1.5 mm (a few µm apart radially) make the interpolating curve bend
+    # to a 0.017 mm radius over a few µm of its length; every parameter
+    # where 1 - dκ <= 0 must lie outside the windows the path is built on.
+    from pathgen.outline import fit_outline
+    from pathgen.points import clean_points
+
+    R = 45.0
+    s = np.arange(0, 2 * np.pi * R, 1.5)
+    s0 = np.pi / 2 * R
+    keep = np.abs(s - s0 - 0.02) > 0.2
+    ss = np.concatenate([s[keep], s0 + np.array([0.0, 0.0281, 0.0358, 0.0400])])
+    dr = np.concatenate([np.zeros(keep.sum()), [0.0, 0.0020, 0.0021, 0.0031]])
+    order = np.argsort(ss)
+    th, rr = ss[order] / R, R + dr[order]
+    c = fit_outline(clean_points(np.c_[rr * np.cos(th), rr * np.sin(th)], closed=True))
+    b = c.breaks
+    t = np.unique(np.concatenate([np.linspace(*c.domain, 200001),
+                                  (b[:-1, None] + np.diff(b)[:, None] * np.linspace(0, 1, 201)).ravel()]))
+    d = -6.0  # a 12 mm tool outside
+    irregular = t[1.0 - d * c.curvature(t) <= 0.0]
+    assert len(irregular) > 100
+    windows, _, spots = regular_windows(c, d, *c.domain, 0.002)
+    for a, z in windows:
+        assert not np.any((irregular > a) & (irregular < z))
+    assert len(spots) >= 1
