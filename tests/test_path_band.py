@@ -351,3 +351,26 @@ def test_windows_leave_out_a_curvature_spike_between_close_readings():
     for a, z in windows:
         assert not np.any((irregular > a) & (irregular < z))
     assert len(spots) >= 1
+
+
+def test_windows_leave_out_an_irregular_stretch_just_before_a_corner():
+    # Farouki & Neff (SOURCES §9) again, at a corner: the curve is evaluated
+    # on the piece after a corner, so the end of the piece before it must be
+    # looked at too.  tests/data/regress/wiggly_corners.csv (a random wiggly
+    # outline with close readings, 383 points, 16 corners) bends the wrong
+    # way in the last 0.005 of a 0.046-long piece before a corner; with a
+    # 6 mm tool inside, that stretch is irregular and must not be in a window.
+    from pathgen.outline import fit_outline
+
+    c = fit_outline(read_points(pathlib.Path(__file__).parent / "data" / "regress" / "wiggly_corners.csv",
+                                closed=True))
+    b = c.breaks
+    d = 3.0
+    t = np.linspace(*c.domain, 400001)
+    ends = (b[:-1, None] + np.diff(b)[:, None] * np.linspace(0.9, 1.0, 101)[None, :-1]).ravel()
+    t = np.concatenate([t, ends])
+    irregular = t[1.0 - d * c.curvature(t) <= 0.0]
+    assert len(irregular) > 0
+    windows, _, _ = regular_windows(c, d, *c.domain, 0.002)
+    for a, z in windows:
+        assert not np.any((irregular > a) & (irregular < z))

@@ -220,11 +220,14 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
         stuck = 0 if (now[0] < best[0] or now[1] < 0.99 * best[1]) else stuck + 1
         best = (min(best[0], now[0]), min(best[1], now[1]))
         if splits > _MAX_SPLITS or stuck >= _STUCK_ROUNDS:
-            i = int(np.argmax(fail))
+            # the worst failing span: one whose arcs cannot follow the
+            # path at all first, else the largest measured deviation
+            i = int(np.argmax(np.where(fail, np.where(ok, dev, np.inf), -np.inf)))
             at = eval_side(contour, np.array([ta[i]]), 0, left=False)[0]
+            why = f"measured {dev[i]:.3g} mm" if ok[i] else "arcs cannot follow it there"
             raise PathgenError(
                 f"could not approximate the path within tolerance {tol:g} mm near "
-                f"({at[0]:.4f}, {at[1]:.4f}) (measured {dev[i]:.3g} mm)"
+                f"({at[0]:.4f}, {at[1]:.4f}) ({why})"
             )
         k = np.where(fail, np.where(ok, np.clip(np.ceil((dev / target) ** (1.0 / p) * 1.05), 2, 16), 2), 1)
         k = k.astype(np.int64)

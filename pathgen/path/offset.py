@@ -50,7 +50,8 @@ def _curvature(contour, t):
 def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndarray:
     """Sorted parameters over [lo, hi]: every break (unwrapped past the seam
     of a closed contour) and 2 to 8 even sub-steps on every piece (fewer
-    on very many pieces, keeping about ``most`` values).
+    on very many pieces, keeping about ``most`` values); on a contour with
+    corners also the very end of every piece.
 
     Every break is on the grid: where two points lie very close together
     the piece between them is short and its curvature can peak sharply at
@@ -67,7 +68,12 @@ def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndar
     bb = bb[(bb > lo) & (bb < hi)]
     edges = np.concatenate([[lo], bb, [hi]])
     sub = int(np.clip(most // max(len(edges) - 1, 1), 2, 8))
-    g = (edges[:-1, None] + np.diff(edges)[:, None] * (np.arange(sub) / sub)).ravel()
+    steps = np.arange(sub) / sub
+    if contour.corners:
+        # at a corner the curve is evaluated on the piece after it: add the
+        # end of the piece before it (its curvature there is another one)
+        steps = np.append(steps, 1.0 - 1e-6)
+    g = (edges[:-1, None] + np.diff(edges)[:, None] * steps).ravel()
     return np.append(g, hi)
 
 
@@ -248,6 +254,8 @@ def _on(chain, i, pts, eps):
     if chain.kind[i] == LINE:
         ab = e - s
         L2 = ab @ ab
+        if L2 == 0.0:  # a line of no length: only its point
+            return np.hypot(*(pts - s).T) <= eps
         u = (pts - s) @ ab / L2
         L = np.sqrt(L2)
         return (u >= -eps / L) & (u <= 1 + eps / L)
@@ -282,7 +290,7 @@ def _intersections(chain, i, j, eps):
         f = p - c
         a, bq, cq = v @ v, 2 * f @ v, f @ f - r * r
         disc = bq * bq - 4 * a * cq
-        if disc >= 0:
+        if disc >= 0 and a > 0:  # a line of no length crosses nothing
             for sgn in (-1, 1):
                 out.append(p + (-bq + sgn * np.sqrt(disc)) / (2 * a) * v)
     else:
