@@ -40,6 +40,9 @@ from .model import ARC_CCW, ARC_CW, LINE
 __all__ = ["regular_windows", "assemble", "distance_to_contour", "unique_spots"]
 
 _EPS_REG = 1e-3
+#: The end of every refusal: what the user can do.  Noise in digitized
+#: points makes tiny concave wiggles that no tool of any size follows.
+_ADVICE = "use a smaller tool, or smooth the points if they are noisy"
 
 
 def _curvature(contour, t):
@@ -445,7 +448,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     if np.all(bad[alive]):
         raise InputError(
             f"the tool (radius {r:g} mm) does not fit: every part of its path comes closer "
-            "to the contour than its radius"
+            f"to the contour than its radius; {_ADVICE}"
         )
     idx = np.flatnonzero(bad)
     runs = np.split(idx, np.flatnonzero(np.diff(idx) > 1) + 1) if len(idx) else []
@@ -466,7 +469,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
             x0 = ke[a_idx[-1]] if a_idx else ks[j0]
             raise InputError(
                 f"the tool (radius {r:g} mm) cannot pass near ({x0[0]:.4f}, {x0[1]:.4f}): "
-                "its path splits there; use a smaller tool"
+                f"its path splits there; {_ADVICE}"
             )
         ia, ib, x = found
         between = range(ia + 1, ib if ib > ia else ib + k)
@@ -477,7 +480,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     cut = cut.take(_lengths(cut) > 1e-9)
     if len(cut) == 0:
         raise InputError(
-            f"the tool (radius {r:g} mm) does not fit: nothing of its path stays clear of the contour"
+            f"the tool (radius {r:g} mm) does not fit: nothing of its path stays clear of the contour; {_ADVICE}"
         )
     cut = _bridge(cut, closed)
     # 3. whatever still crosses itself (loops the steps above left, e.g.
@@ -492,7 +495,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
         x = pts[worst]
         raise InputError(
             f"the tool (radius {r:g} mm) path would cut {r - dd[worst]:.4f} mm into the part near "
-            f"({x[0]:.4f}, {x[1]:.4f}) after trimming; use a smaller tool"
+            f"({x[0]:.4f}, {x[1]:.4f}) after trimming; {_ADVICE}"
         )
     return cut, unique_spots(spots + more, tol)
 
@@ -575,7 +578,7 @@ def _remove_loops(chain, closed, dist, r, tol, max_rounds=200):
         x = spots[-1] if spots else _spot(before.start[0], "overlap")
         raise InputError(
             f"the tool (radius {r:g} mm) path could not be trimmed into one simple path near "
-            f"({x['x']:.4f}, {x['y']:.4f}); use a smaller tool"
+            f"({x['x']:.4f}, {x['y']:.4f}); {_ADVICE}"
         )
     return chain, spots
 
