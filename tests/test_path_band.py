@@ -374,3 +374,20 @@ def test_windows_leave_out_an_irregular_stretch_just_before_a_corner():
     windows, _, _ = regular_windows(c, d, *c.domain, 0.002)
     for a, z in windows:
         assert not np.any((irregular > a) & (irregular < z))
+
+
+def test_every_move_has_a_length_and_a_direction():
+    # tests/data/regress/restart_at_end.csv (a random closed outline): the
+    # arc fit once returned to the curve exactly at a window's end and then
+    # added a move of no length there; cut on the line from the flattest
+    # spot, the path's last move had no direction and its lead-out none.
+    from pathgen.outline import fit_outline
+
+    c = fit_outline(read_points(pathlib.Path(__file__).parent / "data" / "regress" / "restart_at_end.csv",
+                                closed=True))
+    tp = make_toolpath(c, Tool(1.0), Cut(side="on", tolerance=0.1), moves="arcs")
+    length = np.linalg.norm(tp.end - tp.start, axis=1)  # plunges move in z only
+    cutting = tp.kind != RAPID
+    assert np.all(length[cutting] > 1e-6)
+    assert np.all(np.isfinite(tp.start)) and np.all(np.isfinite(tp.end))
+    assert tp.deviation <= 0.1

@@ -471,6 +471,8 @@ def _collect(node, end, X):
 def _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end):
     """Moves from the state to the window's end, or None."""
     n, X, t = band.n, band.X, band.t
+    if i0 >= n - 1 and i0 > 0:
+        return []  # a restart already ended on the window's end, along its tangent
     if free_end:
         # one arc through q(b), any end tangent
         w = X[-1] - S

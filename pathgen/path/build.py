@@ -32,7 +32,7 @@ import numpy as np
 from .._options import MM_PER_INCH, UNITS, check_option, check_positive, side_sign
 from ..errors import InputError
 from .arcfit import band_arcs
-from .flatten import MOVES, approximate
+from .flatten import MOVES, _drop_tiny, approximate
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from .offset import assemble, regular_windows, unique_spots
@@ -146,7 +146,7 @@ def contour_moves(contour, *, tolerance: float, moves: str = "arcs") -> Toolpath
     lo, hi = contour.domain
     windows, joins, _ = regular_windows(contour, 0.0, lo, hi)
     parts, dev, stats = _approximate_all(contour, windows, 0.0, tol, moves)
-    chain = _close(Chain.concat(parts), contour.closed)
+    chain = _close(_drop_tiny(Chain.concat(parts)), contour.closed)
     kind, s, e, c, f = _chain_toolpath(chain, 0.0, 0.0)
     return Toolpath(kind, s, e, c, f, units="mm", tool_diameter=0.0, side="on",
                     tolerance=tol, deviation=dev, time=0.0,
@@ -356,7 +356,9 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     windows, joins, spots = regular_windows(contour, d, lo, hi, tol)
     parts, dev, stats = _approximate_all(contour, windows, d, tol, moves)
     chain, trims = assemble(contour, parts, joins, d, tol, closed=contour.closed)
-    chain = _close(chain, contour.closed)
+    # a move without length (a window that ended where its last move did)
+    # has no direction: the leads and the G-code need one
+    chain = _close(_drop_tiny(chain), contour.closed)
     if target is not None:
         chain = _start_at(chain, target)
     spots = unique_spots(spots + trims, tol)
