@@ -42,7 +42,7 @@ from pathgen.path.build import make_toolpath  # noqa: E402
 
 
 def cases(seed: int):
-    """Endless stream of (number, points, closed, tool, side, moves, tolerance)."""
+    """Endless stream of (number, points, closed, tool, side, moves, tolerance, noise)."""
     rng = np.random.default_rng(seed)
     i = 0
     while True:
@@ -58,12 +58,13 @@ def cases(seed: int):
         k = int(rng.integers(1, 8))
         r = 20 + sum(rng.uniform(0, 4) * np.cos(j * th + rng.uniform(0, 6)) for j in range(1, k + 1))
         p = np.c_[r * np.cos(th), r * np.sin(th)] * rng.uniform(0.2, 5)
-        p = p + rng.normal(0, rng.choice([0, 0.001, 0.01, 0.05]), p.shape)
+        noise = float(rng.choice([0, 0.001, 0.01, 0.05]))
+        p = p + rng.normal(0, noise, p.shape)
         tool = float(rng.choice([0, 1, 3, 6, 12]))
         side = str(rng.choice(["outside", "inside", "on"]))
         moves = str(rng.choice(["arcs", "lines"]))
         tol = float(rng.choice([0.1, 0.01, 0.002]))
-        yield i, p, closed, tool, side, moves, tol
+        yield i, p, closed, tool, side, moves, tol, noise
 
 
 class _Slow(Exception):
@@ -105,7 +106,7 @@ def main() -> None:
     a = ap.parse_args()
     counts = collections.Counter()
     t_end = time.time() + a.seconds
-    for i, p, closed, tool, side, moves, tol in cases(a.seed):
+    for i, p, closed, tool, side, moves, tol, noise in cases(a.seed):
         if a.case is not None and i < a.case:
             continue
         t0 = time.perf_counter()
@@ -114,7 +115,7 @@ def main() -> None:
         kind = got.split(":")[0]
         counts[kind] += 1
         what = (f"seed {a.seed} case {i}: {len(p)} points, {'closed' if closed else 'open'}, "
-                f"tool {tool:g} mm {side}, {moves}, tolerance {tol:g} mm")
+                f"noise {noise:g} mm, tool {tool:g} mm {side}, {moves}, tolerance {tol:g} mm")
         if a.case is not None:
             print(f"{what}\n  {got}\n  {dt:.2f} s")
             return
