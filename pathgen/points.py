@@ -535,25 +535,23 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
     d = np.hypot(*np.diff(q, axis=0).T)
     if len(d) >= 4:
         med = float(np.median(d))
+
+        def odd_step(found, i, what, ratio, plural, advice):
+            n_more = f" ({len(found)} such {plural})" if len(found) > 1 else ""
+            warnings.append(f"{where(i)}: {what} to the next point ({label((i + 1) % len(p))}), "
+                            f"{ratio} the median spacing {med:.4g} mm{n_more}; {advice}")
+
         jumps = np.flatnonzero(d > JUMP_RATIO * med)
         if len(jumps):
             i = int(jumps[np.argmax(d[jumps])])
-            j = (i + 1) % len(p)
-            n_more = f" ({len(jumps)} such gaps)" if len(jumps) > 1 else ""
-            warnings.append(
-                f"{where(i)}: a gap of {d[i]:.4g} mm to the next point ({label(j)}), "
-                f"{d[i] / med:.0f}x the median spacing {med:.4g} mm{n_more}; check that "
-                "the points are in order along the outline (a long straight edge is fine)")
+            odd_step(jumps, i, f"a gap of {d[i]:.4g} mm", f"{d[i] / med:.0f}x", "gaps",
+                     "check that the points are in order along the outline (a long straight edge is fine)")
         crowded = np.flatnonzero(d < CROWD_RATIO * med)
         if len(crowded):
             i = int(crowded[np.argmin(d[crowded])])
-            j = (i + 1) % len(p)
-            n_more = f" ({len(crowded)} such pairs)" if len(crowded) > 1 else ""
-            warnings.append(
-                f"{where(i)}: only {d[i]:.4g} mm to the next point ({label(j)}), "
-                f"1/{med / d[i]:.0f} of the median spacing {med:.4g} mm{n_more}; a curve through "
-                "two points this close swings wide when they disagree (a repeated reading?): "
-                "drop one, or smooth (--smooth)")
+            odd_step(crowded, i, f"only {d[i]:.4g} mm", f"1/{med / d[i]:.0f} of", "pairs",
+                     "a curve through two points this close swings wide when they disagree "
+                     "(a repeated reading?): drop one, or smooth (--smooth)")
     if closed and check_crossing and len(p) >= 4:
         import shapely
 
