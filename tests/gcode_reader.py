@@ -193,7 +193,7 @@ def read(text: str, *, initial=(None, None, None)) -> Program:
                 raise GcodeError(f"line {lineno}: motion before G40 (tool-center path needs compensation off)")
             if motion is None:
                 raise GcodeError(f"line {lineno}: axis words without a motion mode")
-            if not axes:  # G0 and G1 need at least one axis word (rule per SOURCES.md §6; section number from memory)
+            if not axes:  # G0 and G1 need at least one axis word (sources: nistir-6556; section number from memory)
                 raise GcodeError(f"line {lineno}: G{motion} without an axis word")
             start = tuple(pos)
             end = [axes.get(a, pos[i]) for i, a in enumerate("XYZ")]

@@ -69,7 +69,7 @@ def wedge(theta, L=20.0):
 @pytest.mark.parametrize("diameter, reach", [(9.0, True), (7.0, False)])
 def test_hole_smaller_than_the_tool(diameter, reach):
     # Geometry / NISTIR 6556's "tool radius not less than arc radius" rule
-    # (SOURCES §9): cutting inside a circle of radius 4, a tool of radius
+    # (sources: tool-radius-rule): cutting inside a circle of radius 4, a tool of radius
     # 4.5 cannot reach; radius 3.5 can.
     rep = check(circle(4.0), FAST, Tool(diameter), Cut(side="inside"))
     assert rep.tool_cannot_reach is reach
@@ -114,7 +114,7 @@ def test_ellipse_tight_spots_at_the_major_axis_ends():
         assert 0 < t.material_left < 14.0 - b * b / a
     assert rep.min_radius.radius == pytest.approx(b * b / a, rel=1e-4)
     assert rep.largest_tool_diameter == pytest.approx(2 * b * b / a, rel=1e-4)
-    # the perimeter: 4·a·E(1 - b²/a²) with scipy.special.ellipe (SOURCES, oracle 3)
+    # the perimeter: 4·a·E(1 - b²/a²) with scipy.special.ellipe (sources: ellipe)
     assert rep.length == pytest.approx(4 * a * ellipe(1 - b * b / (a * a)), rel=1e-8)
     # the spot at (-a, 0) lies half way round from the start at (a, 0)
     left = min(reach, key=lambda t: t.x)
@@ -151,7 +151,7 @@ def test_material_left_in_a_sharp_inside_corner(theta_deg):
 def test_outside_corner_is_reached_and_slows_the_machine():
     # Geometry: on the other side the same corner points at the tool, which
     # rolls round it on an arc of radius r; the centripetal limit there is
-    # 60·√(a·r) (SOURCES §8).
+    # 60·√(a·r) (sources: centripetal-limit).
     r = 3.0
     m = Machine(max_feed=3000, max_accel=500, block_rate=1e6)
     rep = check(wedge(math.radians(90)), m, Tool(2 * r), Cut(side="inside", feed=3000))
@@ -170,11 +170,11 @@ def test_square_outside_and_inside():
     out = check(sq, m, Tool(2 * r), Cut(side="outside", feed=3000))
     assert len(out.corners) == 4 and all(c[3] == pytest.approx(90.0) for c in out.corners)
     assert not out.tool_cannot_reach
-    # Steiner (SOURCES §9): the outer offset of a convex outline is P + 2πr long
+    # Steiner (sources: steiner): the outer offset of a convex outline is P + 2πr long
     assert out.path_length == pytest.approx(160.0 + 2 * math.pi * r, rel=1e-12)
     accel = [t for t in out.tight_spots if t.reason == "accel"]
     assert len(accel) == 4
-    # SOURCES §8: round each corner the tool center runs an arc of radius r
+    # (sources: steiner) round each corner the tool center runs an arc of radius r
     for t in accel:
         assert t.allowed_feed == pytest.approx(60 * math.sqrt(a * r), rel=1e-12)
         assert t.length == 0.0
@@ -225,7 +225,7 @@ def test_gap_narrower_than_the_tool():
 
 
 def test_acceleration_spot_and_max_constant_feed():
-    # SOURCES §8: on radius R the machine holds 60·√(a·R): R = 5, a = 1000
+    # (sources: centripetal-limit) on radius R the machine holds 60·√(a·R): R = 5, a = 1000
     # gives 4242.6 mm/min; a programmed 6000 mm/min is too fast all round.
     m = Machine(max_feed=10000, max_accel=1000, block_rate=1e6)
     rep = check(circle(5.0, n=600), m, Tool(0.0), Cut(side="on", feed=6000))
@@ -244,7 +244,7 @@ def test_acceleration_spot_and_max_constant_feed():
 
 
 def test_block_rate_spot():
-    # SOURCES §8: lines within e = 0.01 on R = 5 are 0.632 mm; at 100 blocks/s
+    # (sources: sagitta, block-rate) lines within e = 0.01 on R = 5 are 0.632 mm; at 100 blocks/s
     # that is 63.2 mm/s = 3793 mm/min, below the programmed 4000.
     m = Machine(max_feed=10000, max_accel=1e6, block_rate=100)
     rep = check(circle(5.0, n=600), m, Tool(0.0), Cut(side="on", feed=4000, tolerance=0.01))
@@ -359,7 +359,7 @@ def star(seed, n=150):
 @settings(max_examples=12, deadline=None)
 @given(seed=st.integers(0, 10_000), side=st.sampled_from(["outside", "inside"]))
 def test_largest_tool_is_the_reach_threshold(seed, side):
-    # Geometry (SOURCES §9 tool-radius rule): a tool 5 % larger than the
+    # Geometry (sources: tool-radius-rule): a tool 5 % larger than the
     # largest that reaches everywhere cannot reach somewhere; one 5 %
     # smaller meets no bend tighter than itself.
     c = star(seed)

@@ -19,7 +19,7 @@ def write(tmp_path, text, name="m.toml"):
 
 @pytest.mark.parametrize("name", ["router.toml", "mill.toml"])
 def test_sample_profiles_load_with_plausible_values(name):
-    # Plausibility ranges for small routers and mills (SOURCES §8 table,
+    # Plausibility ranges for small routers and mills (sources: machine-ranges,
     # common practice / from memory): accel 100-5000 mm/s², feeds
     # 0.5-20 m/min, block rates 100-5000 /s.
     m = load_machine(SAMPLES / name)

@@ -240,7 +240,7 @@ def test_gcode_on_every_sample_in_a_subprocess(sample, tmp_path):
 def test_hook_is_too_tight_for_6mm_but_not_for_2mm(tmp_path):
     # The hook's slot ends in a 2 mm radius (its construction in pathgen.demo,
     # measured ~1.4-2 mm on the noisy points): a 6 mm tool (r = 3) cannot reach
-    # it, a 2 mm tool (r = 1) can (tool-radius rule, SOURCES.md §9).
+    # it, a 2 mm tool (r = 1) can (tool-radius rule, sources: tool-radius-rule).
     hook = SAMPLES / "hook.csv"
     status, out, _ = call("check", hook, "--tool-diameter", "6")
     assert status == 1 and "tool cannot reach" in out

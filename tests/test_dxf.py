@@ -5,7 +5,7 @@ Sources beside the checks:
   construction tool (B-spline evaluator) and ``ezdxf.math.bulge_to_arc``.
 * scipy.interpolate.BSpline (reference library): an independent evaluator of
   the control points and knots.
-* DXF LWPOLYLINE rules as ezdxf documents them (SOURCES.md §7): bulge =
+* DXF LWPOLYLINE rules as ezdxf documents them (sources: dxf-bulge): bulge =
   tan(θ/4), positive counter-clockwise; group 70 bit 1 = closed; bulges
   90° → 0.41421356237309503, 180° → 1.
 * B-spline invariant (de Boor, A Practical Guide to Splines, from memory):
@@ -114,7 +114,7 @@ def _arc_path(sweeps_deg, R=10.0, ccw=True, z=0.0):
 
 @pytest.mark.parametrize("ccw", [True, False])
 def test_bulges_of_known_arcs(tmp_path, ccw):
-    # 90° → tan(π/8) = 0.41421356237309503, 180° → 1 (SOURCES.md §7, [num]);
+    # 90° → tan(π/8) = 0.41421356237309503, 180° → 1 (sources: dxf-bulge; recomputed);
     # 270° is drawn as two 135° halves, each tan(135°/4)
     arcs = _arc_path([90, 180, 270], ccw=ccw)
     write_dxf(tmp_path / "b.dxf", _ellipse(), arcs=arcs)
@@ -137,7 +137,7 @@ def test_full_turn_of_arcs_is_a_closed_polyline(tmp_path):
     write_dxf(tmp_path / "f.dxf", _ellipse(), arcs=_arc_path([90, 180, 90], ccw=False))
     _, msp = _read(tmp_path / "f.dxf")
     (lw,) = msp.query("LWPOLYLINE")
-    assert lw.closed and (lw.dxf.flags & 1) == 1 and len(lw) == 3  # group 70 bit 1 (SOURCES.md §7)
+    assert lw.closed and (lw.dxf.flags & 1) == 1 and len(lw) == 3  # group 70 bit 1 (sources: dxf-bulge)
     assert [p[2] for p in lw.get_points("xyb")] == pytest.approx([-0.41421356237309503, -1.0, -0.41421356237309503])
 
 

@@ -88,7 +88,7 @@ def test_chord_length_has_the_sagitta_of_the_tolerance():
 
 
 def test_centripetal_limit_on_a_circle():
-    # SOURCES §8 (a = v²/R): R = 5 mm, a = 1000 mm/s² allow 60·√(a·R) = 4242.6 mm/min.
+    # Centripetal limit a = v²/R (sources: centripetal-limit): R = 5 mm, a = 1000 mm/s² allow 60·√(a·R) = 4242.6 mm/min.
     plan = plan_feed(circle(5.0, n=600), Machine(max_feed=20000, max_accel=1000, block_rate=1e6),
                      Tool(0), Cut(feed=20000, side="on"))
     mid = slice(len(plan.limit) // 4, 3 * len(plan.limit) // 4)
@@ -107,7 +107,7 @@ def test_tool_center_radius_sets_the_limit(side, R_path):
 
 
 def test_block_rate_limit_on_a_circle():
-    # SOURCES §8: lines within the chord tolerance are L = 2√(e(2R - e)) long,
+    # (sources: sagitta) lines within the chord tolerance are L = 2√(e(2R - e)) long,
     # so v ≤ B·L: R = 5, e = 0.01, B = 250/s gives 60·250·0.63214 = 9482 mm/min.
     plan = plan_feed(circle(5.0, n=600), Machine(max_feed=20000, max_accel=1e6, block_rate=250),
                      Tool(0), Cut(feed=20000, side="on", tolerance=0.01))
@@ -150,7 +150,7 @@ def passes_by_loop(w_limit, step, a):
 
 
 def test_accumulate_passes_equal_the_sequential_recurrences():
-    # The forward/backward recurrences v²_{i+1} ≤ v²_i + 2aΔs (SOURCES §8)
+    # The forward/backward recurrences v²_{i+1} ≤ v²_i + 2aΔs (sources: time-optimal)
     # computed one by one, against the cumulative-minimum form.
     rng = np.random.default_rng(7)
     for _ in range(20):
@@ -195,7 +195,7 @@ def star(seed, n=120):
     side=st.sampled_from(["outside", "inside", "on"]),
 )
 def test_plan_properties_on_random_outlines(seed, accel, block_rate, feed, diameter, side):
-    # SOURCES §8, "Feed" oracle: the speed never exceeds a limit, the v²
+    # (sources: time-optimal, centripetal-limit) the speed never exceeds a limit, the v²
     # slope never exceeds 2a, and the time is at least length / feed.
     m = Machine(max_feed=6000, max_accel=accel, block_rate=block_rate)
     plan = plan_feed(star(seed), m, Tool(diameter), Cut(feed=feed, side=side))
@@ -220,7 +220,7 @@ def blocks_from_points(pts, z=0.0):
 
 
 def test_block_rate_on_short_segments():
-    # SOURCES §8: 0.1 mm segments at 1000 blocks/s allow 100 mm/s = 6000 mm/min.
+    # (sources: block-rate) 0.1 mm segments at 1000 blocks/s allow 100 mm/s = 6000 mm/min.
     x = np.arange(0, 1001) * 0.1
     kind, start, end, center = blocks_from_points(np.c_[x, np.zeros_like(x)])
     m = Machine(max_feed=20000, max_accel=1e6, block_rate=1000)
@@ -229,7 +229,7 @@ def test_block_rate_on_short_segments():
 
 
 def test_one_block_line_trapezoid_and_triangle():
-    # Kinematics (SOURCES §8): 2.1 s for 100 mm at 50 mm/s, a = 500;
+    # Kinematics (sources: time-optimal): 2.1 s for 100 mm at 50 mm/s, a = 500;
     # peak 22.36 mm/s and 0.08944 s for 1 mm.
     m = Machine(max_feed=3000, max_accel=500, block_rate=1e6)
     kind, start, end, center = blocks_from_points([[0, 0], [100, 0]])
@@ -254,14 +254,14 @@ def test_sharp_corner_stops_and_gentle_joints_do_not():
 
 
 def test_lines_round_a_circle_run_at_the_centripetal_limit():
-    # SOURCES §8: √(a·R) on radius R; lines inscribed in a circle of radius
+    # (sources: centripetal-limit) √(a·R) on radius R; lines inscribed in a circle of radius
     # 5 turn by the chord angle, which the joint speed reads as radius ≈ 5.
     th = np.linspace(0, 2 * np.pi, 721)
     pts = np.c_[5 * np.cos(th), 5 * np.sin(th)]
     kind, start, end, center = blocks_from_points(pts)
     m = Machine(max_feed=20000, max_accel=1000, block_rate=1e6)
     feeds, _ = feeds_for_moves(kind, start, end, center, feed=20000.0, machine=m)
-    # within 0.5 % of 60·√(a·R) = 4242.6 mm/min (SOURCES §8) ...
+    # within 0.5 % of 60·√(a·R) = 4242.6 mm/min (sources: centripetal-limit) ...
     assert np.median(feeds) == pytest.approx(4242.6, rel=5e-3)
     # ... and exactly what the joint model gives [der]: joints at √(a·L/θ),
     # each straight chord gains a·L in v² up to its middle
@@ -271,7 +271,7 @@ def test_lines_round_a_circle_run_at_the_centripetal_limit():
 
 
 def test_arc_block_limit_and_rapid_time():
-    # SOURCES §8: an arc of radius 5 at a = 1000 holds 4242.6 mm/min;
+    # (sources: centripetal-limit) an arc of radius 5 at a = 1000 holds 4242.6 mm/min;
     # kinematics: a 100 mm rapid at 6000 mm/min (100 mm/s), a = 1000, rest
     # to rest takes L/v + v/a = 1.1 s.
     m = Machine(max_feed=20000, max_accel=1000, block_rate=1e6, rapid_feed=6000)

@@ -9,7 +9,7 @@ Sources beside the checks:
   The interpreter in tests/gcode_reader.py is written from these rules.
 * Circle geometry (handbook): an offset of a circle of radius R by r is a
   concentric circle of radius R + r; sagitta s = R - sqrt(R^2 - L^2/4).
-* Rounding bound (SOURCES.md §6, derived): with q decimals the radius
+* Rounding bound (derived; sources: rounding): with q decimals the radius
   mismatch after rounding is at most 3*sqrt(2)*0.5*10^-q.
 """
 
@@ -62,7 +62,7 @@ def _replay_points(prog, step=0.02, cutting_only=True):
 # --------------------------------------------------------------------------- NIST example
 def test_nist_worked_example_through_reader_and_writer():
     # NISTIR 6556 §3.5.3.2 worked example: start (7, 7), G2 X10 Y16 I3 J4 gives
-    # center (10, 11) and radius 5 (clockwise sweep 143.130 deg, SOURCES.md §6 [num])
+    # center (10, 11) and radius 5 (clockwise sweep 143.130 deg, recomputed; sources: nistir-6556)
     text = "G21 G90 G17 G94 G40\nG0 X7 Y7 Z9\nG17 G2 x 10 y 16 i 3 j 4 z 9 F100\nM2\n"
     prog = gr.read(text)
     arc = prog.moves[-1]
@@ -164,7 +164,7 @@ def _random_toolpath(seed, n=300, units="mm"):
 
 def _bulge_center(p, q, bulge):
     # bulge = tan(theta/4); center at distance c(1 - b^2)/(4b) from the chord midpoint
-    # toward the left normal for b > 0 (DXF bulge geometry, SOURCES.md §7)
+    # toward the left normal for b > 0 (DXF bulge geometry; sources: dxf-bulge)
     chord = q - p
     c = np.hypot(*chord)
     left = np.array([-chord[1], chord[0]]) / c
@@ -280,7 +280,7 @@ def test_random_arcs_pass_the_radius_rule_after_rounding(pts, bulges, signs):
     for got, want in zip(arcs, moves):
         r0 = math.hypot(got.start[0] - got.center[0], got.start[1] - got.center[1])
         r1 = math.hypot(got.end[0] - got.center[0], got.end[1] - got.center[1])
-        assert abs(r0 - r1) <= 3 * math.sqrt(2) * 0.5e-4 + 1e-9  # rounding bound, SOURCES.md §6
+        assert abs(r0 - r1) <= 3 * math.sqrt(2) * 0.5e-4 + 1e-9  # rounding bound, sources: rounding
         assert got.g == (3 if want.ccw else 2)
 
 

@@ -92,7 +92,7 @@ def rounded_rectangle_points(w=60.0, h=30.0, r=6.0, step=0.5):
 
 # -- biarc construction ---------------------------------------------------------
 def test_biarc_reproduces_a_circle():
-    # SOURCES §5 check value: P1 = (1,0), T1 = (0,1), P2 = (cos 2, sin 2) with its
+    # Biarc check value (sources: bolton-1975): P1 = (1,0), T1 = (0,1), P2 = (cos 2, sin 2) with its
     # counter-clockwise tangent; the equal-chord joint is (cos 1, sin 1), both
     # centers (0, 0), radii 1 (biarc circle reproduction, Bolton 1975).
     p1, t1 = np.array([[1.0, 0.0]]), np.array([[0.0, 1.0]])
@@ -125,7 +125,7 @@ def test_biarc_joint_is_tangent_continuous(rng):
 
 
 def test_biarc_error_order_three_on_ellipse():
-    # Biarc approximation order 3 (SOURCES §5, Šír-Feichtinger-Jüttler 2006 [mem]);
+    # Biarc approximation order 3 (Šír, Feichtinger & Jüttler 2006, from memory; sources: sir-2006);
     # the table there (a = 3, b = 1, equal parameter pieces) gives 3.56e-4 at n = 32.
     a, b = 3.0, 1.0
     errs = []
@@ -146,7 +146,7 @@ def test_biarc_error_order_three_on_ellipse():
 
 # -- flattening counts ----------------------------------------------------------
 def test_lines_on_circle_match_the_chord_count():
-    # N = ceil(pi / acos(1 - e/R)) = 71 for R = 10, e = 0.01 (sagitta; SOURCES §4)
+    # N = ceil(pi / acos(1 - e/R)) = 71 for R = 10, e = 0.01 (sources: sagitta)
     c = fit(circle_points(10.0, 400), closed=True)
     tp = contour_moves(c, tolerance=0.01, moves="lines")
     n_ref = math.ceil(math.pi / math.acos(1 - 0.01 / 10.0))
@@ -165,7 +165,7 @@ def test_arcs_on_circle_are_a_handful_of_exact_arcs():
 
 
 def test_lines_near_the_asymptotic_minimum_on_ellipse():
-    # SOURCES §4 [num]: ellipse 3 x 2, e = 0.01: integral gives 34.50, greedy 35
+    # Recomputed (sources: levien-2019): ellipse 3 x 2, e = 0.01: integral gives 34.50, greedy 35
     c = fit(ellipse_points(3.0, 2.0, 400), closed=True)
     tp = contour_moves(c, tolerance=0.01, moves="lines")
     assert 35 <= len(tp) <= 1.1 * 34.50
@@ -222,7 +222,7 @@ def test_offset_arcs_are_tangent_continuous():
 
 
 def test_arcs_need_fewer_blocks_than_lines_on_an_ellipse():
-    # lines grow like e^(-1/2), arcs like e^(-1/3) (SOURCES §4, scaling only)
+    # lines grow like e^(-1/2), arcs like e^(-1/3) (scaling only; sources: arc-order)
     c = fit(ellipse_points(30.0, 20.0, 600), closed=True)
     n = {(mv, e): len(contour_moves(c, tolerance=e, moves=mv)) for mv in ("lines", "arcs") for e in (0.01, 0.0001)}
     assert n["lines", 0.01] >= 3 * n["arcs", 0.01]
@@ -235,7 +235,7 @@ def test_arcs_need_fewer_blocks_than_lines_on_an_ellipse():
 # -- offsets --------------------------------------------------------------------
 @pytest.mark.parametrize("side, radius", [("outside", 13.0), ("inside", 7.0)])
 def test_circle_offset_is_a_circle(side, radius):
-    # offset of a circle is a concentric circle R ± r (SOURCES §9)
+    # offset of a circle is a concentric circle R ± r (sources: farouki-neff-1990)
     c = fit(circle_points(10.0, 400), closed=True)
     tp = make_toolpath(c, Tool(6.0), Cut(side=side, tolerance=0.01), lead="none")
     ch = _cut_chain(tp)
@@ -258,8 +258,8 @@ def test_ellipse_offset_matches_true_offset(moves, side):
 
 
 def test_steiner_area_of_outer_offset():
-    # Steiner: A_r = A + P r + pi r^2 for a convex outline (SOURCES §9);
-    # A = pi a b, P = 4 a E(1 - b²/a²) with scipy.special.ellipe (SOURCES §3)
+    # Steiner: A_r = A + P r + pi r^2 for a convex outline (sources: steiner);
+    # A = pi a b, P = 4 a E(1 - b²/a²) with scipy.special.ellipe (sources: ellipe)
     from scipy.special import ellipe
 
     a, b, r, tol = 30.0, 20.0, 3.0, 0.001
@@ -275,7 +275,7 @@ def test_steiner_area_of_outer_offset():
 
 def test_shapely_buffer_cross_check():
     # shapely buffer as an independent offset; its polygonal arcs carry a sagitta
-    # of R(1 - cos(pi / (4 quad_segs))) (SOURCES §9), added to the tolerance
+    # of R(1 - cos(pi / (4 quad_segs))) (sources: shapely), added to the tolerance
     import shapely
 
     a, b, r, tol = 30.0, 20.0, 3.0, 0.01
@@ -326,7 +326,7 @@ def test_concave_corner_overlap_is_trimmed():
 
 
 def test_offset_of_a_biarc_is_exact():
-    # offset of an arc is a concentric arc R - d (ccw, d to the left) (SOURCES §9)
+    # offset of an arc is a concentric arc R - d (ccw, d to the left) (sources: farouki-neff-1990)
     from pathgen.path.biarc import biarc_chain, offset_chain
 
     th = np.array([0.0, 1.0, 2.5])
@@ -446,7 +446,7 @@ def test_leads_passes_and_heights(lead):
 
 
 def test_feeds_follow_the_machine_limits():
-    # centripetal limit v <= sqrt(a R), F = 60 v (SOURCES §8); programmed feed is a ceiling
+    # centripetal limit v <= sqrt(a R), F = 60 v (sources: centripetal-limit); programmed feed is a ceiling
     from pathgen.checks.machine import Machine
 
     c = fit(circle_points(5.0, 200), closed=True)

@@ -56,7 +56,7 @@ def _moves(tp, *, z=None):
 def _dense_curve(contour, d, tol):
     """Points of q = P + d·N, m steps per spline piece, and their chord bound.
 
-    Chord bound (SOURCES §4, Filip-Magedson-Markot 1986, from memory): a
+    Chord bound (Filip, Magedson & Markot 1986, from memory; sources: filip-1986): a
     step h strays from its chord by at most h²/8·max‖q''‖.  Steps never
     straddle a break (corners); q'' is taken from second differences inside
     each piece, doubled for safety.  Returns (points, bound).
@@ -107,12 +107,12 @@ def _sample_moves(chain, step):
             pts.append(s + (e - s) * (np.arange(m + 1) / m)[:, None])
             continue
         r, a0, sw = arc_geometry(s, e, chain.center[i], chain.kind[i] == ARC_CCW)
-        # at most ``step`` apart, and a sagitta of at most 1e-3·step/2 (both SOURCES §4)
+        # at most ``step`` apart, and a sagitta of at most 1e-3·step/2 (sources: sagitta)
         dphi = 2.0 * np.arccos(max(1.0 - 5e-4 * step / r, -1.0))
         m = max(int(np.ceil(abs(sw) * r / step)), int(np.ceil(abs(sw) / dphi)), 1)
         a = a0 + sw * np.arange(m + 1) / m
         pts.append(chain.center[i] + r * np.c_[np.cos(a), np.sin(a)])
-        sag = max(sag, r * (1.0 - np.cos(0.5 * abs(sw) / m)))  # sagitta, SOURCES §4
+        sag = max(sag, r * (1.0 - np.cos(0.5 * abs(sw) / m)))  # sagitta, sources: sagitta
     return np.vstack(pts), sag
 
 
@@ -193,7 +193,7 @@ def test_band_arcs_within_tolerance_and_tangent_continuous(name, tol):
                                         ("profile", "outside"), ("profile", "inside"),
                                         ("noisy ellipse", "outside"), ("noisy ellipse", "inside")])
 def test_offsets_stay_within_tolerance_of_the_true_offset(name, side):
-    # the tool center must follow P + d·N, d = ±r (Farouki & Neff 1990; SOURCES §9)
+    # the tool center must follow P + d·N, d = ±r (Farouki & Neff 1990; sources: farouki-neff-1990)
     c = _noisy_ellipse() if name == "noisy ellipse" else _sample(name)
     tol = 0.01
     tp = make_toolpath(c, Tool(6.0), Cut(side=side, tolerance=tol), lead="none")
@@ -225,7 +225,7 @@ def test_band_arcs_need_no_more_blocks_than_biarcs_or_lines(name):
 
 
 def test_noisy_ellipse_blocks_scale_like_arcs():
-    # arcs: count ∝ e^(-1/3) on smooth curves (SOURCES §4, scaling only); a
+    # arcs: count ∝ e^(-1/3) on smooth curves (scaling only; sources: arc-order); a
     # noisy outline needs more as the tolerance nears the noise, never fewer
     c = _noisy_ellipse()
     n = [len(contour_moves(c, tolerance=e, moves="arcs")) for e in (0.1, 0.01)]
@@ -235,7 +235,7 @@ def test_noisy_ellipse_blocks_scale_like_arcs():
 
 def test_straight_stretch_is_one_line_and_circle_is_exact():
     # a circle is reproduced by arcs of its own radius and center (circle
-    # reproduction, SOURCES §5: the minimax arc of co-circular samples is
+    # reproduction, sources: meek-walton: the minimax arc of co-circular samples is
     # their circle); a straight run between corners is one line: plate sides
     th = np.linspace(0, 2 * np.pi, 400, endpoint=False)
     c = fit(np.c_[10 * np.cos(th), 10 * np.sin(th)], closed=True)
@@ -324,7 +324,7 @@ def test_splitting_that_makes_no_progress_stops_with_a_clear_error(monkeypatch):
 
 
 def test_windows_leave_out_a_curvature_spike_between_close_readings():
-    # Farouki & Neff (SOURCES §9): the offset P + d·N is regular only where
+    # Farouki & Neff (sources: farouki-neff-1990): the offset P + d·N is regular only where
     # 1 - dκ > 0.  Four readings within 0.04 mm on a circle probed every
     # 1.5 mm (a few µm apart radially) make the interpolating curve bend
     # to a 0.017 mm radius over a few µm of its length; every parameter
@@ -354,7 +354,7 @@ def test_windows_leave_out_a_curvature_spike_between_close_readings():
 
 
 def test_windows_leave_out_an_irregular_stretch_just_before_a_corner():
-    # Farouki & Neff (SOURCES §9) again, at a corner: the curve is evaluated
+    # Farouki & Neff (sources: farouki-neff-1990) again, at a corner: the curve is evaluated
     # on the piece after a corner, so the end of the piece before it must be
     # looked at too.  tests/data/regress/wiggly_corners.csv (a random wiggly
     # outline with close readings, 383 points, 16 corners) bends the wrong

@@ -4,7 +4,7 @@ The programs written are replayed by the tests' own G-code reader
 (tests/gcode_reader.py, written from NISTIR 6556) and compared with
 geometry from outside the project: a circle's curvature 1/R and its
 offset, a concentric circle of radius R + r (offset curves: Farouki &
-Neff 1990; SOURCES.md §9).
+Neff 1990; sources: farouki-neff-1990).
 """
 
 from __future__ import annotations
@@ -231,7 +231,7 @@ def test_facts_come_from_the_report_when_checked():
 
 def test_an_impossible_cut_is_an_error_and_writes_nothing(tmp_path):
     # A circle of radius 5 cut inside with a 20 mm tool: nothing can be cut
-    # (the inward offset of a circle by d > R is empty; Steiner, SOURCES.md §9).
+    # (the inward offset of a circle by d > R is empty; sources: steiner).
     with pytest.raises(PathgenError, match="empty|cannot"):
         run(circle(5.0), closed=True, side="inside", tool_diameter=20, gcode=tmp_path / "p.nc",
             report=tmp_path / "p.report.json")

@@ -110,3 +110,30 @@ def test_import_is_light(module):
     )
     out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
     assert out.stdout.strip() == ""
+
+
+def _project_text_files():
+    for folder in ("pathgen", "tests", "docs", "benchmarks", "samples"):
+        for path in sorted((ROOT / folder).rglob("*")):
+            if path.suffix in {".py", ".md", ".toml", ".txt"} and "data" not in path.parts:
+                yield path
+    yield ROOT / "README.md"
+
+
+def test_sources_are_cited_inside_the_project():
+    # The project keeps its own list of published sources (docs/sources.md);
+    # every "(sources: NAME)" comment names an entry there, and nothing
+    # points at a sources list outside the repository.
+    listed = set(re.findall(r"\*\*\[([a-z0-9.-]+)\]\*\*", (ROOT / "docs" / "sources.md").read_text("utf-8")))
+    assert len(listed) >= 30
+    unknown, outside = [], []
+    for path in _project_text_files():
+        text = path.read_text(encoding="utf-8")
+        for group in re.findall(r"sources: ([a-z0-9., -]+)", text):
+            for name in re.split(r"[,\s]+", group.strip(" ,.")):
+                if name and name not in listed:
+                    unknown.append(f"{path.relative_to(ROOT)}: {name}")
+        if re.search(r"SOURCES(\.md)?\s*§|shared/", text) and path.name != "test_project.py":
+            outside.append(str(path.relative_to(ROOT)))
+    assert not unknown, unknown
+    assert not outside, outside

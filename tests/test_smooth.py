@@ -2,11 +2,11 @@
 
 Outside references: scipy.interpolate.make_smoothing_spline (same
 criterion Σ|y - f|² + λ∫f''², given one λ; Reinsch 1967 / Woltring 1986,
-SOURCES §10), scipy.interpolate.CubicSpline (λ = 0 is the interpolating
+sources: reinsch-1967), scipy.interpolate.CubicSpline (λ = 0 is the interpolating
 spline), scipy.spatial.cKDTree (distances measured independently of the
 code under test), the handbook ellipse curvature ab/(a² sin²t + b² cos²t)^{3/2},
 and the published behaviour of smoothing splines on noisy data: residual
-RMS close to the noise σ (SOURCES §10, scipy [num] check: RMS 0.0444 for
+RMS close to the noise σ (sources: craven-wahba-1979; scipy recomputed: RMS 0.0444 for
 σ = 0.05).
 """
 
@@ -67,7 +67,7 @@ def test_zero_lambda_is_the_interpolating_spline(rng):
 def test_huge_lambda_limits(rng):
     t = np.cumsum(rng.uniform(0.5, 1.5, 30))
     y = rng.normal(size=(30, 2))
-    # open: λ → ∞ gives the least-squares straight line (SOURCES §10 [num])
+    # open: λ → ∞ gives the least-squares straight line (scipy recomputed; sources: craven-wahba-1979)
     g, _ = smoothing_spline(t, y, 1e12)
     line = np.polynomial.polynomial.polyfit(t, y, 1)
     np.testing.assert_allclose(g, np.polynomial.polynomial.polyval(t, line).T, atol=1e-6)
@@ -101,7 +101,7 @@ def test_noisy_ellipse_within_tolerance_and_truer_curvature(noisy_ellipse):
     assert dist.max() <= tol + spacing / 2
     assert c.info["max_residual"] <= tol
     assert c.info["max_residual"] == pytest.approx(dist.max(), abs=spacing)
-    # residual RMS near σ (Reinsch; scipy GCV check in SOURCES §10); measured 0.97σ
+    # residual RMS near σ (sources: reinsch-1967, craven-wahba-1979); measured 0.97σ
     assert 0.75 * SIGMA <= c.info["rms_residual"] <= 1.25 * SIGMA
     assert c.info["rms_residual"] == pytest.approx(np.sqrt(np.mean(dist**2)), rel=1e-3)
     # curvature: handbook κ(θ) = ab/(a² sin²θ + b² cos²θ)^{3/2} at the true angles

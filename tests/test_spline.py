@@ -195,7 +195,7 @@ def test_convergence_order_open(end, order):
         errors.append(np.abs(c(u)[:, 1] - np.exp(u * h)).max())
     assert _order(ns, errors) == pytest.approx(order, abs=0.25)
     if end == "natural":
-        # SOURCES §1.1 (scipy, recomputed): max error 2.081e-3 at n = 8, 8.145e-6 at 128
+        # Recomputed with scipy CubicSpline (sources: scipy-cubicspline, atkinson-1968): max error 2.081e-3 at n = 8, 8.145e-6 at 128
         assert errors[0] == pytest.approx(2.081e-3, rel=0.01)
     if end == "clamped":
         assert errors[0] == pytest.approx(1.690e-6, rel=0.01)  # same table, clamped
@@ -218,7 +218,7 @@ def test_convergence_order_periodic():
 def test_parametrization_orders_on_uneven_ellipse(param, order):
     # Floater 2006 (from memory): chordal cubic interpolation is fourth order;
     # uniform and centripetal only second order on unevenly spaced points.
-    # SOURCES §2 table: ellipse a = 3, b = 1, parameter steps alternating 1:3.
+    # Parametrization reference table (sources: lee-1989, floater-2006): ellipse a = 3, b = 1, parameter steps alternating 1:3.
     ns = np.array([64, 128, 256, 512])
     errors = []
     for n in ns:
@@ -228,7 +228,7 @@ def test_parametrization_orders_on_uneven_ellipse(param, order):
         t = np.linspace(0, c.breaks[-1], 40 * n, endpoint=False)
         errors.append(ellipse_distance(3.0, 1.0, c(t)).max())
     assert _order(ns, errors) == pytest.approx(order, abs=0.35)
-    # SOURCES §2 table (recomputed with scipy) at n = 64, 128, 256
+    # The same table (recomputed with scipy; sources: floater-2006) at n = 64, 128, 256
     table = {"chord": [2.17e-4, 1.80e-5, 1.24e-6], "uniform": [9.69e-3, 2.47e-3, 6.20e-4],
              "centripetal": [5.94e-3, 1.55e-3, 3.91e-4]}[param]
     np.testing.assert_allclose(errors[:3], table, rtol=0.05)
