@@ -9,6 +9,9 @@ Exit status
    spots); a script should stop before cutting.
 2  bad input or usage: one line on stderr naming the file (and line) and
    what is wrong; no output file is left behind.
+3  internal error (a bug in pathgen): one line on stderr and the file that
+   holds the details; no output file is left behind.
+130  interrupted (Ctrl-C or SIGTERM); no output file is left behind.
 
 This module imports only the standard library at load time, so that
 ``pathgen --help`` is instant; numpy, scipy, ezdxf and matplotlib load
@@ -32,7 +35,7 @@ CAUTION = (
     "practice and local safety rules, before cutting."
 )
 
-EXIT_OK, EXIT_TIGHT, EXIT_BAD = 0, 1, 2
+EXIT_OK, EXIT_TIGHT, EXIT_BAD, EXIT_INTERNAL = 0, 1, 2, 3
 
 _DESCRIPTION = """\
 From ordered outline points to a smooth contour, a machinability check and a
@@ -42,7 +45,8 @@ Lengths are in mm (or inch with --units inch), feeds in mm/min (or inch/min),
 acceleration in mm/s^2.
 
 exit status: 0 done; 1 done, but the tool cannot reach some spot (see the
-report); 2 bad input or usage (one line on stderr, no output file).
+report); 2 bad input or usage (one line on stderr, no output file); 3 internal
+error (a bug: one line on stderr, details in a file it names).
 """
 
 _EPILOG = """\
@@ -293,6 +297,15 @@ def _default_output(points: str, suffix: str) -> str:
     return str(Path(Path(points).name).with_suffix(suffix))
 
 
+def _output(a, suffix: str) -> str:
+    """The output named by -o (an empty name is an error), else the default."""
+    if a.output is not None and not a.output.strip():
+        from .errors import ExportError
+
+        raise ExportError("output path is empty: give a file name after -o")
+    return a.output if a.output is not None else _default_output(a.points, suffix)
+
+
 def _emit(result, a, *, caution: str, out=sys.stdout, err=sys.stderr) -> int:
     """Print a result: JSON alone on stdout, or the summary (unless quiet).
 
@@ -319,16 +332,31 @@ def _cmd_job(a, out, err) -> int:
 
     opts = _run_options(a)
     if a.command == "gcode":
-        target = a.output or _default_output(a.points, ".nc")
+        target = _output(a, ".nc")
         opts["gcode"] = target
         opts["report"] = str(_report_path(target))
     elif a.command == "dxf":
-        opts["dxf"] = a.output or _default_output(a.points, ".dxf")
+        opts["dxf"] = _output(a, ".dxf")
     elif a.command == "plot":
-        opts["plot"] = a.output or _default_output(a.points, ".png")
+        opts["plot"] = _output(a, ".png")
     result = run(a.points, progress=_stage_notes(a, err), **opts)
     caution = {"gcode": "always", "check": "text"}.get(a.command, "")
-    return _emit(result, a, caution=caution, out=out, err=err)
+    try:
+        status = _emit(result, a, caution=caution, out=out, err=err)
+        out.flush()
+    except (OSError, ValueError) as exc:  # stdout closed or full: the job is not done
+        _remove_outputs(result)
+        raise OSError(f"cannot print the summary ({_one_line(exc)}); the files written were "
+                      "removed") from None
+    return status
+
+
+def _remove_outputs(result) -> None:
+    import contextlib
+
+    for path in result.files.values():
+        with contextlib.suppress(OSError):
+            os.unlink(path)
 
 
 #: Inputs larger than this (bytes) announce each stage on stderr.
@@ -435,7 +463,7 @@ def _cmd_batch(a, out, err) -> int:
 
     if a.output is None:
         raise _UsageError("pathgen batch: -o/--output OUTDIR is required")
-    files = points_files(a.directory)
+    files = points_files(a.directory, outdir=a.output)
     if not files:
         from .errors import InputError
 
@@ -469,7 +497,7 @@ def _one_line(exc: BaseException) -> str:
 
 
 def main(argv=None, *, out=None, err=None) -> int:
-    """Run the command line; return the exit status (0, 1 or 2)."""
+    """Run the command line; return the exit status (0, 1, 2, 3 or 130)."""
     out = out or sys.stdout
     err = err or sys.stderr
     parser = build_parser()
@@ -487,15 +515,58 @@ def main(argv=None, *, out=None, err=None) -> int:
         err.write(f"pathgen: give a command: {', '.join(_COMMANDS)} (see pathgen --help)\n")
         return EXIT_BAD
     from .errors import PathgenError
+    import signal
+    import warnings
+
+    def _terminate(signum, frame):  # SIGTERM ends a run like Ctrl-C: temporary files removed
+        raise KeyboardInterrupt
 
     try:
-        return _commands()[a.command](a, out, err)
+        previous = signal.signal(signal.SIGTERM, _terminate)
+    except ValueError:  # not the main thread: leave signals alone
+        previous = None
+    try:
+        with warnings.catch_warnings():
+            # numerical warnings are pathgen's to handle, never the user's to read
+            warnings.simplefilter("ignore", RuntimeWarning)
+            return _commands()[a.command](a, out, err)
     except _UsageError as exc:
         err.write(f"{_one_line(exc)} (see pathgen {a.command} --help)\n")
         return EXIT_BAD
     except (PathgenError, OSError) as exc:
-        err.write(f"pathgen {a.command}: error: {_one_line(exc)}\n")
+        _safe_write(err, f"pathgen {a.command}: error: {_one_line(exc)}\n")
         return EXIT_BAD
     except KeyboardInterrupt:
-        err.write(f"pathgen {a.command}: interrupted\n")
+        _safe_write(err, f"pathgen {a.command}: interrupted\n")
         return 130
+    except (Exception, RecursionError) as exc:  # a bug: never exit 1, which means "tool cannot reach"
+        where = _save_traceback(exc)
+        _safe_write(err, f"pathgen {a.command}: internal error (a bug in pathgen, not in your input): "
+                         f"{exc.__class__.__name__}: {_one_line(exc)[:200]}; details in {where}\n")
+        return EXIT_INTERNAL
+    finally:
+        if previous is not None:
+            signal.signal(signal.SIGTERM, previous)
+
+
+def _safe_write(stream, text: str) -> None:
+    try:
+        stream.write(text)
+        stream.flush()
+    except (OSError, ValueError):
+        pass
+
+
+def _save_traceback(exc: BaseException) -> str:
+    """Write the traceback of an unexpected error to a file; return its name."""
+    import tempfile
+    import traceback
+
+    text = "".join(traceback.format_exception(type(exc), exc, exc.__traceback__))
+    try:
+        fd, name = tempfile.mkstemp(prefix="pathgen-error-", suffix=".txt")
+        with os.fdopen(fd, "w", encoding="utf-8") as fh:
+            fh.write(f"pathgen {__version__}\n{text}")
+        return name
+    except OSError:
+        return "(could not save the traceback)"

@@ -23,7 +23,7 @@ import time
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ._options import MM_PER_INCH, SIDES, UNITS, check_option, check_positive
+from ._options import MM_PER_INCH, SIDES, UNITS, check_flag, check_option, check_positive
 from .errors import InputError, PathgenError
 
 __all__ = ["run", "Result", "MOVES", "LEADS", "contour_facts"]
@@ -142,6 +142,19 @@ def _check_targets(targets: dict, force: bool) -> dict:
     return {kind: check_target(p, force=force) for kind, p in targets.items() if p is not None}
 
 
+def _refuse_clobber(targets: dict, source) -> None:
+    """Refuse outputs that would replace the input or each other."""
+    seen = {}
+    if source is not None:
+        seen[Path(source).resolve()] = "the input"
+    for kind, p in targets.items():
+        key = Path(p).resolve()
+        if key in seen:
+            raise InputError(f"{p}: the {kind.replace('_', ' ')} output would replace {seen[key]}; "
+                             "choose another output name")
+        seen[key] = f"the {kind.replace('_', ' ')} output"
+
+
 def _length(name, value, scale, *, allow_zero=False):
     if value is None:
         return None
@@ -243,6 +256,7 @@ def run(
     Result
     """
     check_option("units", units, UNITS)
+    closed = check_flag("closed", closed)
     check_option("side", side, SIDES)
     check_option("moves", moves, MOVES)
     check_option("lead", lead, LEADS)
@@ -301,6 +315,7 @@ def run(
             raise InputError(f"{path}: unknown kind of points file; use one of {', '.join(POINT_SUFFIXES)}")
     else:
         source, path = "<array>", None
+    _refuse_clobber(targets, path)
     from .points import clean_points, read_points
 
     if path is not None:
@@ -343,34 +358,48 @@ def run(
     # -- write -----------------------------------------------------------------
     import warnings
 
+    from .export._atomic import Staging, clean_stale
+
     files = {}
     notes = list(getattr(outline, "warnings", ()))
-    with warnings.catch_warnings(record=True) as caught:
+    for folder in sorted({str(p.parent) for p in targets.values()}):
+        clean_stale(folder)
+    # every output is written under a temporary name first; they appear
+    # together once all are written, and a failure leaves none of them
+    with warnings.catch_warnings(record=True) as caught, Staging(force=force) as stage:
         warnings.simplefilter("always")
+        final = dict(targets)
+        targets = {k: stage.path(v, suffix=".report.json" if k == "report" else None)
+                   for k, v in final.items() if k != "report_text"}
+        if "report" in targets:
+            stage.path(final["report_text"], suffix=".report.txt")  # written beside the JSON
         if "gcode" in targets:
             from .export.gcode import write_gcode
 
-            files["gcode"] = timed("gcode", write_gcode, tp, targets["gcode"], force=force,
-                                   source=Path(source).name, program_name=Path(targets["gcode"]).stem,
-                                   spindle_speed=spindle_speed, single_feed=one_feed,
-                                   line_numbers=line_numbers)
+            timed("gcode", write_gcode, tp, targets["gcode"], force=True,
+                  source=Path(source).name, program_name=Path(final["gcode"]).stem,
+                  spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers)
+            files["gcode"] = final["gcode"]
         if "report" in targets:
             from .export.report import write_report
 
-            files["report"], files["report_text"] = timed(
-                "report", write_report, rep, targets["report"], units=units, force=force)
+            timed("report", write_report, rep, targets["report"], units=units, force=True)
+            files["report"], files["report_text"] = final["report"], final["report_text"]
         if "dxf" in targets:
             from .export.dxf import write_dxf
             from .path.build import contour_moves
 
             arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
-            files["dxf"] = timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
-                                 report=rep, units=units, force=force)
+            timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
+                  report=rep, units=units, force=True)
+            files["dxf"] = final["dxf"]
         if "plot" in targets:
             from .export.plot import plot as draw
 
-            files["plot"] = timed("plot", draw, targets["plot"], contour, toolpath=tp, report=rep,
-                                  units=units, force=force)
+            timed("plot", draw, targets["plot"], contour, toolpath=tp, report=rep,
+                  units=units, force=True)
+            files["plot"] = final["plot"]
+        stage.commit()
     notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]
     return Result(source, outline, contour, report=rep, toolpath=tp, facts=facts,
                   timings=timings, files=files, units=units, notes=tuple(notes))
@@ -381,20 +410,46 @@ def run(
 OUTPUT_SUFFIXES = {"gcode": ".nc", "report": ".report.json", "dxf": ".dxf", "plot": ".png"}
 
 
-def points_files(directory) -> list[Path]:
-    """The points files (.csv .txt .xy .dxf) of a folder, sorted by name."""
+def points_files(directory, *, outdir=None) -> list[Path]:
+    """The points files (.csv .txt .xy .dxf) of a folder, sorted by name.
+
+    Reports a batch writes (``*.report.txt``) are never points files; when
+    ``outdir`` is the folder itself, the outputs a batch would write for
+    the folder's points files (``part.dxf`` beside ``part.csv``) are left
+    out too, so a batch run twice in its own folder reads the same inputs.
+    """
     d = Path(directory)
     if not d.is_dir():
         raise InputError(f"{d}: no such folder")
-    return sorted(p for p in d.iterdir() if p.is_file() and p.suffix.lower() in POINT_SUFFIXES)
+    files = sorted(p for p in d.iterdir() if p.is_file() and p.suffix.lower() in POINT_SUFFIXES
+                   and not p.name.lower().endswith(".report.txt"))
+    if outdir is not None and Path(outdir).is_dir() and Path(outdir).resolve() == d.resolve():
+        ours = {p.name.lower() for p in files if p.suffix.lower() != ".dxf"}
+        stems = {p.stem.lower() for p in files if p.suffix.lower() != ".dxf"}
+        files = [p for p in files if not (p.suffix.lower() == ".dxf" and p.stem.lower() in stems
+                                          and p.name.lower() not in ours)]
+    return files
 
 
 def _output_stems(files: list[Path]) -> list[str]:
-    """Output names: the stem, or the full name when two stems collide."""
+    """Output names, one per file and all different (compared without case).
+
+    The stem when it is unique; else the full name with its dots made
+    underscores; a name still taken gets "-2", "-3", ... in file order.
+    """
     from collections import Counter
 
-    count = Counter(p.stem for p in files)
-    return [p.stem if count[p.stem] == 1 else p.name.replace(".", "_") for p in files]
+    count = Counter(p.stem.lower() for p in files)
+    wanted = [p.stem if count[p.stem.lower()] == 1 else p.name.replace(".", "_") for p in files]
+    taken, stems = set(), []
+    for name in wanted:
+        candidate, k = name, 1
+        while candidate.lower() in taken:
+            k += 1
+            candidate = f"{name}-{k}"
+        taken.add(candidate.lower())
+        stems.append(candidate)
+    return stems
 
 
 def batch_row(result: Result | None, source, *, error: str | None = None) -> dict:

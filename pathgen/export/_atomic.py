@@ -15,14 +15,22 @@ says which file exists and how to overwrite it.
 from __future__ import annotations
 
 import contextlib
+import hashlib
 import os
+import re
 import tempfile
 from pathlib import Path
 from typing import Iterator, Sequence
 
 from ..errors import ExportError
 
-__all__ = ["atomic_write", "atomic_paths", "check_target"]
+__all__ = ["atomic_write", "atomic_paths", "check_target", "Staging", "clean_stale"]
+
+#: Longest file name most file systems take (bytes).
+NAME_MAX = 255
+#: Temporary names carry the writing process's id, so that a later run can
+#: tell a killed run's leftovers from another live run's files.
+_TEMP_NAME = re.compile(r"^\.(?:pathgen(\d+)-.*|.*\.pathgen(\d+)\.[^.]*\.tmp)$")
 
 
 def check_target(path, *, force: bool = False) -> Path:
@@ -92,7 +100,7 @@ def atomic_paths(paths: Sequence, *, force: bool = False) -> Iterator[list[Path]
     temps: list[Path] = []
     try:
         for t in targets:
-            fd, name = tempfile.mkstemp(dir=t.parent, prefix=f".{t.name}.", suffix=".tmp")
+            fd, name = tempfile.mkstemp(dir=t.parent, prefix=_temp_prefix(t.name), suffix=".tmp")
             os.close(fd)
             temps.append(Path(name))
         yield list(temps)
@@ -114,6 +122,115 @@ def atomic_paths(paths: Sequence, *, force: bool = False) -> Iterator[list[Path]
         for tmp in temps:
             with contextlib.suppress(OSError):
                 tmp.unlink()
+
+
+def _temp_prefix(name: str) -> str:
+    """Prefix of a writer's temporary file: the final name when it fits."""
+    tag = f".pathgen{os.getpid()}."
+    if len(os.fsencode(name)) + len(tag) + 16 > NAME_MAX:
+        name = hashlib.sha1(os.fsencode(name)).hexdigest()[:16]
+    return f".{name}{tag}"
+
+
+def _alive(pid: int) -> bool:
+    if pid == os.getpid():
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except OSError:  # exists, owned by someone else
+        return True
+    return True
+
+
+def clean_stale(folder) -> list[Path]:
+    """Remove temporary files that a killed pathgen run left in ``folder``.
+
+    Only names pathgen gives its temporary files are touched, and only
+    those of processes that no longer run (the name carries the process
+    id).  Returns the files removed.
+    """
+    removed = []
+    with contextlib.suppress(OSError):
+        for entry in os.scandir(folder):
+            m = _TEMP_NAME.match(entry.name)
+            if m and entry.is_file(follow_symlinks=False) and not _alive(int(m.group(1) or m.group(2))):
+                with contextlib.suppress(OSError):
+                    os.unlink(entry.path)
+                    removed.append(Path(entry.path))
+    return removed
+
+
+class Staging:
+    """Write several outputs, then make them all appear together.
+
+    :meth:`path` gives, for a final file name, a temporary name in the same
+    folder with the same suffix (writers choose formats by suffix) for a
+    writer to write with ``force=True``; :meth:`commit` renames every staged
+    file over its final name after all were written.  Leaving the ``with``
+    block by an error or an interruption before the commit removes every
+    staged file, so a job's outputs appear all together or not at all.
+
+    Examples
+    --------
+    >>> import tempfile, pathlib
+    >>> d = pathlib.Path(tempfile.mkdtemp())
+    >>> with Staging() as stage:
+    ...     _ = stage.path(d / "a.nc").write_text("G0 X0\\n")
+    ...     _ = stage.path(d / "a.txt").write_text("report\\n")
+    ...     sorted(p.name for p in d.iterdir() if not p.name.startswith("."))
+    ...     _ = stage.commit()
+    []
+    >>> sorted(p.name for p in d.iterdir())
+    ['a.nc', 'a.txt']
+    """
+
+    def __init__(self, *, force: bool = False):
+        self.force = force
+        self._pairs: list[tuple[Path, Path]] = []
+        self._committed = False
+
+    def __enter__(self) -> "Staging":
+        return self
+
+    def path(self, final, *, suffix: str | None = None) -> Path:
+        """Temporary name for ``final`` (checked with :func:`check_target`).
+
+        ``suffix``: the part of the name to keep at the end (default: the
+        last suffix), e.g. ``".report.json"``.
+        """
+        final = check_target(final, force=self.force)
+        keep = suffix if suffix is not None else final.suffix
+        name = f".pathgen{os.getpid()}-{final.name}"
+        if len(os.fsencode(name)) + 40 > NAME_MAX:  # room for a writer's own temporary name
+            # files staged together (a report's .json and .txt) keep one base
+            base = final.name[: -len(keep)] if keep and final.name.endswith(keep) else final.name
+            name = f".pathgen{os.getpid()}-{hashlib.sha1(os.fsencode(base)).hexdigest()[:16]}{keep}"
+        tmp = final.with_name(name)
+        self._pairs.append((tmp, final))
+        return tmp
+
+    def commit(self) -> list[Path]:
+        """Rename every staged file over its final name; return the finals."""
+        for tmp, final in self._pairs:
+            if not tmp.exists():
+                raise ExportError(f"internal error: nothing was written for {final}")
+            if not self.force and final.exists():
+                raise ExportError(f"{final} appeared while writing; pass force=True (--force) to overwrite it")
+        try:
+            for tmp, final in self._pairs:
+                os.replace(tmp, final)
+        except OSError as exc:
+            raise ExportError(f"cannot write {final}: {exc.strerror or exc}") from exc
+        self._committed = True
+        return [final for _, final in self._pairs]
+
+    def __exit__(self, *exc) -> None:
+        for tmp, _ in self._pairs:
+            with contextlib.suppress(OSError):
+                tmp.unlink()
+        return None
 
 
 def atomic_write(path, data, *, force: bool = False) -> Path:
