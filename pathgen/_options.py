@@ -91,6 +91,28 @@ def check_positive(name: str, value, *, allow_zero: bool = False) -> float:
     return v
 
 
+def check_flag(name: str, value, *, allow_none: bool = True):
+    """Return ``value`` as a bool (or None where allowed); refuse anything else.
+
+    A string such as "no" is truthy in Python: taking it as True would
+    silently close an open outline, so it is an error here.
+
+    >>> check_flag("closed", True), check_flag("closed", None)
+    (True, None)
+    >>> check_flag("closed", "no")
+    Traceback (most recent call last):
+    ...
+    pathgen.errors.InputError: closed must be True, False or None, got 'no'
+    """
+    if value is None and allow_none:
+        return None
+    if isinstance(value, bool) or (getattr(value, "dtype", None) is not None
+                                   and value.dtype.kind == "b" and getattr(value, "ndim", 1) == 0):
+        return bool(value)
+    allowed = "True, False or None" if allow_none else "True or False"
+    raise InputError(f"{name} must be {allowed}, got {value!r}")
+
+
 def duration_text(seconds) -> str:
     """A time estimate for people: "8.4 s", "2 min 05.0 s", "1 h 02 min 05.0 s";
     "not estimated" when there is none (not finite, or not positive).

@@ -34,13 +34,17 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ._options import CLOSE_RTOL, check_option
+from ._options import CLOSE_RTOL, check_flag, check_option
 from .errors import InputError
 
 __all__ = ["fit", "Contour", "ENDS", "PARAMS", "as_points", "parameters"]
 
 ENDS = ("not-a-knot", "natural", "clamped")
 PARAMS = ("chord", "centripetal", "uniform")
+
+#: Largest coordinate magnitude accepted (mm): 1000 km.  Far beyond any
+#: machine; squares of such numbers still stay far from float64's range.
+MAX_COORDINATE = 1e9
 
 # Evaluation works in chunks that stay in the processor's cache.
 _PIECE_CHUNK = 2048
@@ -62,6 +66,8 @@ def as_points(points, name: str = "points") -> np.ndarray:
     Raises InputError for a wrong shape, fewer than 2 points or a
     non-finite coordinate (naming the first bad point).
     """
+    if np.iscomplexobj(points):
+        raise InputError(f"{name} must be real numbers, got complex values; pass the x and y columns")
     try:
         p = np.array(points, dtype=np.float64, order="C", copy=True)
     except (TypeError, ValueError) as exc:
@@ -73,6 +79,11 @@ def as_points(points, name: str = "points") -> np.ndarray:
     if not np.isfinite(p).all():
         i = int(np.argmax(~np.isfinite(p).all(axis=1)))
         raise InputError(f"{name} row {i} is not finite: {p[i].tolist()}")
+    big = np.abs(p).max(axis=1) > MAX_COORDINATE
+    if big.any():
+        i = int(np.argmax(big))
+        raise InputError(f"{name} row {i} is out of range: {p[i].tolist()} "
+                         f"(coordinates up to {MAX_COORDINATE:g} in magnitude)")
     return p
 
 
@@ -285,6 +296,7 @@ def fit(points, *, closed=None, end: str = "not-a-knot", param: str = "chord", t
     p = as_points(points)
     check_option("end", end, ENDS)
     check_option("param", param, PARAMS)
+    closed = check_flag("closed", closed)
     x, y = _columns(p)
     size = _size(x, y)
     repeats = bool(np.hypot(x[-1] - x[0], y[-1] - y[0]) <= CLOSE_RTOL * max(size, np.finfo(float).tiny))
@@ -316,6 +328,19 @@ def fit(points, *, closed=None, end: str = "not-a-knot", param: str = "chord", t
     M = _moments(h, slopes, end, closed, tan)
     c = _coefficients(h, (xs, ys_), slopes, M)
     return Contour(t, c.transpose(1, 2, 0), closed, _readonly(p), end="periodic" if closed else end, param=param)
+
+
+def _parameter_array(t) -> np.ndarray:
+    """Curve parameters as a float64 array; refuse text, None and NaN."""
+    if t is None or isinstance(t, (str, bytes)) or np.iscomplexobj(t):
+        raise InputError(f"t must be a number or an array of numbers (the curve parameter), got {t!r}")
+    try:
+        a = np.asarray(t, dtype=np.float64)
+    except (TypeError, ValueError):
+        raise InputError(f"t must be a number or an array of numbers (the curve parameter), got {t!r}") from None
+    if not np.isfinite(a).all():
+        raise InputError("t must be finite: the curve parameter has NaN or infinite values")
+    return a
 
 
 def _readonly(a) -> np.ndarray:
@@ -420,9 +445,9 @@ class Contour:
         end pieces outside the domain.  At a break the piece to the right
         is used (the third derivative jumps there).
         """
-        if nu not in (0, 1, 2, 3):
+        if isinstance(nu, bool) or nu not in (0, 1, 2, 3):
             raise InputError(f"nu must be 0, 1, 2 or 3, got {nu!r}")
-        t = np.asarray(t, dtype=np.float64)
+        t = _parameter_array(t)
         flat = self._wrap(t.ravel())
         out = np.empty((flat.size, 2))
         poly = self._poly(nu)
@@ -550,7 +575,7 @@ class Contour:
 
     def arc_length(self, t) -> np.ndarray:
         """Arc length from breaks[0] to t (closed: t wrapped into one turn)."""
-        t = np.asarray(t, dtype=np.float64)
+        t = _parameter_array(t)
         cum = self._cum
         idx, x = self._locate(t)
         return cum[idx] + self._gl_local(idx, x)
@@ -561,7 +586,7 @@ class Contour:
         Closed contours wrap s modulo the length; open ones clip s to
         [0, length].
         """
-        s = np.asarray(s, dtype=np.float64)
+        s = _parameter_array(s)
         shape = s.shape
         cum, b = self._cum, self.breaks
         L = float(cum[-1])

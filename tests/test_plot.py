@@ -203,3 +203,32 @@ def test_picture_time_is_the_programs_estimate(tmp_path):
     assert "min" in in_header  # three passes of about 230 mm at 500 mm/min: over a minute
     texts = " | ".join(t.get_text() for t in plot_figure(contour, report=rep).texts)
     assert f"one pass along the contour {rep.cycle_time:.1f} s" in texts
+
+
+def test_inch_toolpath_is_drawn_where_the_mm_one_is():
+    # The same toolpath in mm and converted to inch (1 in = 25.4 mm exactly,
+    # by definition) must draw the same picture in inch units: cuts and
+    # rapids alike (the cuts were once drawn 25.4 times too small).
+    from matplotlib.collections import LineCollection
+
+    from pathgen.checks.machine import Cut, Tool
+    from pathgen.path.build import make_toolpath
+
+    contour = _part()
+    tool, cut = Tool(6.0), Cut(side="outside")
+    pictures = []
+    for units in ("mm", "inch"):
+        tp = make_toolpath(contour, tool, cut, units=units)
+        fig = plot_figure(contour, toolpath=tp, units="inch")
+        ax = fig.axes[0]
+        lines = [np.asarray(l.get_xydata()) for l in ax.get_lines()]
+        segs = [np.asarray(s) for c in ax.collections if isinstance(c, LineCollection) for s in c.get_segments()]
+        pictures.append((lines, segs))
+    (l_mm, s_mm), (l_in, s_in) = pictures
+    assert [a.shape for a in l_mm] == [a.shape for a in l_in] and len(s_mm) == len(s_in)
+    for a, b in zip(l_mm + s_mm, l_in + s_in):
+        np.testing.assert_allclose(a, b, rtol=0, atol=1e-9)
+    # and the tool path stands about r = 3 mm = 0.118 in outside the contour
+    far = max(float(np.abs(a).max()) for a in l_in)
+    x0, y0, x1, y1 = contour.bbox
+    assert far >= max(abs(x0), abs(x1), abs(y0), abs(y1)) / 25.4

@@ -67,7 +67,8 @@ def _tool_lines(tp: Toolpath, k: float):
     from .dxf import polyline_vertices
 
     runs = []
-    for verts, closed in polyline_vertices(tp, scale=k, final_pass=True):
+    to_mm = 1.0 if tp.units == "mm" else MM_PER_INCH  # cuts and rapids alike: mm, then display units
+    for verts, closed in polyline_vertices(tp, scale=to_mm * k, final_pass=True):
         v = np.vstack([verts, verts[:1]]) if closed else verts
         p, q, b = v[:-1, :2], v[1:, :2], v[:-1, 4]
         nseg = len(p)
@@ -92,8 +93,7 @@ def _tool_lines(tp: Toolpath, k: float):
     rapid = tp.kind == RAPID
     moves_xy = np.any(tp.start[:, :2] != tp.end[:, :2], axis=1)
     sel = rapid & moves_xy
-    scale = 1.0 if tp.units == "mm" else MM_PER_INCH
-    segs = np.stack([tp.start[sel, :2], tp.end[sel, :2]], axis=1) * scale * k
+    segs = np.stack([tp.start[sel, :2], tp.end[sel, :2]], axis=1) * to_mm * k
     return runs, segs
 
 
