@@ -155,6 +155,56 @@ def _refuse_clobber(targets: dict, source) -> None:
         seen[key] = f"the {kind.replace('_', ' ')} output"
 
 
+#: What pathgen promises to finish in bounded time (mm): parts from
+#: SIZE_RANGE[0] to SIZE_RANGE[1] across (bounding-box diagonal), tolerances
+#: from TOLERANCE_MIN up, at most MAX_TOLERANCES tolerances across the part
+#: (the arc fit's work grows with size / tolerance: 1.2e6 took 11 s and
+#: 0.3 GB, 1.2e7 took 160 s and 3 GB on the 2-core test machine), tools up
+#: to TOOL_MAX, depths up to DEPTH_MAX in at most MAX_PASSES passes.
+SIZE_RANGE = (0.01, 10_000.0)
+TOLERANCE_MIN = 1e-4
+MAX_TOLERANCES = 2e6
+TOOL_MAX = 1000.0
+DEPTH_MAX = 1000.0
+MAX_PASSES = 1000
+
+
+def _check_work(points, tol, tool, depth, step, units="mm") -> None:
+    """Refuse, before any work, jobs outside the stated limits (mm)."""
+    import numpy as np
+
+    k = MM_PER_INCH if units == "inch" else 1.0
+    u = "inch" if units == "inch" else "mm"
+
+    def show(mm):
+        return f"{mm / k:.6g} {u}"
+
+    lo, hi = points.min(axis=0), points.max(axis=0)
+    size = float(np.hypot(*(hi - lo)))
+    if not SIZE_RANGE[0] <= size <= SIZE_RANGE[1]:
+        raise InputError(f"the outline is {show(size)} across; pathgen works on outlines from "
+                         f"{show(SIZE_RANGE[0])} to {show(SIZE_RANGE[1])} across (check the units)")
+    if tol < TOLERANCE_MIN:
+        raise InputError(f"tolerance {show(tol)} is below the smallest pathgen honours, {show(TOLERANCE_MIN)}")
+    if tol > 0.1 * size:
+        raise InputError(f"tolerance {show(tol)} is more than a tenth of the outline's size "
+                         f"({show(size)} across); use at most {show(0.1 * size)}")
+    if size / tol > MAX_TOLERANCES:
+        raise InputError(f"the outline is {show(size)} across: at tolerance {show(tol)} that is "
+                         f"{size / tol:.2g} tolerances, more than the {MAX_TOLERANCES:.0e} pathgen handles "
+                         f"in bounded time; use a tolerance of at least {show(size / MAX_TOLERANCES)}")
+    if tool is not None and tool > TOOL_MAX:
+        raise InputError(f"tool diameter {show(tool)} is above the largest pathgen accepts, {show(TOOL_MAX)}")
+    if depth is not None and depth > DEPTH_MAX:
+        raise InputError(f"depth {show(depth)} is above the deepest pathgen accepts, {show(DEPTH_MAX)}")
+    if step is not None:
+        passes = math.ceil((depth if depth is not None else 1.0) / step - 1e-9)
+        if passes > MAX_PASSES:
+            raise InputError(f"step down {show(step)} would take {passes} passes; pathgen writes at most "
+                             f"{MAX_PASSES} (use a step down of at least "
+                             f"{show((depth if depth is not None else 1.0) / MAX_PASSES)})")
+
+
 def _length(name, value, scale, *, allow_zero=False):
     if value is None:
         return None
@@ -323,6 +373,8 @@ def run(
     else:
         outline = timed("read", clean_points, points, units=units, closed=closed)
     closed = outline.closed
+    _check_work(outline.points, tol_mm, tool_mm, _length("depth", depth, scale),
+                _length("step down", step_down, scale), units)
 
     # -- fit -----------------------------------------------------------------
     from .outline import fit_outline

@@ -99,3 +99,20 @@ def test_bad_overrides():
 def test_impossible_values_are_refused(make, match):
     with pytest.raises(InputError, match=match):
         make()
+
+
+@pytest.mark.parametrize("text, key", [
+    ("block_rate = 1e-300\n", "block_rate"),   # F1 everywhere and a 0 s cycle time before
+    ("max_feed = 1e12\n", "max_feed"),
+    ("max_accel = 0.001\n", "max_accel"),
+    ("units = 'inch'\nrapid_feed = 100000\n", "rapid_feed"),  # 2.54e6 mm/min
+])
+def test_values_outside_any_machine_are_refused_with_the_line(tmp_path, text, key):
+    # Wide plausibility bounds (sources: machine-ranges, common practice):
+    # 1 to 1e6 mm/min, mm/s^2 or blocks/s.
+    p = write(tmp_path, text)
+    line = text.splitlines().index(next(l for l in text.splitlines() if l.startswith(key))) + 1
+    with pytest.raises(InputError, match=rf"line {line}: {key} = .* outside the accepted range"):
+        load_machine(p)
+    with pytest.raises(InputError, match="outside the accepted range"):
+        Machine(**{key: 1e-3 if key != "max_feed" else 1e9})

@@ -42,7 +42,29 @@ class Machine:
 
     def __post_init__(self):
         for f in ("max_feed", "max_accel", "block_rate", "rapid_feed"):
-            object.__setattr__(self, f, check_positive(f, getattr(self, f)))
+            value = check_positive(f, getattr(self, f))
+            problem = _out_of_range(f, value)
+            if problem:
+                raise InputError(problem)
+            object.__setattr__(self, f, value)
+
+
+#: Accepted ranges of the machine's numbers (mm, minutes, seconds): wide
+#: enough for any hobby router or production machine, narrow enough that a
+#: slip of the exponent (a block rate of 1e-300) is caught, not believed.
+RANGES = {
+    "max_feed": (1.0, 1e6, "mm/min"),
+    "max_accel": (1.0, 1e6, "mm/s^2"),
+    "block_rate": (1.0, 1e6, "blocks/s"),
+    "rapid_feed": (1.0, 1e6, "mm/min"),
+}
+
+
+def _out_of_range(key: str, value: float) -> str | None:
+    lo, hi, unit = RANGES[key]
+    if lo <= value <= hi:
+        return None
+    return f"{key} = {value:g} {unit} is outside the accepted range {lo:g} to {hi:g} {unit}"
 
 
 @dataclass(frozen=True)
@@ -179,6 +201,9 @@ def load_machine(path=None, **overrides) -> Machine:
                     f"{where(key)}: {key} must be a finite number > 0, got {value!r}"
                 )
             values[key] = float(value) * (1.0 if key == "block_rate" else scale)
+            problem = _out_of_range(key, values[key])
+            if problem:
+                raise InputError(f"{where(key)}: {problem}")
     for key, value in overrides.items():
         if key not in _NUMERIC_FIELDS + ("name",):
             valid = ", ".join(_NUMERIC_FIELDS + ("name",))
