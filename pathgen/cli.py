@@ -132,6 +132,9 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
     g.add_argument("--corner-angle", type=_angle, metavar="DEG",
                    help="turning angle above which a point is a sharp corner (default: 40; off: no corners)")
     g.add_argument("--layer", metavar="NAME", help="DXF input: the layer that holds the outline")
+    g.add_argument("--allow-crossing", action="store_true",
+                   help="follow a closed outline that crosses itself (a deliberate figure, with --side on); "
+                        "otherwise such an outline is refused for cutting")
 
     g = p.add_argument_group("machine, tool and cut")
     g.add_argument("--machine", metavar="PROFILE.toml", help="machine profile (feed, acceleration, block rate)")
@@ -140,8 +143,9 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                    help="cut outside the outline, inside it (a pocket or hole) or on it (default: outside)")
     g.add_argument("--feed", type=_number, metavar="F", help="programmed cutting feed per minute")
     g.add_argument("--accel", type=_number, metavar="A", help="machine path acceleration per second squared")
-    g.add_argument("--tolerance", type=_number, default=0.01, metavar="E",
-                   help="chord tolerance: largest distance of the moves from the curve (default: 0.01)")
+    g.add_argument("--tolerance", type=_number, metavar="E",
+                   help="chord tolerance: largest distance of the moves from the curve "
+                        "(default: 0.01 mm, 0.00039 inch)")
     g.add_argument("--moves", choices=("arcs", "lines"), default="arcs",
                    help="write the path as arcs (G2/G3 and G1) or lines only (default: arcs)")
 
@@ -287,7 +291,7 @@ def _run_options(a) -> dict:
         safe_height=a.safe_height, seam=a.seam, lead=a.lead, force=a.force,
         direction=a.direction, plunge_feed=a.plunge_feed,
         spindle_speed=getattr(a, "spindle_speed", None), one_feed=getattr(a, "one_feed", False),
-        line_numbers=getattr(a, "line_numbers", False),
+        line_numbers=getattr(a, "line_numbers", False), allow_crossing=a.allow_crossing,
     )
 
 

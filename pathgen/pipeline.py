@@ -142,6 +142,27 @@ def _check_targets(targets: dict, force: bool) -> dict:
     return {kind: check_target(p, force=force) for kind, p in targets.items() if p is not None}
 
 
+def _refuse_crossing(outline, side, allow_crossing, scale, units) -> list[str]:
+    """A closed outline that crosses itself is not cut (unless asked, on the
+    line); returns the notes to pass on."""
+    from .simple import crossing
+
+    c = crossing(outline.points)
+    if c is None:
+        return []
+    u = "inch" if units == "inch" else "mm"
+    at = f"({c.x / scale:.4f}, {c.y / scale:.4f}) {u}"
+    if allow_crossing and side == "on":
+        return [f"the closed outline crosses itself at {at}; followed on the line as asked"]
+    a, b = c.rows
+    extra = (" (--allow-crossing follows a deliberate figure on the line, with --side on)"
+             if c.cause == "figure" else "")
+    raise InputError(f"{outline.where(a)}: the closed outline crosses itself at {at}, between the "
+                     f"segments from {outline.where(a)} and from {outline.where(b)}"
+                     f"{f' ({c.count} crossings)' if c.count > 1 else ''}: {c.hint()}; "
+                     f"a program cannot cut it{extra}")
+
+
 def _refuse_clobber(targets: dict, source) -> None:
     """Refuse outputs that would replace the input or each other."""
     seen = {}
@@ -162,6 +183,8 @@ def _refuse_clobber(targets: dict, source) -> None:
 #: 0.3 GB, 1.2e7 took 160 s and 3 GB on the 2-core test machine), tools up
 #: to TOOL_MAX, depths up to DEPTH_MAX in at most MAX_PASSES passes.
 SIZE_RANGE = (0.01, 10_000.0)
+#: Chord tolerance when none is given (mm), for mm and inch jobs alike.
+DEFAULT_TOLERANCE = 0.01
 TOLERANCE_MIN = 1e-4
 MAX_TOLERANCES = 2e6
 TOOL_MAX = 1000.0
@@ -226,7 +249,7 @@ def run(
     feed=None,
     accel=None,
     side: str = "outside",
-    tolerance: float = 0.01,
+    tolerance=None,
     moves: str = "arcs",
     depth=None,
     step_down=None,
@@ -238,6 +261,7 @@ def run(
     spindle_speed=None,
     one_feed: bool = False,
     line_numbers: bool = False,
+    allow_crossing: bool = False,
     gcode=None,
     dxf=None,
     report=None,
@@ -271,9 +295,10 @@ def run(
         Override the tool diameter (units), programmed feed (units/min) and
         machine acceleration (units/s²).
     side : {"outside", "inside", "on"}
-    tolerance : float
+    tolerance : float or None
         Chord tolerance (units): the written moves stay within it of the
-        exact tool-center curve.
+        exact tool-center curve.  None: 0.01 mm (0.00039 inch), the same
+        length in either unit.
     moves : {"arcs", "lines"}
     depth, step_down, safe_height : float or None
         Total cut depth, depth per pass, clearance height (units).
@@ -293,6 +318,10 @@ def run(
         Write one constant cutting feed instead of the planned feed per block.
     line_numbers : bool
         Number the program's blocks (N words).
+    allow_crossing : bool
+        Follow a closed outline that crosses itself (a deliberate figure,
+        engraved with ``side="on"``); otherwise such an outline is refused
+        for cutting (points out of order, a repeated lap, a figure-eight).
     gcode, dxf, report, plot : path or None
         Files to write.  ``report`` names the JSON report; a text version
         is written beside it with the suffix ``.txt``.
@@ -314,7 +343,7 @@ def run(
     if spindle_speed is not None:
         spindle_speed = check_positive("spindle speed", spindle_speed)
     scale = MM_PER_INCH if units == "inch" else 1.0
-    tol_mm = check_positive("tolerance", tolerance) * scale
+    tol_mm = DEFAULT_TOLERANCE if tolerance is None else check_positive("tolerance", tolerance) * scale
     tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
     smooth_mm = _length("smooth", smooth, scale)
     if seam is not None:
@@ -375,6 +404,10 @@ def run(
     closed = outline.closed
     _check_work(outline.points, tol_mm, tool_mm, _length("depth", depth, scale),
                 _length("step down", step_down, scale), units)
+    makes_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
+    early_notes = []
+    if closed and makes_path:
+        early_notes += _refuse_crossing(outline, side, allow_crossing, scale, units)
 
     # -- fit -----------------------------------------------------------------
     from .outline import fit_outline
@@ -397,7 +430,7 @@ def run(
 
     # -- toolpath --------------------------------------------------------------
     tp = None
-    if "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets)):
+    if makes_path:
         from .path.build import make_toolpath
 
         kw = {"moves": moves, "lead": lead, "seam": seam, "units": units, "direction": direction}
@@ -413,7 +446,7 @@ def run(
     from .export._atomic import Staging, clean_stale
 
     files = {}
-    notes = list(getattr(outline, "warnings", ()))
+    notes = list(getattr(outline, "warnings", ())) + early_notes
     for folder in sorted({str(p.parent) for p in targets.values()}):
         clean_stale(folder)
     # every output is written under a temporary name first; they appear
