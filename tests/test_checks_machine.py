@@ -108,7 +108,7 @@ def test_impossible_values_are_refused(make, match):
     ("units = 'inch'\nrapid_feed = 100000\n", "rapid_feed"),  # 2.54e6 mm/min
 ])
 def test_values_outside_any_machine_are_refused_with_the_line(tmp_path, text, key):
-    # Wide plausibility bounds (sources: machine-ranges, common practice):
+    # Wide plausibility bounds (common practice; sources: machine-ranges):
     # 1 to 1e6 mm/min, mm/s^2 or blocks/s.
     p = write(tmp_path, text)
     line = text.splitlines().index(next(l for l in text.splitlines() if l.startswith(key))) + 1
