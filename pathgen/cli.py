@@ -141,7 +141,14 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
     g.add_argument("--tool-diameter", type=_number, metavar="D", help="cutter diameter")
     g.add_argument("--side", choices=("outside", "inside", "on"), default="outside",
                    help="cut outside the outline, inside it (a pocket or hole) or on it (default: outside)")
-    g.add_argument("--feed", type=_number, metavar="F", help="programmed cutting feed per minute")
+    g.add_argument("--feed", type=_number, metavar="F",
+                   help="programmed cutting feed per minute (default: from the chip load, else 1000 mm/min; "
+                        "capped to the machine's highest feed)")
+    g.add_argument("--spindle-speed", type=_number, metavar="RPM",
+                   help="spindle speed; a program starts the spindle clockwise (S… M3) and stops it at the end (M5)")
+    g.add_argument("--flutes", type=_number, metavar="Z", help="cutting edges of the tool (for the chip-load feed)")
+    g.add_argument("--chip-load", type=_number, metavar="FZ",
+                   help="chip load per tooth; with --flutes and --spindle-speed sets the feed to Z x FZ x RPM")
     g.add_argument("--accel", type=_number, metavar="A", help="machine path acceleration per second squared")
     g.add_argument("--tolerance", type=_number, metavar="E",
                    help="chord tolerance: largest distance of the moves from the curve "
@@ -163,8 +170,6 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
 
     if program:
         g = p.add_argument_group("program")
-        g.add_argument("--spindle-speed", type=_number, metavar="RPM",
-                       help="start the spindle clockwise at this speed (S… M3) and stop it at the end (M5)")
         g.add_argument("--one-feed", action="store_true",
                        help="write one constant cutting feed instead of the planned feed per block")
         g.add_argument("--line-numbers", action="store_true", help="number the blocks (N words)")
@@ -290,7 +295,8 @@ def _run_options(a) -> dict:
         tolerance=a.tolerance, moves=a.moves, depth=a.depth, step_down=a.step_down,
         safe_height=a.safe_height, seam=a.seam, lead=a.lead, force=a.force,
         direction=a.direction, plunge_feed=a.plunge_feed,
-        spindle_speed=getattr(a, "spindle_speed", None), one_feed=getattr(a, "one_feed", False),
+        spindle_speed=a.spindle_speed, flutes=a.flutes, chip_load=a.chip_load,
+        one_feed=getattr(a, "one_feed", False),
         line_numbers=getattr(a, "line_numbers", False), allow_crossing=a.allow_crossing,
     )
 

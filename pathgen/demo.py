@@ -70,17 +70,17 @@ name = "small router"
 units = "mm"
 
 # Highest cutting feed the machine runs, mm/min.  [3000]
-max_feed = 4000.0
+highest_feed = 4000.0
 
 # Path acceleration limit, mm/s², used both for speeding up along the path
 # and for the centripetal acceleration v²/R on curves.  [500]
-max_accel = 300.0
+acceleration = 300.0
 
 # Motion blocks (G-code lines) the controller processes per second.  [250]
-block_rate = 400.0
+blocks_per_second = 400.0
 
 # Rapid traverse speed, mm/min (for the cycle-time estimate).  [5000]
-rapid_feed = 8000.0
+rapid_speed = 8000.0
 """
 
 

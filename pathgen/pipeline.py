@@ -20,6 +20,7 @@ from __future__ import annotations
 import math
 import os
 import time
+import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
@@ -142,6 +143,42 @@ def _check_targets(targets: dict, force: bool) -> dict:
     return {kind: check_target(p, force=force) for kind, p in targets.items() if p is not None}
 
 
+def _cutting_feed(feed, flutes, chip_load, spindle_speed, scale, machine, units):
+    """The cutting feed (mm/min or None for the default) and notes about it.
+
+    Given ``feed`` wins; else flutes × chip load × spindle speed (common
+    practice; sources: chip-load) when all three are given.  A feed above
+    the machine's highest feed is capped to it and said.
+    """
+    u = "inch" if units == "inch" else "mm"
+    notes = []
+    given = [v is not None for v in (flutes, chip_load)]
+    if any(given) and not all(given):
+        raise InputError("a feed from the chip load needs both flutes (--flutes) and chip load (--chip-load)")
+    if feed is not None:
+        f = check_positive("feed", feed) * scale
+        source = "the feed asked for"
+    elif all(given):
+        if spindle_speed is None:
+            raise InputError("a feed from the chip load needs the spindle speed (--spindle-speed)")
+        z = check_positive("flutes", flutes)
+        if z != int(z) or z > 100:
+            raise InputError(f"flutes must be a whole number from 1 to 100, got {flutes!r}")
+        fz = check_positive("chip load", chip_load) * scale
+        f = z * fz * check_positive("spindle speed", spindle_speed)
+        source = (f"the feed from the chip load ({int(z)} flutes x {fz / scale:g} {u} x "
+                  f"{spindle_speed:g} rev/min = {f / scale:.6g} {u}/min)")
+        notes.append(f"cutting feed {f / scale:.6g} {u}/min from {int(z)} flutes x {fz / scale:g} {u} "
+                     f"per tooth x {spindle_speed:g} rev/min")
+    else:
+        return None, notes
+    if f > machine.max_feed:
+        notes.append(f"{source} is above the machine's highest feed {machine.max_feed / scale:.6g} {u}/min: "
+                     f"capped to {machine.max_feed / scale:.6g} {u}/min")
+        f = machine.max_feed
+    return f, notes
+
+
 def _refuse_crossing(outline, side, allow_crossing, scale, units) -> list[str]:
     """A closed outline that crosses itself is not cut (unless asked, on the
     line); returns the notes to pass on."""
@@ -259,6 +296,8 @@ def run(
     direction: str = "climb",
     plunge_feed=None,
     spindle_speed=None,
+    flutes=None,
+    chip_load=None,
     one_feed: bool = False,
     line_numbers: bool = False,
     allow_crossing: bool = False,
@@ -314,6 +353,11 @@ def run(
     spindle_speed : float or None
         rev/min; when given the program starts the spindle (S… M3) and
         stops it at the end (M5).
+    flutes, chip_load : int, float or None
+        Cutting edges of the tool and chip load per tooth (units): without
+        ``feed``, the cutting feed is flutes × chip load × spindle speed.
+        Any feed above the machine's highest feed is capped to it, with a
+        note.
     one_feed : bool
         Write one constant cutting feed instead of the planned feed per block.
     line_numbers : bool
@@ -360,14 +404,17 @@ def run(
         raise InputError(f"a program cutting {side} the outline needs the tool diameter "
                          "(tool_diameter=, --tool-diameter), or side='on' (--side on) to follow the line")
     overrides = {"max_accel": _length("accel", accel, scale)}
-    if isinstance(machine, Machine):
-        mach = load_machine(None, **{**machine.__dict__, **{k: v for k, v in overrides.items() if v}})
-    else:
-        mach = load_machine(machine, **overrides)
+    with warnings.catch_warnings(record=True) as machine_notes:
+        warnings.simplefilter("always")
+        if isinstance(machine, Machine):
+            mach = load_machine(None, **{**machine.__dict__, **{k: v for k, v in overrides.items() if v}})
+        else:
+            mach = load_machine(machine, **overrides)
     tool = Tool(tool_mm if tool_mm is not None else 0.0)
     cut_kw = {"side": side, "tolerance": tol_mm}
-    if feed is not None:
-        cut_kw["feed"] = check_positive("feed", feed) * scale
+    feed_mm, feed_notes = _cutting_feed(feed, flutes, chip_load, spindle_speed, scale, mach, units)
+    if feed_mm is not None:
+        cut_kw["feed"] = feed_mm
     cut = Cut(**cut_kw)
     targets = _check_targets({"gcode": gcode, "dxf": dxf, "report": report, "plot": plot}, force)
     if "report" in targets:
@@ -405,7 +452,7 @@ def run(
     _check_work(outline.points, tol_mm, tool_mm, _length("depth", depth, scale),
                 _length("step down", step_down, scale), units)
     makes_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
-    early_notes = []
+    early_notes = [str(w.message) for w in machine_notes] + list(feed_notes)
     if closed and makes_path:
         early_notes += _refuse_crossing(outline, side, allow_crossing, scale, units)
 
@@ -441,8 +488,6 @@ def run(
         tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
 
     # -- write -----------------------------------------------------------------
-    import warnings
-
     from .export._atomic import Staging, clean_stale
 
     files = {}

@@ -32,7 +32,7 @@ def test_sample_profiles_load_with_plausible_values(name):
 
 def test_defaults_and_overrides(tmp_path):
     assert load_machine() == Machine()
-    p = write(tmp_path, 'name = "shop router"\nmax_feed = 2500\n')
+    p = write(tmp_path, 'name = "shop router"\nhighest_feed = 2500\n')
     m = load_machine(p, max_accel=800, block_rate=None)
     assert (m.name, m.max_feed, m.max_accel, m.block_rate) == ("shop router", 2500.0, 800.0, 250.0)
     assert m.rapid_feed == Machine().rapid_feed  # missing key: the default
@@ -40,7 +40,7 @@ def test_defaults_and_overrides(tmp_path):
 
 def test_inch_profile_is_converted_to_mm(tmp_path):
     # 1 inch = 25.4 mm exactly (international inch, 1959).
-    p = write(tmp_path, 'units = "inch"\nmax_feed = 100\nmax_accel = 10\nblock_rate = 300\n')
+    p = write(tmp_path, 'units = "inch"\nhighest_feed = 100\nacceleration = 10\nblocks_per_second = 300\n')
     m = load_machine(p)
     assert m.max_feed == pytest.approx(2540.0)
     assert m.max_accel == pytest.approx(254.0)
@@ -50,13 +50,15 @@ def test_inch_profile_is_converted_to_mm(tmp_path):
 @pytest.mark.parametrize(
     "text, match",
     [
-        ("max_feed = -5\n", r"m\.toml, line 1: max_feed must be a finite number > 0, got -5"),
-        ("name = 'x'\nmax_accel = 0\n", r"line 2: max_accel must be a finite number > 0, got 0"),
-        ("max_accel = nan\n", r"line 1: max_accel must be a finite number > 0, got nan"),
-        ("max_accel = inf\n", r"max_accel must be a finite number > 0, got inf"),
-        ("block_rate = true\n", r"block_rate must be a finite number > 0, got True"),
-        ("block_rate = '250'\n", r"block_rate must be a finite number > 0, got '250'"),
-        ("\nacceleration = 500\n", r"line 2: unknown key 'acceleration'; valid keys: max_feed"),
+        ("highest_feed = -5\n", r"m\.toml, line 1: highest_feed must be a finite number > 0, got -5"),
+        ("name = 'x'\nacceleration = 0\n", r"line 2: acceleration must be a finite number > 0, got 0"),
+        ("acceleration = nan\n", r"line 1: acceleration must be a finite number > 0, got nan"),
+        ("acceleration = inf\n", r"acceleration must be a finite number > 0, got inf"),
+        ("blocks_per_second = true\n", r"blocks_per_second must be a finite number > 0, got True"),
+        ("blocks_per_second = '250'\n", r"blocks_per_second must be a finite number > 0, got '250'"),
+        ("\naccel = 500\n", r"line 2: unknown key 'accel'; valid keys: highest_feed, acceleration"),
+        ("acceleration = 500\nmax_accel = 400\n", r"line 2: 'max_accel' is the old name of 'acceleration', "
+                                                   r"which is also given"),
         ("units = 'cm'\n", r"units = 'cm' is not one of: 'mm', 'inch'"),
         ("name = 5\n", r"line 1: name must be text"),
         ("max_feed = \n", r"m\.toml: not valid TOML: .*line 1"),
@@ -102,10 +104,10 @@ def test_impossible_values_are_refused(make, match):
 
 
 @pytest.mark.parametrize("text, key", [
-    ("block_rate = 1e-300\n", "block_rate"),   # F1 everywhere and a 0 s cycle time before
-    ("max_feed = 1e12\n", "max_feed"),
-    ("max_accel = 0.001\n", "max_accel"),
-    ("units = 'inch'\nrapid_feed = 100000\n", "rapid_feed"),  # 2.54e6 mm/min
+    ("blocks_per_second = 1e-300\n", "blocks_per_second"),   # F1 everywhere and a 0 s cycle time before
+    ("highest_feed = 1e12\n", "highest_feed"),
+    ("acceleration = 0.001\n", "acceleration"),
+    ("units = 'inch'\nrapid_speed = 100000\n", "rapid_speed"),  # 2.54e6 mm/min
 ])
 def test_values_outside_any_machine_are_refused_with_the_line(tmp_path, text, key):
     # Wide plausibility bounds (common practice; sources: machine-ranges):
@@ -114,5 +116,31 @@ def test_values_outside_any_machine_are_refused_with_the_line(tmp_path, text, ke
     line = text.splitlines().index(next(l for l in text.splitlines() if l.startswith(key))) + 1
     with pytest.raises(InputError, match=rf"line {line}: {key} = .* outside the accepted range"):
         load_machine(p)
+    field = {"blocks_per_second": "block_rate", "highest_feed": "max_feed", "acceleration": "max_accel",
+             "rapid_speed": "rapid_feed"}[key]
     with pytest.raises(InputError, match="outside the accepted range"):
-        Machine(**{key: 1e-3 if key != "max_feed" else 1e9})
+        Machine(**{field: 1e-3 if field != "max_feed" else 1e9})
+
+
+def test_old_profile_keys_are_still_read_with_a_note(tmp_path):
+    # the keys of the previous release keep working for one release
+    p = write(tmp_path, "max_feed = 2500\nmax_accel = 800\nblock_rate = 300\nrapid_feed = 9000\n")
+    with pytest.warns(UserWarning, match=r"line 2: 'max_accel' is the old name of 'acceleration'"):
+        m = load_machine(p)
+    assert (m.max_feed, m.max_accel, m.block_rate, m.rapid_feed) == (2500.0, 800.0, 300.0, 9000.0)
+    new = write(tmp_path, "highest_feed = 2500\nacceleration = 800\nblocks_per_second = 300\n"
+                          "rapid_speed = 9000\n", name="new.toml")
+    assert load_machine(new) == m
+
+
+def test_old_key_notes_reach_the_user(tmp_path):
+    import io
+
+    from pathgen.cli import main
+
+    p = write(tmp_path, "max_accel = 800\n")
+    pts = tmp_path / "c.csv"
+    pts.write_text("x,y\n0,0\n10,0\n10,10\n0,10\n")
+    err = io.StringIO()
+    status = main(["check", str(pts), "--closed", "--machine", str(p)], out=io.StringIO(), err=err)
+    assert status == 0 and "'max_accel' is the old name of 'acceleration'" in err.getvalue()

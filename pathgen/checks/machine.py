@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import math
 import re
+import warnings
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -99,7 +100,12 @@ DEFAULT_MACHINE = Machine()
 
 
 _NUMERIC_FIELDS = ("max_feed", "max_accel", "block_rate", "rapid_feed")
-_KEYS = _NUMERIC_FIELDS + ("name", "units")
+#: Profile keys (TOML) and the Machine fields they set.
+PROFILE_KEYS = {"highest_feed": "max_feed", "acceleration": "max_accel",
+                "blocks_per_second": "block_rate", "rapid_speed": "rapid_feed"}
+#: Keys of earlier releases, still read (with a note) for one release.
+OLD_PROFILE_KEYS = {field: key for key, field in PROFILE_KEYS.items()}
+_KEYS = tuple(PROFILE_KEYS) + ("name", "units")
 
 
 def _toml_line(text: str, key: str) -> int | None:
@@ -140,11 +146,14 @@ def load_machine(path=None, **overrides) -> Machine:
     ----------
     path : str, Path or None
         A TOML file with any of the keys ``name`` (text), ``units`` ("mm"
-        or "inch": the unit of the numbers in the file), ``max_feed``
-        (units/min), ``max_accel`` (units/s²), ``block_rate`` (blocks/s)
-        and ``rapid_feed`` (units/min).  Missing keys take the defaults of
-        :class:`Machine`; unknown keys are refused (a typo would silently
-        fall back to a default).  None: the defaults only.
+        or "inch": the unit of the numbers in the file), ``highest_feed``
+        (units/min), ``acceleration`` (units/s²), ``blocks_per_second``
+        and ``rapid_speed`` (units/min); they set the Machine fields
+        ``max_feed``, ``max_accel``, ``block_rate`` and ``rapid_feed``.  The
+        earlier key names (the field names) are still read, with a warning.
+        Missing keys take the defaults of :class:`Machine`; unknown keys are
+        refused (a typo would silently fall back to a default).  None: the
+        defaults only.
     **overrides
         ``max_feed``, ``max_accel``, ``block_rate``, ``rapid_feed`` (always
         mm and minutes/seconds) or ``name``; a value of None is ignored, so
@@ -179,6 +188,17 @@ def load_machine(path=None, **overrides) -> Machine:
             line = _toml_line(text, key)
             return f"{path}, line {line}" if line else f"{path}"
 
+        data, given_as = dict(data), {}
+        for key in list(data):
+            if key in OLD_PROFILE_KEYS:
+                new = OLD_PROFILE_KEYS[key]
+                if new in data:
+                    raise InputError(f"{where(key)}: {key!r} is the old name of {new!r}, which is also "
+                                     f"given; keep only {new!r}")
+                warnings.warn(f"{where(key)}: {key!r} is the old name of {new!r}; it is still read, "
+                              f"but rename it to {new!r}", UserWarning, stacklevel=2)
+                data[new] = data.pop(key)
+                given_as[new] = key
         for key, value in data.items():
             if key not in _KEYS:
                 valid = ", ".join(_KEYS)
@@ -191,19 +211,20 @@ def load_machine(path=None, **overrides) -> Machine:
             if not isinstance(data["name"], str):
                 raise InputError(f"{where('name')}: name must be text, got {data['name']!r}")
             values["name"] = data["name"]
-        for key in _NUMERIC_FIELDS:
+        for key, field in PROFILE_KEYS.items():
             if key not in data:
                 continue
             value = data[key]
+            name = given_as.get(key, key)
             bad = isinstance(value, bool) or not isinstance(value, (int, float))
             if bad or not (math.isfinite(value) and value > 0):
                 raise InputError(
-                    f"{where(key)}: {key} must be a finite number > 0, got {value!r}"
+                    f"{where(name)}: {name} must be a finite number > 0, got {value!r}"
                 )
-            values[key] = float(value) * (1.0 if key == "block_rate" else scale)
-            problem = _out_of_range(key, values[key])
+            values[field] = float(value) * (1.0 if field == "block_rate" else scale)
+            problem = _out_of_range(field, values[field])
             if problem:
-                raise InputError(f"{where(key)}: {problem}")
+                raise InputError(f"{where(name)}: {problem.replace(field, name, 1)}")
     for key, value in overrides.items():
         if key not in _NUMERIC_FIELDS + ("name",):
             valid = ", ".join(_NUMERIC_FIELDS + ("name",))
