@@ -188,7 +188,7 @@ def test_batch_good_and_bad(mixed_folder, tmp_path, jobs):
         assert bad in by[bad]["message"]
     for good in ("bracket", "profile"):
         row = by[f"{good}.csv"]
-        assert row["exit"] in (0, 1) and row["blocks"] > 0 and row["length"] > 0
+        assert row["exit"] == 0 and row["blocks"] > 0 and row["length"] > 0  # a 6 mm tool reaches both
         text = (out / f"{good}.nc").read_text()
         assert text.rstrip().endswith(("M2", "M30"))
     assert not (out / "nan.nc").exists() and not (out / "empty.nc").exists()

@@ -232,3 +232,33 @@ def test_inch_toolpath_is_drawn_where_the_mm_one_is():
     far = max(float(np.abs(a).max()) for a in l_in)
     x0, y0, x1, y1 = contour.bbox
     assert far >= max(abs(x0), abs(x1), abs(y0), abs(y1)) / 25.4
+
+
+def test_tight_spot_rings_are_drawn_where_the_spots_are(tmp_path):
+    # The picture's content, read back as pixels (PNG decoded by
+    # matplotlib.image.imread): each tight spot has a ring in the spot colour
+    # (#c2185b) about 15 px (a 22 pt marker at 100 dpi) around its position,
+    # and a place with no spot has none.
+    from matplotlib.image import imread
+
+    from pathgen.export.plot import _COLORS
+
+    contour, rep = _part(), _spots(4)
+    path = plot(tmp_path / "spots.png", contour, report=rep)
+    img = imread(path)[:, :, :3]
+    height = img.shape[0]
+    fig = plot_figure(contour, report=rep)
+    fig.canvas.draw()
+    to_px = fig.axes[0].transData.transform
+    want = np.array([int(_COLORS["spot"][i:i + 2], 16) / 255 for i in (1, 3, 5)])
+    yy, xx = np.mgrid[0:height, 0:img.shape[1]]
+    close = np.abs(img - want).max(axis=2) < 0.12
+
+    def ring_pixels(x, y):
+        px, py = to_px((x, y))
+        r = np.hypot(xx - px, yy - (height - py))
+        return int(np.sum(close & (r >= 10) & (r <= 20)))
+
+    for s in rep.tight_spots:
+        assert ring_pixels(s.x, s.y) >= 20, (s.x, s.y)  # the contour line covers part of a ring
+    assert ring_pixels(0.0, 0.0) == 0  # the middle of the part: no spot there
