@@ -140,10 +140,36 @@ def _coincide(p, i, j):
     raise InputError(f"points rows {i} and {j} coincide ({p[i].tolist()}): remove repeated points")
 
 
-def _tridiag_solve(dl, d, du, b):
-    """Solve the tridiagonal system (dl, d, du) x = b for b of shape (n, k)."""
+#: Systems up to this size are solved densely with numpy (LU with partial
+#: pivoting, as LAPACK's dgtsv does): a few milliseconds, and a small job
+#: does not pay the half second it takes to import scipy.linalg.
+DENSE_MAX = 400
+
+
+def tridiag_solve(dl, d, du, b):
+    """Solve the tridiagonal system (dl, d, du) x = b for b of shape (n, k).
+
+    The one tridiagonal solver of the package: LAPACK's dgtsv (Gaussian
+    elimination with partial pivoting, O(n)) for large systems, numpy's dense
+    solve (the same pivoting) up to :data:`DENSE_MAX` rows.
+
+    >>> x = tridiag_solve(np.ones(2), np.full(3, 4.0), np.ones(2), np.array([[5.0], [6.0], [5.0]]))
+    >>> bool(np.allclose(x, 1.0))
+    True
+    """
     if len(d) == 1:
         return b / d[0]
+    if len(d) <= DENSE_MAX:
+        n = len(d)
+        A = np.zeros((n, n))
+        i = np.arange(n)
+        A[i, i] = d
+        A[i[1:], i[:-1]] = dl
+        A[i[:-1], i[1:]] = du
+        try:
+            return np.linalg.solve(A, b)
+        except np.linalg.LinAlgError:  # pragma: no cover - diagonally dominant systems do not fail
+            raise InputError("spline system is singular") from None
     from scipy.linalg.lapack import dgtsv
 
     _, _, _, x, info = dgtsv(dl, d, du, b, True, True, True, True)
@@ -179,7 +205,7 @@ def _moments(h: np.ndarray, slopes, end: str, closed: bool, tangents) -> np.ndar
             b[:, k] *= 6.0 / hs
         b[0, 2] = gamma
         b[-1, 2] = alpha
-        x = _tridiag_solve(mu[1:].copy(), d, lam[:-1].copy(), b)
+        x = tridiag_solve(mu[1:].copy(), d, lam[:-1].copy(), b)
         z = x[:, 2]
         factor = beta / gamma
         vz = z[0] + factor * z[-1]
@@ -212,7 +238,7 @@ def _moments(h: np.ndarray, slopes, end: str, closed: bool, tangents) -> np.ndar
         du[1:] = lam
         dl[-1] = 1.0
         dl[:-1] = mu
-        M[:] = _tridiag_solve(dl, d, du, b).T
+        M[:] = tridiag_solve(dl, d, du, b).T
         return M
     rhs = np.empty((n - 1, 2), order="F")
     for k, sl in enumerate(slopes):
@@ -225,7 +251,7 @@ def _moments(h: np.ndarray, slopes, end: str, closed: bool, tangents) -> np.ndar
     du = lam[:-1].copy()
     dl = mu[1:].copy()
     if end == "natural":
-        M[:, 1:n] = _tridiag_solve(dl, d, du, rhs).T
+        M[:, 1:n] = tridiag_solve(dl, d, du, rhs).T
         return M
     # not-a-knot: eliminate h1 M0 - (h0+h1) M1 + h0 M2 = 0 and its mirror
     r0 = h[0] / h[1]
@@ -234,7 +260,7 @@ def _moments(h: np.ndarray, slopes, end: str, closed: bool, tangents) -> np.ndar
     d[-1] = 2.0 + r1
     du[0] = 1.0 - r0
     dl[-1] = 1.0 - r1
-    inner = _tridiag_solve(dl, d, du, rhs)
+    inner = tridiag_solve(dl, d, du, rhs)
     M[:, 1:n] = inner.T
     M[:, 0] = ((h[0] + h[1]) * inner[0] - h[0] * inner[1]) / h[1]
     M[:, n] = ((h[-2] + h[-1]) * inner[-1] - h[-1] * inner[-2]) / h[-2]

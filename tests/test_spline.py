@@ -350,3 +350,33 @@ def test_public_api_is_lazy_and_complete():
     assert "fit" in dir(pathgen)
     with pytest.raises(AttributeError, match="no attribute 'nothing'"):
         pathgen.nothing  # noqa: B018
+
+
+@pytest.mark.parametrize("n", [3, 50, 399, 401, 1200])
+def test_tridiag_solve_small_and_large_agree_with_a_dense_solve(n):
+    # the one tridiagonal solver: dense numpy below DENSE_MAX rows, LAPACK
+    # dgtsv above; both against numpy.linalg.solve on the full matrix
+    from pathgen.spline import DENSE_MAX, tridiag_solve
+
+    rng = np.random.default_rng(n)
+    dl, du = rng.uniform(-1, 1, n - 1), rng.uniform(-1, 1, n - 1)
+    d = 2.5 + rng.uniform(0, 1, n)
+    b = rng.normal(size=(n, 2))
+    A = np.diag(d) + np.diag(dl, -1) + np.diag(du, 1)
+    x = tridiag_solve(dl.copy(), d.copy(), du.copy(), b.copy())
+    np.testing.assert_allclose(x, np.linalg.solve(A, b), rtol=1e-12, atol=1e-12)
+    assert (n <= DENSE_MAX) == (n < 400)
+
+
+def test_a_small_fit_does_not_import_scipy():
+    # a 200-point outline is fitted without scipy (its import costs about
+    # half a second on a small machine, more than the fit)
+    import subprocess
+    import sys
+
+    code = ("import sys, numpy as np; from pathgen.spline import fit; "
+            "th = np.linspace(0, 6.28, 200, endpoint=False); "
+            "fit(np.c_[np.cos(th), np.sin(th)], closed=True); fit(np.c_[th, np.sin(th)]); "
+            "print(any(m.startswith('scipy') for m in sys.modules))")
+    out = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True, check=True)
+    assert out.stdout.strip() == "False"
