@@ -186,3 +186,17 @@ def test_loop_removal_keeps_the_side_clear_of_the_part(make, side):
     # outside cut, inside the outline for a pocket
     inside = shapely.contains(shapely.Polygon(dense), shapely.Point(pts[0][0]))
     assert inside == (side == "inside")
+
+
+def test_a_straight_open_line_is_cut_along_its_parallel():
+    # A straight open outline (a 100 mm edge): its offset by r is the
+    # parallel line at distance r (sources: farouki-neff-1990).  It was
+    # refused with "use a smaller tool": one move was taken for a failed trim.
+    x = np.linspace(0, 100, 50)
+    contour = fit_outline(clean_points(np.c_[x, 0 * x], closed=False))
+    tp = make_toolpath(contour, Tool(6.0), Cut(side="outside"), lead="none")
+    cut = tp.kind == LINE
+    horizontal = cut & (tp.start[:, 2] == tp.end[:, 2])
+    ends = np.vstack([tp.start[horizontal, :2], tp.end[horizontal, :2]])
+    np.testing.assert_allclose(ends[:, 1], -3.0, atol=1e-9)  # outside = right of travel along +x
+    assert ends[:, 0].min() == pytest.approx(0.0, abs=1e-9) and ends[:, 0].max() == pytest.approx(100.0)

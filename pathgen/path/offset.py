@@ -572,7 +572,7 @@ def _remove_loops(chain, closed, dist, r, tol, max_rounds=200):
         if not done:
             done_all = not real
             break
-    if len(chain) < 2 or float(_lengths(chain).sum()) < 0.25 * before_len or not done_all:
+    if len(chain) == 0 or float(_lengths(chain).sum()) < 0.25 * before_len or not done_all:
         # the crossings did not resolve into one simple path: refuse rather
         # than hand out a path that may cut into the part
         x = spots[-1] if spots else _spot(before.start[0], "overlap")
