@@ -264,3 +264,18 @@ def test_tight_spot_rings_are_drawn_where_the_spots_are(tmp_path):
     for s in rep.tight_spots:
         assert ring_pixels(s.x, s.y) >= 40, (s.x, s.y)
     assert ring_pixels(0.0, 0.0) == 0  # the middle of the part: no spot there
+
+
+def test_spots_the_tool_cannot_reach_say_cannot_cut():
+    # "F 0 mm/min" read as a feed to set; a spot with no feed cannot be cut
+    from pathgen.checks.machine import Cut, Tool
+    from pathgen.checks.report import check
+
+    t = np.linspace(0, 2 * np.pi, 120, endpoint=False)
+    r = 30 - 6 * np.exp(-((t - np.pi / 2) / 0.08) ** 2)  # a narrow dent a 10 mm tool cannot reach
+    contour = fit(np.c_[r * np.cos(t), r * np.sin(t)], closed=True)
+    rep = check(contour, tool=Tool(10.0), cut=Cut(side="outside"))
+    assert any(s.reason == "reach" or "reach" in s.text for s in rep.tight_spots)
+    fig = plot_figure(contour, report=rep)
+    texts = " | ".join(t.get_text() for t in fig.texts + [a for ax in fig.axes for a in ax.texts])
+    assert "cannot cut" in texts and "F 0 " not in texts

@@ -132,7 +132,9 @@ def _spot_label(spots, members, u: str) -> str:
     radius = min(spots[m][2] for m in members)
     feed = min(spots[m][3] for m in members)
     rtext = "sharp corner" if radius == 0 else f"R {_fmt(radius)} {u}"
-    return f"{ids}: {reasons[0] if len(reasons) == 1 else 'several reasons'}\n{rtext}, F {_fmt(feed)} {u}/min"
+    # a spot the tool cannot reach has no feed: it cannot be cut at all
+    ftext = "cannot cut" if not feed > 0 else f"F {_fmt(feed)} {u}/min"
+    return f"{ids}: {reasons[0] if len(reasons) == 1 else 'several reasons'}\n{rtext}, {ftext}"
 
 
 def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str = "mm"):
