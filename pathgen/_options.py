@@ -41,6 +41,16 @@ UNITS = ("mm", "inch")
 CLOSE_RTOL = 1e-9
 
 
+#: The caution every output carries (command line, program header, report,
+#: drawing, picture): one text, in two sentences so that each fits a G-code
+#: comment line.
+CAUTION_LINES = (
+    "CAUTION: pathgen does not know your machine, fixturing, tool stick-out, material or work offsets.",
+    "Verify every program by simulation or an air cut, following your shop's practice and local "
+    "safety rules, before cutting.",
+)
+CAUTION = " ".join(CAUTION_LINES)
+
 SIDES = ("outside", "inside", "on")
 
 

@@ -25,15 +25,11 @@ import math
 import os
 import sys
 
+from ._options import CAUTION
 from ._version import __version__
 
 __all__ = ["main", "CAUTION"]
 
-CAUTION = (
-    "CAUTION: pathgen does not know your machine, fixturing, tool stick-out, material or "
-    "work offsets. Verify every program by simulation or an air cut, following your shop's "
-    "practice and local safety rules, before cutting."
-)
 
 EXIT_OK, EXIT_TIGHT, EXIT_BAD, EXIT_INTERNAL = 0, 1, 2, 3
 
@@ -233,7 +229,7 @@ def _summary_lines(result) -> list[str]:
     text = _report_text(result)
     if text:
         # the report's own caution line is left to the command's closing CAUTION
-        body = [ln for ln in text.rstrip("\n").splitlines() if not ln.startswith("Verify every toolpath")]
+        body = [ln for ln in text.rstrip("\n").splitlines() if ln != CAUTION]
         lines = [f"{result.source}:", *body]
     else:
         f = result.facts

@@ -267,7 +267,7 @@ def test_layers_and_caution_note(tmp_path):
     names = {layer.dxf.name for layer in doc.layers}
     assert {"POINTS", "CONTOUR", "CONTOUR-ARCS", "TOOL-CENTER", "TIGHT-SPOTS", "NOTES"} <= names
     (note,) = msp.query("TEXT[layer=='NOTES']")
-    assert "Verify every toolpath (simulate or air-cut)" in note.dxf.text
+    assert "Verify every program by simulation or an air cut" in note.dxf.text
     contour = _ellipse()
     got = np.array([(p.dxf.location.x, p.dxf.location.y) for p in msp.query("POINT[layer=='POINTS']")])
     assert np.array_equal(got, contour.points)  # same geometry read back, in drawing order

@@ -374,7 +374,7 @@ def test_header_states_the_facts_and_the_caution():
     assert "chord tolerance: 0.01 mm; measured deviation: 0.0042 mm" in joined
     assert "estimated cycle time: 1 min 23.4 s" in joined
     assert "passes: 2" in joined and "safe height: 5 mm" in joined
-    assert "Verify this program by simulation or an air cut" in joined
+    assert "Verify every program by simulation or an air cut" in joined
     assert "local safety rules" in joined
     first_code = text.splitlines().index("G21 G90 G17 G94 G40")
     assert first_code == len(head)  # header first, then the preamble

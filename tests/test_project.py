@@ -137,3 +137,18 @@ def test_sources_are_cited_inside_the_project():
             outside.append(str(path.relative_to(ROOT)))
     assert not unknown, unknown
     assert not outside, outside
+
+
+def test_one_caution_text_everywhere():
+    # one text, defined once: the command line, the program header, the
+    # report, the drawing and the picture all carry it
+    from pathgen import _options
+    from pathgen.checks import report
+    from pathgen.cli import CAUTION as cli_caution
+    from pathgen.export import gcode
+
+    assert cli_caution == report.CAUTION == _options.CAUTION
+    assert gcode.CAUTION == _options.CAUTION_LINES and all(len(c) + 2 <= 256 for c in gcode.CAUTION)
+    defined = [p.relative_to(ROOT) for p in (ROOT / "pathgen").rglob("*.py")
+               if re.search(r"^CAUTION\w* = \(", p.read_text(encoding="utf-8"), flags=re.M)]
+    assert [str(p) for p in defined] == ["pathgen/_options.py"]

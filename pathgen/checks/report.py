@@ -20,7 +20,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .._options import MM_PER_INCH, UNITS, check_option
+from .._options import CAUTION, MM_PER_INCH, UNITS, check_option
 from .feed import FeedPlan, _tool_cut, cut_sign, plan_from_limits, speed_limits
 from .machine import Cut, Machine, Tool
 
@@ -35,10 +35,6 @@ REASONS = {
 
 REPORT_VERSION = 1
 
-CAUTION = (
-    "Verify every toolpath by simulation or an air cut, under your shop's practice "
-    "and local safety rules, before cutting."
-)
 
 # relative margin under which a limit counts as "below the programmed feed"
 _BELOW = 1.0 - 1e-9

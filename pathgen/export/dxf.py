@@ -32,7 +32,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .._options import MM_PER_INCH, UNITS, check_option
+from .._options import CAUTION, MM_PER_INCH, UNITS, check_option
 from ..errors import ExportError, InputError
 from ..path.model import ARC_CCW, ARC_CW, RAPID, Toolpath, arc_sweep
 from ._atomic import atomic_paths
@@ -54,7 +54,6 @@ LARGE_DRAWING = 100_000
 #: without ``points=``, the contour's points are drawn only up to this many
 MAX_DEFAULT_POINTS = 20_000
 
-CAUTION = "Verify every toolpath (simulate or air-cut) under your shop's practice and local safety rules before cutting."
 
 
 class LargeDrawingWarning(UserWarning):

@@ -39,7 +39,7 @@ from pathlib import Path
 
 import numpy as np
 
-from .._options import duration_text
+from .._options import CAUTION_LINES, duration_text
 from ..errors import ExportError, InputError
 from ..path.model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath, arc_sweep
 from ._atomic import atomic_write
@@ -47,10 +47,7 @@ from ._atomic import atomic_write
 __all__ = ["gcode_text", "write_gcode", "CAUTION", "MIN_DECIMALS", "RADIUS_RULE"]
 
 #: The caution written into every program header (two comment lines).
-CAUTION = (
-    "CAUTION: pathgen does not know your machine, fixturing, tool stick-out, material or work offsets.",
-    "Verify this program by simulation or an air cut, under your shop's practice and local safety rules, before cutting.",
-)
+CAUTION = CAUTION_LINES
 
 #: Fewest decimals allowed per unit: 3 decimals in mm can break the radius rule.
 MIN_DECIMALS = {"mm": 4, "inch": 5}

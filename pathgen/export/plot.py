@@ -19,15 +19,13 @@ from pathlib import Path
 
 import numpy as np
 
-from .._options import MM_PER_INCH, UNITS, check_option, duration_text
+from .._options import CAUTION, CAUTION_LINES, MM_PER_INCH, UNITS, check_option, duration_text
 from ..errors import InputError
 from ..path.model import ARC_CCW, ARC_CW, RAPID, Toolpath
 from ._atomic import atomic_paths
 
 __all__ = ["plot", "plot_figure", "CAUTION"]
 
-CAUTION = ("Verify every toolpath (simulate or air-cut) under your shop's practice "
-           "and local safety rules before cutting.")
 
 #: at most this many tight spots get a text label (the tightest first)
 MAX_LABELS = 12
@@ -157,7 +155,7 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
         raise InputError(f"toolpath must be a Toolpath, got {type(toolpath).__name__}")
 
     fig = Figure(figsize=(12, 8), dpi=100)
-    ax = fig.add_axes((0.06, 0.1, 0.64, 0.8))
+    ax = fig.add_axes((0.06, 0.13, 0.64, 0.77))  # room below for the two lines of the caution
     ax.set_aspect("equal", adjustable="datalim")
     legend = []
 
@@ -274,7 +272,8 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
             facts.append(f"one pass along the contour {float(ct):.1f} s")
     fig.text(0.72, 0.32, "\n".join(facts), fontsize=11.5, va="top", family="DejaVu Sans", linespacing=1.6)
     fig.suptitle("pathgen: contour, tool path and tight spots", fontsize=15, x=0.06, ha="left", y=0.97)
-    fig.text(0.06, 0.025, "CAUTION: " + CAUTION, fontsize=11, color="#b00020", weight="bold")
+    fig.text(0.06, 0.012, "\n".join(CAUTION_LINES), fontsize=10, color="#b00020", weight="bold",
+             linespacing=1.3)
     return fig
 
 
