@@ -35,6 +35,7 @@ from dataclasses import dataclass, field
 import numpy as np
 
 from ._options import CLOSE_RTOL, check_flag, check_option
+from .geometry import curvature
 from .errors import InputError
 
 __all__ = ["fit", "Contour", "ENDS", "PARAMS", "as_points", "parameters"]
@@ -516,11 +517,7 @@ class Contour:
 
         Positive on a left (counter-clockwise) turn.
         """
-        d1 = self(t, 1)
-        d2 = self(t, 2)
-        cross = d1[..., 0] * d2[..., 1] - d1[..., 1] * d2[..., 0]
-        speed2 = d1[..., 0] ** 2 + d1[..., 1] ** 2
-        return cross / speed2**1.5
+        return curvature(self(t, 1), self(t, 2))
 
     def tangent(self, t) -> np.ndarray:
         """Unit tangent at t, shape t.shape + (2,)."""

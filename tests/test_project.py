@@ -39,7 +39,7 @@ def test_readme_and_help_carry_the_caution():
 
 # Stages of the data flow; a module may import only its own stage or earlier ones.
 _STAGES = [
-    {"errors", "_options", "_version"},
+    {"errors", "_options", "_version", "geometry"},
     {"spline", "points", "outline", "smooth", "simple"},
     {"checks"},
     {"path"},

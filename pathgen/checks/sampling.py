@@ -21,6 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
+from ..geometry import curvature
 
 __all__ = ["Samples", "sample_contour", "CORNER_MIN_ANGLE"]
 
@@ -108,10 +109,7 @@ def _per_coordinate(c: np.ndarray) -> np.ndarray:
     return np.ascontiguousarray(np.moveaxis(c, 2, 0))
 
 
-def _curv(d1: np.ndarray, d2: np.ndarray) -> np.ndarray:
-    cross = d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]
-    speed2 = d1[:, 0] ** 2 + d1[:, 1] ** 2
-    return cross / np.maximum(speed2, 1e-300) ** 1.5
+_curv = curvature  # the one formula (pathgen.geometry)
 
 
 def _abs_curv_at(c, idx, x):

@@ -41,6 +41,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..geometry import dot as _dot, left as _left
 from .biarc import biarc_chain, merge_chain
 from .flatten import _curve_joints, approximate
 from .measure import Chain, chain_deviation, eval_side, offset_points, unit_tangent_side
@@ -66,14 +67,6 @@ _K_FRACTIONS = np.array([0.05, 0.25, 0.5, 0.75, 0.95])
 _DENSITY = 4
 #: states kept per step of the search (1: plain greedy with lookahead)
 _BEAM = 6
-
-
-def _left(v):
-    return np.stack([-v[..., 1], v[..., 0]], axis=-1)
-
-
-def _dot(a, b):
-    return np.einsum("...i,...i->...", a, b)
 
 
 def _samples(contour, a, b, d, tol):

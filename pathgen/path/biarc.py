@@ -28,18 +28,11 @@ from __future__ import annotations
 
 import numpy as np
 
+from ..geometry import dot as _dot, left as _left
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE
 
 __all__ = ["biarc", "joint_circle", "biarc_chain", "offset_chain", "merge_chain"]
-
-
-def _left(v):
-    return np.stack([-v[..., 1], v[..., 0]], axis=-1)
-
-
-def _dot(a, b):
-    return np.einsum("...i,...i->...", a, b)
 
 
 def joint_circle(p1, t1, p2, t2):

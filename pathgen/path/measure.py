@@ -26,6 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from ..geometry import arc_geometry  # noqa: F401  (re-exported for the path stage)
 from .model import ARC_CCW, ARC_CW, LINE
 
 __all__ = [
@@ -134,18 +135,6 @@ def offset_points(contour, t, d: float) -> np.ndarray:
     speed = np.hypot(d1[..., 0], d1[..., 1])[..., None]
     n = np.stack([-d1[..., 1], d1[..., 0]], axis=-1) / speed
     return p + d * n
-
-
-def arc_geometry(start, end, center, ccw):
-    """Radius, start angle and signed sweep (+ccw) of arcs, vectorized."""
-    rs = start - center
-    re = end - center
-    r = np.hypot(rs[..., 0], rs[..., 1])
-    a0 = np.arctan2(rs[..., 1], rs[..., 0])
-    a1 = np.arctan2(re[..., 1], re[..., 0])
-    sweep = np.where(ccw, np.mod(a1 - a0, _TWO_PI), np.mod(a0 - a1, _TWO_PI))
-    sweep = np.where(sweep <= 1e-15, _TWO_PI, sweep)
-    return r, a0, np.where(ccw, sweep, -sweep)
 
 
 def _geometry(chain: Chain):

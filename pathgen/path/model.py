@@ -25,6 +25,7 @@ from typing import Iterator
 import numpy as np
 
 from ..errors import InputError
+from ..geometry import arc_sweep  # noqa: F401  (re-exported: writers import it from here)
 
 __all__ = ["RAPID", "LINE", "ARC_CW", "ARC_CCW", "Rapid", "Line", "Arc", "Toolpath"]
 
@@ -177,16 +178,6 @@ class Toolpath:
     def block_count(self) -> int:
         """Number of moves (each becomes one G-code block)."""
         return len(self.kind)
-
-
-def arc_sweep(start_xy, end_xy, center_xy, ccw) -> np.ndarray:
-    """Swept angle in (0, 2π] of arcs, vectorized; a closed arc sweeps 2π."""
-    start_xy, end_xy, center_xy = (np.asarray(a, float) for a in (start_xy, end_xy, center_xy))
-    a0 = np.arctan2(start_xy[..., 1] - center_xy[..., 1], start_xy[..., 0] - center_xy[..., 0])
-    a1 = np.arctan2(end_xy[..., 1] - center_xy[..., 1], end_xy[..., 0] - center_xy[..., 0])
-    d = np.where(ccw, a1 - a0, a0 - a1)
-    d = np.mod(d, 2 * np.pi)
-    return np.where(d <= 1e-12, 2 * np.pi, d)
 
 
 def move_lengths(path: Toolpath) -> np.ndarray:

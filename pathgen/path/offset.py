@@ -46,8 +46,7 @@ _ADVICE = "use a smaller tool, or smooth the points if they are noisy"
 
 
 def _curvature(contour, t):
-    d1, d2 = contour(t, 1), contour(t, 2)
-    return (d1[..., 0] * d2[..., 1] - d1[..., 1] * d2[..., 0]) / np.hypot(d1[..., 0], d1[..., 1]) ** 3
+    return contour.curvature(t)
 
 
 def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndarray:
