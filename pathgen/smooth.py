@@ -66,49 +66,129 @@ def smoothing_spline(t, y, lam: float, *, periodic: bool = False, fixed=None):
     >>> bool(np.allclose(g, y))
     True
     """
-    from scipy import sparse
-    from scipy.sparse.linalg import splu
-
     t = np.asarray(t, np.float64)
     y = np.asarray(y, np.float64)
-    h = np.diff(t)
     n = len(y)
     winv = np.ones(n) if fixed is None else np.where(np.asarray(fixed, bool), 0.0, 1.0)
-    if periodic:
-        cols = np.arange(n)
-        prev, nxt = (cols - 1) % n, (cols + 1) % n
-        hm, hj = h[prev], h
-        rows_r = np.concatenate([cols, cols, nxt])
-        cols_r = np.concatenate([cols, nxt, cols])
-        vals_r = np.concatenate([(hm + hj) / 3.0, hj / 6.0, hj / 6.0])
-        m = n
-    else:
-        if n < 3:
-            M = np.zeros((n, 2))
-            return y.copy(), M
-        cols = np.arange(n - 2)
-        prev, nxt = cols, cols + 2
-        hm, hj = h[:-1], h[1:]
-        rows_r = np.concatenate([cols, cols[:-1], cols[1:]])
-        cols_r = np.concatenate([cols, cols[1:], cols[:-1]])
-        off = hj[:-1] / 6.0
-        vals_r = np.concatenate([(hm + hj) / 3.0, off, off])
-        m = n - 2
-    mid = cols if periodic else cols + 1
-    Q = sparse.coo_matrix(
-        (np.concatenate([1.0 / hm, -1.0 / hm - 1.0 / hj, 1.0 / hj]),
-         (np.concatenate([prev, mid, nxt]), np.concatenate([cols, cols, cols]))),
-        shape=(n, m)).tocsr()
-    R = sparse.coo_matrix((vals_r, (rows_r, cols_r)), shape=(m, m)).tocsc()
-    A = (R + lam * (Q.T @ sparse.diags(winv) @ Q)).tocsc()
-    gamma = splu(A).solve(np.asfortranarray(Q.T @ y))
-    g = y - lam * winv[:, None] * (Q @ gamma)
+    if not periodic and n < 3:
+        return y.copy(), np.zeros((n, 2))
+    sys_ = _system(t, n, winv, periodic)
+    gamma = _solve(sys_, lam, y)
+    g = y - lam * winv[:, None] * _q_apply(sys_, gamma)
     if periodic:
         M = np.vstack([gamma, gamma[:1]])
     else:
         M = np.zeros((n, 2))
         M[1:-1] = gamma
     return g, M
+
+
+class _System:
+    """The banded pieces of Reinsch's system for one set of parameters:
+    Q's three entries per column (a, b, c at knots mid-1, mid, mid+1), R's
+    diagonals and QᵀW⁻¹Q's diagonals (d0, d1, d2 with d1[j] = A[j, j+1],
+    d2[j] = A[j, j+2], wrapping round when periodic)."""
+
+    __slots__ = ("periodic", "n", "m", "a", "b", "c", "r0", "r1", "q0", "q1", "q2")
+
+
+def _system(t, n, winv, periodic):
+    h = np.diff(t)
+    S = _System()
+    S.periodic, S.n = periodic, n
+    if periodic:
+        hm, hj = np.roll(h, 1), h  # column j is knot j: steps j-1 and j
+        wl, w0, wr = np.roll(winv, 1), winv, np.roll(winv, -1)
+        S.m = n
+    else:
+        hm, hj = h[:-1], h[1:]  # column j is knot j+1
+        wl, w0, wr = winv[:-2], winv[1:-1], winv[2:]
+        S.m = n - 2
+    a, c = 1.0 / hm, 1.0 / hj
+    b = -a - c
+    S.a, S.b, S.c = a, b, c
+    S.r0 = (hm + hj) / 3.0
+    S.r1 = hj / 6.0  # R[j, j+1]
+    S.q0 = a * a * wl + b * b * w0 + c * c * wr
+    if periodic:
+        a1, b1, a2 = np.roll(a, -1), np.roll(b, -1), np.roll(a, -2)
+        S.q1 = b * a1 * w0 + c * b1 * wr
+        S.q2 = c * a2 * wr
+    else:
+        S.q1 = np.zeros(S.m)
+        S.q2 = np.zeros(S.m)
+        S.q1[:-1] = b[:-1] * a[1:] * w0[:-1] + c[:-1] * b[1:] * wr[:-1]
+        S.q2[:-2] = c[:-2] * a[2:] * wr[:-2]
+    return S
+
+
+def _qt_apply(S, y):
+    """Qᵀ y for (n, k) y."""
+    if S.periodic:
+        return S.a[:, None] * np.roll(y, 1, axis=0) + S.b[:, None] * y + S.c[:, None] * np.roll(y, -1, axis=0)
+    return S.a[:, None] * y[:-2] + S.b[:, None] * y[1:-1] + S.c[:, None] * y[2:]
+
+
+def _q_apply(S, gamma):
+    """Q γ for (m, k) γ."""
+    if S.periodic:
+        return (np.roll(S.a[:, None] * gamma, -1, axis=0) + S.b[:, None] * gamma
+                + np.roll(S.c[:, None] * gamma, 1, axis=0))
+    out = np.zeros((S.n, gamma.shape[1]))
+    out[:-2] += S.a[:, None] * gamma
+    out[1:-1] += S.b[:, None] * gamma
+    out[2:] += S.c[:, None] * gamma
+    return out
+
+
+def _solve(S, lam, y, rhs=None):
+    """γ solving (R + λ QᵀW⁻¹Q) γ = Qᵀ y (or = rhs), in O(n).
+
+    The matrix is pentadiagonal (LAPACK's banded solver); a periodic one
+    also has entries in its corners, taken care of by the Woodbury
+    identity: with B the band and A = B + U Vᵀ (V picks the columns 0, 1,
+    m-2, m-1 holding the corner entries), A⁻¹r = B⁻¹r − Z (I + VᵀZ)⁻¹ Vᵀ B⁻¹r,
+    Z = B⁻¹U.
+    """
+    from scipy.linalg import solve_banded
+
+    m = S.m
+    d0 = S.r0 + lam * S.q0
+    d1 = S.r1 + lam * S.q1
+    d2 = lam * S.q2
+    b = _qt_apply(S, y) if rhs is None else rhs
+    if m == 1:
+        return b / d0[0]
+    if S.periodic and m < 5:  # tiny loop: dense
+        A = np.diag(d0)
+        for j in range(m):
+            A[j, (j + 1) % m] += d1[j]
+            A[(j + 1) % m, j] += d1[j]
+            A[j, (j + 2) % m] += d2[j]
+            A[(j + 2) % m, j] += d2[j]
+        return np.linalg.solve(A, b)
+    ab = np.zeros((5, m))
+    ab[0, 2:] = d2[: m - 2]
+    ab[1, 1:] = d1[: m - 1]
+    ab[2] = d0
+    ab[3, :-1] = d1[: m - 1]
+    ab[4, :-2] = d2[: m - 2]
+    if not S.periodic:
+        return solve_banded((2, 2), ab, b, check_finite=False)
+    cols = np.array([0, 1, m - 2, m - 1])
+    U = np.zeros((m, 4))
+    # corner entries: A[m-1, 0] = A[0, m-1] = d1[m-1]; A[m-2, 0] = A[0, m-2] = d2[m-2];
+    # A[m-1, 1] = A[1, m-1] = d2[m-1]
+    U[m - 1, 0] = d1[m - 1]
+    U[m - 2, 0] = d2[m - 2]
+    U[m - 1, 1] = d2[m - 1]
+    U[0, 3] = d1[m - 1]
+    U[0, 2] = d2[m - 2]
+    U[1, 3] = d2[m - 1]
+    sol = solve_banded((2, 2), ab, np.hstack([b, U]), check_finite=False)
+    yv, Z = sol[:, : b.shape[1]], sol[:, b.shape[1]:]
+    K = np.eye(4) + Z[cols]
+    return yv - Z @ np.linalg.solve(K, yv[cols])
 
 
 def power_form(t, y, M) -> np.ndarray:
