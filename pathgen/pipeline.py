@@ -155,7 +155,7 @@ def run(
     end: str = "not-a-knot",
     param: str = "chord",
     units: str = "mm",
-    smooth=None,
+    smooth="auto",
     corner_angle=None,
     layer=None,
     machine=None,
@@ -194,9 +194,13 @@ def run(
         (see :func:`pathgen.spline.fit`).
     units : {"mm", "inch"}
         Units of the points and of every length option (feeds per minute).
-    smooth : float or None
-        Smoothing tolerance (units): the contour stays within it of every
-        point.  None interpolates the points exactly.
+    smooth : "auto", "off", float or None
+        "auto" (default): estimate the points' noise
+        (:func:`pathgen.noise.estimate_noise`) and, when it can fake
+        curvature, smooth to it (Reinsch's criterion); clean points are
+        interpolated exactly.  "off" (or None): interpolate exactly.  A
+        number: smoothing tolerance (units), the contour stays within it
+        of every point.
     corner_angle : float, "off" or None
         Turning angle (degrees, below 180) above which a point is a sharp
         corner; "off": no corners; None: the input stage's default (40).
@@ -252,7 +256,13 @@ def run(
     scale = MM_PER_INCH if units == "inch" else 1.0
     tol_mm = check_positive("tolerance", tolerance) * scale
     tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
-    smooth_mm = _length("smooth", smooth, scale)
+    if smooth is None:
+        smooth = "off"
+    if isinstance(smooth, str):
+        check_option("smooth", smooth, ("auto", "off"))
+        smooth_mm = smooth
+    else:
+        smooth_mm = _length("smooth", smooth, scale)
     if seam is not None:
         try:
             sx, sy = (float(v) * scale for v in seam)
@@ -312,7 +322,11 @@ def run(
     # -- fit -----------------------------------------------------------------
     from .outline import fit_outline
 
-    kw = {"end": end, "param": param, "smooth": smooth_mm}
+    from .noise import estimate_noise
+
+    noise = timed("noise", estimate_noise, outline.points, outline.closed,
+                  quantization=getattr(outline, "quantization", None))
+    kw = {"end": end, "param": param, "smooth": smooth_mm, "noise": noise}
     if corner_angle == "off":
         kw["corner_angle"] = None
     elif corner_angle is not None:

@@ -30,11 +30,13 @@ With w = 1 this is the criterion of ``scipy.interpolate.make_smoothing_spline``
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from .errors import InputError
 
-__all__ = ["smoothing_spline", "fit_within", "foot_distances", "power_form"]
+__all__ = ["smoothing_spline", "fit_within", "fit_noise", "foot_distances", "power_form"]
 
 
 def smoothing_spline(t, y, lam: float, *, periodic: bool = False, fixed=None):
@@ -322,3 +324,109 @@ def fit_within(t, y, tol: float, *, periodic: bool = False, fixed=None, iteratio
         "residuals": d,
     }
     return c, facts
+
+
+def fit_noise(t, y, sigma: float, *, periodic: bool = False, fixed=None, rtol: float = 0.01,
+              iterations: int = 40, probes: int = 16):
+    """The smoothing spline whose residual matches the noise (Reinsch's criterion).
+
+    λ is chosen so that Σ_i |P_i − g(t_i)|² = n·σ² over the n points that
+    are not ``fixed`` (C.H. Reinsch, "Smoothing by spline functions",
+    Numer. Math. 10, 1967: his S = n with weights 1/σ), both coordinates
+    sharing one λ.  The residual sum grows with λ, so a bracketed secant
+    search on log λ against log Σ finds it (to ``rtol`` of n·σ²) in a few
+    solves of the O(n) banded system.
+
+    Parameters
+    ----------
+    t, y, periodic, fixed : as in :func:`smoothing_spline`.
+    sigma : float > 0
+        Noise of the points, mm (standard deviation normal to the curve).
+    rtol : relative tolerance on the residual sum.
+    probes : random probes for the degrees of freedom (see Returns).
+
+    Returns
+    -------
+    coefficients : (4, m, 2) piecewise cubic in ``scipy.interpolate.PPoly`` layout.
+    facts : dict with "lambda", "residual_sum" (mm², Σ|P_i − g(t_i)|²),
+        "target_sum" (n·σ²), "max_residual", "rms_residual" (mm, distances
+        from the points to the curve, measured), "residuals" ((n,) mm), and
+        "dof", "dof_error": the degrees of freedom the curve keeps per
+        coordinate, trace of the smoother matrix g = S P, estimated with
+        ``probes`` seeded Rademacher probes (Hutchinson's estimator:
+        tr S = n − λ E[zᵀW⁻¹Q A⁻¹Qᵀz]) and its standard error.
+    """
+    t = np.asarray(t, np.float64)
+    y = np.asarray(y, np.float64)
+    n = len(y)
+    if not (np.isfinite(sigma) and sigma > 0):
+        raise InputError(f"noise sigma must be a finite distance > 0 mm, got {sigma!r}")
+    winv = np.ones(n) if fixed is None else np.where(np.asarray(fixed, bool), 0.0, 1.0)
+    free = int(winv.sum())
+    target = free * sigma * sigma
+    if not periodic and n < 3:
+        c = _coefficients(t, y, np.zeros((n, 2)), False)
+        return c, _noise_facts(t, y, c, periodic, 0.0, 0.0, target, (float(n), 0.0))
+    S = _system(t, n, winv, periodic)
+    rhs = _qt_apply(S, y)
+
+    def rss(lam):
+        gamma = _solve(S, lam, y, rhs)
+        r = lam * winv[:, None] * _q_apply(S, gamma)  # y - g
+        return float((r * r).sum()), gamma
+
+    lam = float(np.mean(np.diff(t))) ** 3
+    lo = hi = None  # (log λ, log rss)
+    best = None
+    for _ in range(iterations):
+        f, gamma = rss(lam)
+        best = (lam, f, gamma)
+        if f > 0 and abs(f / target - 1.0) <= rtol:
+            break
+        x = math.log(lam)
+        if f < target:
+            lo = (x, math.log(max(f, 1e-300)))
+        else:
+            hi = (x, math.log(f))
+        if lo is not None and hi is not None and lo[1] > -690:
+            # secant in (log λ, log rss), kept inside the bracket
+            x_new = lo[0] + (math.log(target) - lo[1]) * (hi[0] - lo[0]) / (hi[1] - lo[1])
+            span = hi[0] - lo[0]
+            x_new = min(max(x_new, lo[0] + 0.05 * span), hi[0] - 0.05 * span)
+        elif hi is None:
+            x_new = x + 2.0 * math.log(10.0)
+        else:
+            x_new = x - 2.0 * math.log(10.0)
+        if abs(x_new) > 230:  # λ beyond 1e±100: the criterion cannot be met
+            break
+        lam = math.exp(x_new)
+    lam, f, gamma = best
+    g = y - lam * winv[:, None] * _q_apply(S, gamma)
+    M = np.vstack([gamma, gamma[:1]]) if periodic else np.vstack([np.zeros((1, 2)), gamma, np.zeros((1, 2))])
+    c = _coefficients(t, g, M, periodic)
+    dof = _dof(S, lam, winv, probes)
+    return c, _noise_facts(t, y, c, periodic, lam, f, target, dof)
+
+
+def _dof(S, lam, winv, probes):
+    """Hutchinson's estimate of tr(S) = n − λ tr(W⁻¹ Q A⁻¹ Qᵀ), with its standard error."""
+    n = S.n
+    z = np.random.default_rng(20261203).choice(np.array([-1.0, 1.0]), size=(n, probes))
+    gamma = _solve(S, lam, z)
+    v = (z * (winv[:, None] * _q_apply(S, gamma))).sum(axis=0)  # zᵀ W⁻¹ Q A⁻¹ Qᵀ z
+    est = n - lam * v
+    return float(est.mean()), float(est.std(ddof=1) / math.sqrt(probes)) if probes > 1 else 0.0
+
+
+def _noise_facts(t, y, c, periodic, lam, f, target, dof):
+    d = foot_distances(_contour(t, c, periodic, y), y, t[: len(y)])
+    return {
+        "lambda": lam,
+        "residual_sum": f,
+        "target_sum": target,
+        "max_residual": float(d.max()) if len(d) else 0.0,
+        "rms_residual": float(np.sqrt(np.mean(d**2))) if len(d) else 0.0,
+        "residuals": d,
+        "dof": dof[0],
+        "dof_error": dof[1],
+    }
