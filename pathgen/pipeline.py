@@ -339,7 +339,13 @@ def run(
     # points on the shared 2-core machine: no faster, 0.9 GB more memory.)
     from .checks.report import check
 
-    rep = timed("check", check, contour, mach, tool, cut)
+    reference = None
+    if noise.smooth and contour.info.get("smoothing") in ("off", "tolerance"):
+        # noisy points fitted exactly (or within a given tolerance): the same
+        # points smoothed to their noise tell the part's tight spots from the noise's
+        reference = timed("noise reference", fit_outline, outline,
+                          **{**kw, "smooth": "auto", "noise": noise})
+    rep = timed("check", check, contour, mach, tool, cut, noise_reference=reference)
     facts = timed("facts", contour_facts, contour, rep)
 
     # -- toolpath --------------------------------------------------------------

@@ -129,6 +129,10 @@ class CheckReport:
     fit : how the contour was fitted, from ``contour.info`` (see
         :func:`fit_facts`): the points' noise and the smoothing; None when
         the contour carries no such facts.
+    noise_spots : "tool cannot reach" spots of this contour that vanish
+        when the points are smoothed to their noise (checked against
+        ``noise_reference``): the noise's curvature, not the part's, so not
+        machining problems and not in ``tight_spots``.
     """
 
     machine: Machine
@@ -149,6 +153,7 @@ class CheckReport:
     max_constant_feed: float
     feed_plan: FeedPlan
     fit: dict | None = None
+    noise_spots: tuple = ()
 
     @property
     def cycle_time(self) -> float:
@@ -258,7 +263,7 @@ def _run_indices(i0: int, i1: int, n: int) -> np.ndarray:
     return np.arange(i0, i1 + 1) if i1 >= i0 else np.r_[np.arange(i0, n), np.arange(0, i1 + 1)]
 
 
-def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
+def check(contour, machine=None, tool=None, cut=None, *, noise_reference=None) -> CheckReport:
     """Check a contour for cutting with ``tool`` on ``machine``.
 
     Parameters
@@ -270,6 +275,11 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
         For a closed contour "outside" and "inside" refer to the part
         whichever way it runs; for an open one "outside" is the right of
         the direction of travel.
+    noise_reference : Contour or None
+        The same points smoothed to their noise, when ``contour`` fits
+        noisy points exactly: a spot where the contour bends tighter than
+        the tool but the reference does not (within the tool radius of
+        the spot) is the noise's, and goes to ``noise_spots``.
 
     Returns
     -------
@@ -398,6 +408,9 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
                                float(prad), feed, depth, note))
     order = {key: i for i, key in enumerate(REASONS)}
     tight.sort(key=lambda t: (t.s, order[t.reason], t.start_s))
+    noise_spots = ()
+    if noise_reference is not None and any(t.reason == "reach" for t in tight):
+        tight, noise_spots = _split_noise(tight, noise_reference, sign, r, S.length, closed)
 
     # -- the highest constant feed ------------------------------------------------
     free = ~S.corner & (lim.gap > 0)
@@ -426,7 +439,37 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
         max_constant_feed=max_const,
         feed_plan=plan,
         fit=fit_facts(contour),
+        noise_spots=tuple(noise_spots),
     )
+
+
+def _split_noise(tight, reference, sign, r, length, closed):
+    """Move the reach spots that do not survive the smoothing to a second list.
+
+    A spot whose note says the contour bends tighter than the tool survives
+    when the reference bends toward the tool with radius ≤ r somewhere
+    within r of the spot (arc lengths matched by the length ratio).  Sharp
+    corners and narrow gaps are geometry, never noise.
+    """
+    b = np.asarray(reference.breaks)
+    per = max(1, min(8, 400_000 // max(len(b) - 1, 1)))
+    u = (b[:-1, None] + np.diff(b)[:, None] * (np.arange(per) / per)).ravel()
+    s_ref = reference.arc_length(u) * (length / float(reference.length))
+    bend = sign * reference.curvature(u) * r >= 1.0 - 1e-9
+    keep, noise = [], []
+    for t in tight:
+        if t.reason != "reach" or not t.note.startswith("radius"):
+            keep.append(t)
+            continue
+        lo, hi = t.start_s - r, t.end_s + r
+        if closed and t.end_s < t.start_s:
+            hi += length
+        near = (s_ref >= lo) & (s_ref <= hi)
+        if closed:
+            near |= (s_ref + length >= lo) & (s_ref + length <= hi)
+            near |= (s_ref - length >= lo) & (s_ref - length <= hi)
+        (keep if bool((bend & near).any()) else noise).append(t)
+    return keep, noise
 
 
 def _noise_bow(contour) -> float:
@@ -516,6 +559,8 @@ def _to_dict(rep: CheckReport, units: str) -> dict:
         "full_feed_share": _num(rep.full_feed_share),
         "tool_cannot_reach": rep.tool_cannot_reach,
         "fit": _fit_dict(rep.fit, k),
+        "noise_spots": [{"x": _num(t.x, k), "y": _num(t.y, k), "s": _num(t.s, k),
+                         "min_radius": _num(t.min_radius, k)} for t in rep.noise_spots],
         "tight_spots": [
             {"reason": t.reason, "text": t.text, "x": _num(t.x, k), "y": _num(t.y, k),
              "s": _num(t.s, k), "start_s": _num(t.start_s, k), "end_s": _num(t.end_s, k),
@@ -568,16 +613,17 @@ def _fit_lines(fit, k, u) -> list:
     else:
         warn = ""
         if fakes:
-            warn = (f"; CAUTION: the points' noise can fake radii down to "
-                    f"{_g(fit['fake_radius'], k)} {u}: smaller radii and their tight spots may be noise "
-                    "(--smooth auto smooths it)")
+            warn = (f"; CAUTION: in an exact fit the points' noise fakes radii of about "
+                    f"{_g(fit['fake_radius'], k)} {u} (4σ/h²) and smaller: such radii may be noise "
+                    "(--smooth auto smooths to it)")
         lines.append(f"fit: exact interpolation (--smooth off){warn}")
     if "points" in fit:
         q = fit.get("quantization")
         qtext = f"rounding step {_g(q, k)} {u}" if q is not None else "no rounding step (full precision)"
         if fit.get("noise_resolved"):
             noise = f"noise σ {_g(fit['sigma'], k)} {u}"
-            fake = f"; at this spacing it can fake radii down to {_g(fit['fake_radius'], k)} {u}"
+            fake = (f"; at this spacing an exact fit turns it into radii of about "
+                    f"{_g(fit['fake_radius'], k)} {u} (4σ/h²)")
         elif fit.get("sigma"):
             noise = f"noise below what the spacing resolves (σ under {_g(fit['sigma'], k)} {u})"
             fake = ""
@@ -637,6 +683,10 @@ def _to_text(rep: CheckReport, units: str) -> str:
     )
     counts = ", ".join(f"{rep.count(r)} {REASONS[r]}" for r in REASONS)
     lines.append(f"{len(rep.tight_spots)} tight spots ({counts})")
+    if rep.noise_spots:
+        lines.append(f"  {len(rep.noise_spots)} more spots bend tighter than the tool only in this exact "
+                     "fit of noisy points: they vanish when the points are smoothed to their noise "
+                     "(the noise's curvature, not the part's; not listed)")
     if rep.tight_spots:
         lines.append(
             f"  {'reason':<18} {'x':>10} {'y':>10} {'s':>10} {'length':>9} {'radius':>9} "
