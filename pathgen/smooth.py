@@ -411,10 +411,13 @@ def fit_noise(t, y, sigma: float, *, periodic: bool = False, fixed=None, rtol: f
 def _dof(S, lam, winv, probes):
     """Hutchinson's estimate of tr(S) = n − λ tr(W⁻¹ Q A⁻¹ Qᵀ), with its standard error."""
     n = S.n
-    z = np.random.default_rng(20261203).choice(np.array([-1.0, 1.0]), size=(n, probes))
-    gamma = _solve(S, lam, z)
-    v = (z * (winv[:, None] * _q_apply(S, gamma))).sum(axis=0)  # zᵀ W⁻¹ Q A⁻¹ Qᵀ z
-    est = n - lam * v
+    rng = np.random.default_rng(20261203)
+    v = []
+    for first in range(0, probes, 4):  # 4 probes at a time: memory stays ~10 n floats
+        z = rng.choice(np.array([-1.0, 1.0]), size=(n, min(4, probes - first)))
+        gamma = _solve(S, lam, z)
+        v.append((z * (winv[:, None] * _q_apply(S, gamma))).sum(axis=0))  # zᵀ W⁻¹ Q A⁻¹ Qᵀ z
+    est = n - lam * np.concatenate(v)
     return float(est.mean()), float(est.std(ddof=1) / math.sqrt(probes)) if probes > 1 else 0.0
 
 
