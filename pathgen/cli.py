@@ -106,7 +106,12 @@ def _number(text: str) -> float:
 
 def _smooth(text: str):
     word = text.strip().lower()
-    return word if word in ("auto", "off") else _number(text)
+    if word in ("auto", "off"):
+        return word
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected auto, off or a distance, got {text!r}") from None
 
 
 def _angle(text: str):

@@ -310,3 +310,20 @@ def test_demo_bracket_reports_its_fillets_not_the_noise():
     # the drawn bracket's dent has 4 inflections (its noise-free points give
     # 4); the noise gave 164 before the check knew the noise
     assert len(rep.inflections) <= 2 * 4
+
+
+def test_smooth_option_errors(tmp_path):
+    import io
+
+    from pathgen.cli import main
+    from pathgen.errors import InputError
+    from pathgen.pipeline import run
+
+    f = _write(tmp_path / "c.csv", _cam(100), "%.3f")
+    err = io.StringIO()
+    assert main(["check", str(f), "--smooth", "lots"], out=io.StringIO(), err=err) == 2
+    assert err.getvalue().count("\n") == 1 and "expected auto, off or a distance, got 'lots'" in err.getvalue()
+    with pytest.raises(InputError, match=r"smooth='lots' is not one of: 'auto', 'off'"):
+        run(f, smooth="lots")
+    with pytest.raises(InputError, match=r"smooth='lots' is not one of: 'auto', 'off'"):
+        fit_outline(_cam(100), closed=True, smooth="lots")
