@@ -555,7 +555,7 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
                 c_stop = _unit(seg[r0[0]], seg[r0[1]]) * v1
             else:
                 c_stop = last_cond
-            if corner_free_loop and parts[0][2] is None and (k == 0 or j == b - a):
+            if not smoothing and corner_free_loop and parts[0][2] is None and (k == 0 or j == b - a):
                 # a curved stretch on both sides of the seam: give both the
                 # tangent a periodic fit has there, so the seam is no kink
                 if seam_tangent is None:

@@ -327,7 +327,7 @@ def fit_within(t, y, tol: float, *, periodic: bool = False, fixed=None, iteratio
 
 
 def fit_noise(t, y, sigma: float, *, periodic: bool = False, fixed=None, rtol: float = 0.01,
-              iterations: int = 40, probes: int = 16):
+              iterations: int = 40, probes: int = 8):
     """The smoothing spline whose residual matches the noise (Reinsch's criterion).
 
     λ is chosen so that Σ_i |P_i − g(t_i)|² = n·σ² over the n points that
