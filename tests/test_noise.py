@@ -327,3 +327,22 @@ def test_smooth_option_errors(tmp_path):
         run(f, smooth="lots")
     with pytest.raises(InputError, match=r"smooth='lots' is not one of: 'auto', 'off'"):
         fit_outline(_cam(100), closed=True, smooth="lots")
+
+
+def test_smoothing_makes_no_false_corners_far_from_the_origin():
+    # the cam 900 m from the origin, 20 000 points rounded to 0.001 mm: the
+    # tangent of a smoothing spline is continuous by construction, but at
+    # these coordinates rounding makes it jump by more than 1e-9 rad at many
+    # breaks; such jumps are not corners (they made 17 936 of them, and the
+    # tool path cut the outline into as many windows)
+    p = np.round(_cam(20_000) + 9e5, 3)
+    c = fit_outline(p, closed=True, smooth="auto")
+    assert c.info["smoothing"] == "noise"
+    assert c.corners == ()
+    # the rectangle's four corners stay corners when its noisy edges are smoothed
+    edge = np.linspace(0, 1, 300, endpoint=False)[:, None]
+    sq = np.vstack([np.c_[100 * edge, 0 * edge], np.c_[100 + 0 * edge, 60 * edge],
+                    np.c_[100 - 100 * edge, 60 + 0 * edge], np.c_[0 * edge, 60 - 60 * edge]])
+    noisy = sq + np.random.default_rng(4).normal(0, 0.004, sq.shape)
+    c = fit_outline(noisy, closed=True, smooth="auto")
+    assert len(c.corners) == 4
