@@ -24,6 +24,8 @@ _LAZY = {
     "clean_points": "pathgen.points",
     "Outline": "pathgen.points",
     "fit_outline": "pathgen.outline",
+    "estimate_noise": "pathgen.noise",
+    "NoiseEstimate": "pathgen.noise",
     "Machine": "pathgen.checks.machine",
     "Tool": "pathgen.checks.machine",
     "Cut": "pathgen.checks.machine",

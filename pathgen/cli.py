@@ -104,6 +104,16 @@ def _number(text: str) -> float:
         raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
 
 
+def _smooth(text: str):
+    word = text.strip().lower()
+    if word in ("auto", "off"):
+        return word
+    try:
+        return float(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"expected auto, off or a distance, got {text!r}") from None
+
+
 def _angle(text: str):
     return "off" if text.strip().lower() == "off" else _number(text)
 
@@ -123,8 +133,10 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                    help="how the spline parameter advances between points (default: chord)")
     g.add_argument("--units", choices=("mm", "inch"), default="mm",
                    help="units of the points and of every length option (default: mm)")
-    g.add_argument("--smooth", type=_number, metavar="TOL",
-                   help="smooth noisy points, keeping the contour within TOL of every point")
+    g.add_argument("--smooth", type=_smooth, default="auto", metavar="auto|off|TOL",
+                   help="auto: smooth to the points' measured noise when it would fake curvature, "
+                        "else fit exactly (default); off: fit the points exactly; TOL: smooth, "
+                        "keeping the contour within TOL of every point")
     g.add_argument("--corner-angle", type=_angle, metavar="DEG",
                    help="turning angle above which a point is a sharp corner (default: 40; off: no corners)")
     g.add_argument("--layer", metavar="NAME", help="DXF input: the layer that holds the outline")

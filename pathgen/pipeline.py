@@ -278,7 +278,7 @@ def run(
     end: str = "not-a-knot",
     param: str = "chord",
     units: str = "mm",
-    smooth=None,
+    smooth="auto",
     corner_angle=None,
     layer=None,
     machine=None,
@@ -320,9 +320,13 @@ def run(
         (see :func:`pathgen.spline.fit`).
     units : {"mm", "inch"}
         Units of the points and of every length option (feeds per minute).
-    smooth : float or None
-        Smoothing tolerance (units): the contour stays within it of every
-        point.  None interpolates the points exactly.
+    smooth : "auto", "off", float or None
+        "auto" (default): estimate the points' noise
+        (:func:`pathgen.noise.estimate_noise`) and, when it can fake
+        curvature, smooth to it (Reinsch's criterion); clean points are
+        interpolated exactly.  "off" (or None): interpolate exactly.  A
+        number: smoothing tolerance (units), the contour stays within it
+        of every point.
     corner_angle : float, "off" or None
         Turning angle (degrees, below 180) above which a point is a sharp
         corner; "off": no corners; None: the input stage's default (40).
@@ -389,7 +393,13 @@ def run(
     scale = MM_PER_INCH if units == "inch" else 1.0
     tol_mm = DEFAULT_TOLERANCE if tolerance is None else check_positive("tolerance", tolerance) * scale
     tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
-    smooth_mm = _length("smooth", smooth, scale)
+    if smooth is None:
+        smooth = "off"
+    if isinstance(smooth, str):
+        check_option("smooth", smooth, ("auto", "off"))
+        smooth_mm = smooth
+    else:
+        smooth_mm = _length("smooth", smooth, scale)
     if seam is not None:
         try:
             sx, sy = (float(v) * scale for v in seam)
@@ -459,7 +469,11 @@ def run(
     # -- fit -----------------------------------------------------------------
     from .outline import fit_outline
 
-    kw = {"end": end, "param": param, "smooth": smooth_mm}
+    from .noise import estimate_noise
+
+    noise = timed("noise", estimate_noise, outline.points, outline.closed,
+                  quantization=getattr(outline, "quantization", None))
+    kw = {"end": end, "param": param, "smooth": smooth_mm, "noise": noise}
     if corner_angle == "off":
         kw["corner_angle"] = None
     elif corner_angle is not None:
@@ -472,7 +486,13 @@ def run(
     # points on the shared 2-core machine: no faster, 0.9 GB more memory.)
     from .checks.report import check
 
-    rep = timed("check", check, contour, mach, tool, cut)
+    reference = None
+    if noise.smooth and contour.info.get("smoothing") in ("off", "tolerance"):
+        # noisy points fitted exactly (or within a given tolerance): the same
+        # points smoothed to their noise tell the part's tight spots from the noise's
+        reference = timed("noise reference", fit_outline, outline,
+                          **{**kw, "smooth": "auto", "noise": noise})
+    rep = timed("check", check, contour, mach, tool, cut, noise_reference=reference)
     facts = timed("facts", contour_facts, contour, rep)
 
     # -- toolpath --------------------------------------------------------------

@@ -20,8 +20,13 @@ DXF drawings (read with ezdxf)
     more than one candidate outline, name its layer (``layer=``).
 
 Cleaning, each step recorded in ``Outline.steps``
-    inch converted to mm; consecutive repeated points (closer than
-    ``MERGE_RTOL`` times the outline's size) merged; a last point repeating
+    the rounding step of the coordinates read from the decimals they use
+    (``Outline.quantization``); inch converted to mm; repeated points
+    merged: a point closer than the merge distance to the last point
+    *kept* is dropped (never judged against a dropped one, so a dense run
+    thins out instead of collapsing); the merge distance is half the
+    rounding step when the coordinates are rounded (then only exact
+    repeats merge), else ``MERGE_RTOL`` times the outline's size; a last point repeating
     the first closes the outline and is dropped; closed outlines given
     clockwise are reversed to counter-clockwise.  Refused with
     :class:`~pathgen.errors.InputError`: fewer than 2 distinct points,
@@ -95,6 +100,10 @@ class Outline:
         Things the user should look at (possible disorder, self-crossing).
     line_numbers : (n,) int array or None
         The file line (1-based) of each kept point; None for arrays and DXF.
+    quantization : float or None
+        The rounding step of the coordinates as given (in mm: a file in
+        inch with 4 decimals has 0.00254), read from the decimals they use;
+        None when they use more than 9 decimals (full precision).
     """
 
     points: np.ndarray
@@ -104,6 +113,7 @@ class Outline:
     steps: tuple = ()
     warnings: tuple = ()
     line_numbers: np.ndarray | None = field(default=None)
+    quantization: float | None = None
 
     def __post_init__(self):
         self.points.setflags(write=False)
@@ -290,7 +300,24 @@ def _read_text(path: str, name: str):
         warnings.append(f"{name}: 3 comma-separated values per line, read as x, y, z; if "
                         "the file uses decimal commas (12,5,3 for 12.5 and 3), save it "
                         "with ';' between the columns")
-    return data[:, :2], numbers, steps, warnings
+    return data[:, :2], numbers, steps, warnings, _printed_step(body)
+
+
+#: Lines of a text file looked at for the decimals it prints.
+DECIMALS_SAMPLE_LINES = 2000
+
+
+def _printed_step(body: str):
+    """10^-d for the most decimals d printed in the first lines of numbers
+    (12.5000 has 4: the writer's resolution, even where the value is
+    round), or None when they use exponents or more than 9 decimals."""
+    head = body[: 200 * DECIMALS_SAMPLE_LINES].split("\n", DECIMALS_SAMPLE_LINES)[:DECIMALS_SAMPLE_LINES]
+    text = "\n".join(ln.split("#", 1)[0] for ln in head)
+    if re.search(r"\d[eE][+-]?\d", text):
+        return None
+    digits = [len(m) for m in re.findall(r"\.(\d+)", text)]
+    d = max(digits, default=0)
+    return None if d > 9 else (float(f"1e-{d}") if d else 1.0)
 
 
 # -- DXF drawings -------------------------------------------------------------
@@ -392,9 +419,10 @@ def read_points(path, *, units: str = "mm", layer=None, closed=None) -> Outline:
                             steps=steps, warnings=warnings)
     if layer is not None:
         raise InputError(f"{name}: layer= applies to DXF drawings only")
-    pts, numbers, steps, warnings = _read_text(path, name)
+    pts, numbers, steps, warnings, printed = _read_text(path, name)
     return clean_points(pts, closed=closed, units=units, source=name,
-                        line_numbers=numbers, steps=steps, warnings=warnings)
+                        line_numbers=numbers, steps=steps, warnings=warnings,
+                        quantization=printed)
 
 
 # -- cleaning -----------------------------------------------------------------
@@ -402,7 +430,7 @@ def read_points(path, *, units: str = "mm", layer=None, closed=None) -> Outline:
 
 def clean_points(points, *, closed=None, units: str = "mm", source: str = "array",
                  line_numbers=None, steps=(), warnings=(), merge_tol=None,
-                 check_crossing: bool = True) -> Outline:
+                 check_crossing: bool = True, quantization=None) -> Outline:
     """Validate and clean outline points given as an array.
 
     Parameters
@@ -424,6 +452,9 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
         ``MERGE_RTOL`` times the outline's size.
     check_crossing : bool
         Warn when a closed outline crosses itself (shapely ``is_simple``).
+    quantization : float or None
+        The step the file prints (10^-decimals, in ``units``), if known:
+        the rounding step is the finer of it and the step the values show.
 
     Returns
     -------
@@ -465,9 +496,18 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
         i = int(np.argmax(bad.any(axis=1)))
         raise InputError(f"{where(i)}: {p[i].tolist()} is not a finite number "
                          "(NaN or infinity)")
+    from .noise import quantization_step
+
+    shown = quantization_step(p)
+    if quantization is not None and shown is not None:
+        quantization = min(float(quantization), shown)
+    else:
+        quantization = shown
     if units == "inch":
         p *= MM_PER_INCH
         steps.append("converted inch to mm (x 25.4)")
+        if quantization is not None:
+            quantization *= MM_PER_INCH
     big = np.abs(p) > MAX_COORD_MM
     if big.any():
         i = int(np.argmax(big.any(axis=1)))
@@ -478,21 +518,21 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
     if 0 < size < MIN_SIZE_MM:
         raise InputError(f"{source}: all points lie within {size:.3g} mm of each other "
                          f"(less than {MIN_SIZE_MM:g} mm): check the units")
-    tol = MERGE_RTOL * size if merge_tol is None else float(merge_tol)
-    # merge consecutive repeats (repeat until no close pair remains)
-    while len(p) > 1:
-        d = np.hypot(*np.diff(p, axis=0).T)
-        drop = np.flatnonzero(d <= tol) + 1
-        if not len(drop):
-            break
+    if merge_tol is not None:
+        tol = float(merge_tol)
+    elif quantization is not None:
+        tol = min(MERGE_RTOL * size, 0.5 * quantization)
+    else:
+        tol = MERGE_RTOL * size
+    keep = _merge_repeats(p, tol)
+    if keep is not None:
+        drop = np.flatnonzero(~keep)
         count = len(drop)
         shown = ", ".join(where(i).rsplit(" ", 1)[-1] for i in drop[:5])
         what = "lines" if nums is not None else "points"
         more = f" and {count - 5} more" if count > 5 else ""
-        steps.append(f"merged {count} repeated point{'s' if count > 1 else ''} into the "
-                     f"point before (closer than {tol:.3g} mm; {what} {shown}{more})")
-        keep = np.ones(len(p), bool)
-        keep[drop] = False
+        steps.append(f"merged {count} repeated point{'s' if count > 1 else ''} into the last "
+                     f"point kept (closer than {tol:.3g} mm; {what} {shown}{more})")
         p = p[keep]
         if nums is not None:
             nums = nums[keep]
@@ -558,4 +598,41 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
         if not shapely.is_simple(shapely.linearrings(p)):
             warnings.append(f"{source}: the closed outline crosses itself")
     return Outline(points=p, closed=closed, source=source, units=units,
-                   steps=tuple(steps), warnings=tuple(warnings), line_numbers=nums)
+                   steps=tuple(steps), warnings=tuple(warnings), line_numbers=nums,
+                   quantization=quantization)
+
+
+def _merge_repeats(p, tol):
+    """Which points to keep: each point closer than ``tol`` to the last
+    point kept is dropped.  None when every point is kept.
+
+    Only the points after a close step can be dropped, so the loop visits
+    those alone (and the points after a dropped one, until one is kept).
+    """
+    n = len(p)
+    if n < 2:
+        return None
+    d = np.hypot(*np.diff(p, axis=0).T)
+    cand = (np.flatnonzero(d <= tol) + 1).tolist()
+    if not cand:
+        return None
+    import bisect
+
+    keep = np.ones(n, bool)
+    tol2 = tol * tol
+    x, y = p[:, 0], p[:, 1]
+    k = 0
+    while k < len(cand):
+        i = cand[k]
+        last = i - 1  # kept: every point between candidates is
+        lx, ly = float(x[last]), float(y[last])
+        while i < n:
+            dx, dy = float(x[i]) - lx, float(y[i]) - ly
+            if dx * dx + dy * dy <= tol2:
+                keep[i] = False
+                i += 1
+                continue
+            break
+        # point i (if any) is kept; go on with the next candidate after it
+        k = bisect.bisect_right(cand, i, lo=k)
+    return keep

@@ -30,11 +30,13 @@ With w = 1 this is the criterion of ``scipy.interpolate.make_smoothing_spline``
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from .errors import InputError
 
-__all__ = ["smoothing_spline", "fit_within", "foot_distances", "power_form"]
+__all__ = ["smoothing_spline", "fit_within", "fit_noise", "foot_distances", "power_form"]
 
 
 def smoothing_spline(t, y, lam: float, *, periodic: bool = False, fixed=None):
@@ -66,49 +68,129 @@ def smoothing_spline(t, y, lam: float, *, periodic: bool = False, fixed=None):
     >>> bool(np.allclose(g, y))
     True
     """
-    from scipy import sparse
-    from scipy.sparse.linalg import splu
-
     t = np.asarray(t, np.float64)
     y = np.asarray(y, np.float64)
-    h = np.diff(t)
     n = len(y)
     winv = np.ones(n) if fixed is None else np.where(np.asarray(fixed, bool), 0.0, 1.0)
-    if periodic:
-        cols = np.arange(n)
-        prev, nxt = (cols - 1) % n, (cols + 1) % n
-        hm, hj = h[prev], h
-        rows_r = np.concatenate([cols, cols, nxt])
-        cols_r = np.concatenate([cols, nxt, cols])
-        vals_r = np.concatenate([(hm + hj) / 3.0, hj / 6.0, hj / 6.0])
-        m = n
-    else:
-        if n < 3:
-            M = np.zeros((n, 2))
-            return y.copy(), M
-        cols = np.arange(n - 2)
-        prev, nxt = cols, cols + 2
-        hm, hj = h[:-1], h[1:]
-        rows_r = np.concatenate([cols, cols[:-1], cols[1:]])
-        cols_r = np.concatenate([cols, cols[1:], cols[:-1]])
-        off = hj[:-1] / 6.0
-        vals_r = np.concatenate([(hm + hj) / 3.0, off, off])
-        m = n - 2
-    mid = cols if periodic else cols + 1
-    Q = sparse.coo_matrix(
-        (np.concatenate([1.0 / hm, -1.0 / hm - 1.0 / hj, 1.0 / hj]),
-         (np.concatenate([prev, mid, nxt]), np.concatenate([cols, cols, cols]))),
-        shape=(n, m)).tocsr()
-    R = sparse.coo_matrix((vals_r, (rows_r, cols_r)), shape=(m, m)).tocsc()
-    A = (R + lam * (Q.T @ sparse.diags(winv) @ Q)).tocsc()
-    gamma = splu(A).solve(np.asfortranarray(Q.T @ y))
-    g = y - lam * winv[:, None] * (Q @ gamma)
+    if not periodic and n < 3:
+        return y.copy(), np.zeros((n, 2))
+    sys_ = _system(t, n, winv, periodic)
+    gamma = _solve(sys_, lam, y)
+    g = y - lam * winv[:, None] * _q_apply(sys_, gamma)
     if periodic:
         M = np.vstack([gamma, gamma[:1]])
     else:
         M = np.zeros((n, 2))
         M[1:-1] = gamma
     return g, M
+
+
+class _System:
+    """The banded pieces of Reinsch's system for one set of parameters:
+    Q's three entries per column (a, b, c at knots mid-1, mid, mid+1), R's
+    diagonals and QᵀW⁻¹Q's diagonals (d0, d1, d2 with d1[j] = A[j, j+1],
+    d2[j] = A[j, j+2], wrapping round when periodic)."""
+
+    __slots__ = ("periodic", "n", "m", "a", "b", "c", "r0", "r1", "q0", "q1", "q2")
+
+
+def _system(t, n, winv, periodic):
+    h = np.diff(t)
+    S = _System()
+    S.periodic, S.n = periodic, n
+    if periodic:
+        hm, hj = np.roll(h, 1), h  # column j is knot j: steps j-1 and j
+        wl, w0, wr = np.roll(winv, 1), winv, np.roll(winv, -1)
+        S.m = n
+    else:
+        hm, hj = h[:-1], h[1:]  # column j is knot j+1
+        wl, w0, wr = winv[:-2], winv[1:-1], winv[2:]
+        S.m = n - 2
+    a, c = 1.0 / hm, 1.0 / hj
+    b = -a - c
+    S.a, S.b, S.c = a, b, c
+    S.r0 = (hm + hj) / 3.0
+    S.r1 = hj / 6.0  # R[j, j+1]
+    S.q0 = a * a * wl + b * b * w0 + c * c * wr
+    if periodic:
+        a1, b1, a2 = np.roll(a, -1), np.roll(b, -1), np.roll(a, -2)
+        S.q1 = b * a1 * w0 + c * b1 * wr
+        S.q2 = c * a2 * wr
+    else:
+        S.q1 = np.zeros(S.m)
+        S.q2 = np.zeros(S.m)
+        S.q1[:-1] = b[:-1] * a[1:] * w0[:-1] + c[:-1] * b[1:] * wr[:-1]
+        S.q2[:-2] = c[:-2] * a[2:] * wr[:-2]
+    return S
+
+
+def _qt_apply(S, y):
+    """Qᵀ y for (n, k) y."""
+    if S.periodic:
+        return S.a[:, None] * np.roll(y, 1, axis=0) + S.b[:, None] * y + S.c[:, None] * np.roll(y, -1, axis=0)
+    return S.a[:, None] * y[:-2] + S.b[:, None] * y[1:-1] + S.c[:, None] * y[2:]
+
+
+def _q_apply(S, gamma):
+    """Q γ for (m, k) γ."""
+    if S.periodic:
+        return (np.roll(S.a[:, None] * gamma, -1, axis=0) + S.b[:, None] * gamma
+                + np.roll(S.c[:, None] * gamma, 1, axis=0))
+    out = np.zeros((S.n, gamma.shape[1]))
+    out[:-2] += S.a[:, None] * gamma
+    out[1:-1] += S.b[:, None] * gamma
+    out[2:] += S.c[:, None] * gamma
+    return out
+
+
+def _solve(S, lam, y, rhs=None):
+    """γ solving (R + λ QᵀW⁻¹Q) γ = Qᵀ y (or = rhs), in O(n).
+
+    The matrix is pentadiagonal (LAPACK's banded solver); a periodic one
+    also has entries in its corners, taken care of by the Woodbury
+    identity: with B the band and A = B + U Vᵀ (V picks the columns 0, 1,
+    m-2, m-1 holding the corner entries), A⁻¹r = B⁻¹r − Z (I + VᵀZ)⁻¹ Vᵀ B⁻¹r,
+    Z = B⁻¹U.
+    """
+    from scipy.linalg import solve_banded
+
+    m = S.m
+    d0 = S.r0 + lam * S.q0
+    d1 = S.r1 + lam * S.q1
+    d2 = lam * S.q2
+    b = _qt_apply(S, y) if rhs is None else rhs
+    if m == 1:
+        return b / d0[0]
+    if S.periodic and m < 5:  # tiny loop: dense
+        A = np.diag(d0)
+        for j in range(m):
+            A[j, (j + 1) % m] += d1[j]
+            A[(j + 1) % m, j] += d1[j]
+            A[j, (j + 2) % m] += d2[j]
+            A[(j + 2) % m, j] += d2[j]
+        return np.linalg.solve(A, b)
+    ab = np.zeros((5, m))
+    ab[0, 2:] = d2[: m - 2]
+    ab[1, 1:] = d1[: m - 1]
+    ab[2] = d0
+    ab[3, :-1] = d1[: m - 1]
+    ab[4, :-2] = d2[: m - 2]
+    if not S.periodic:
+        return solve_banded((2, 2), ab, b, check_finite=False)
+    cols = np.array([0, 1, m - 2, m - 1])
+    U = np.zeros((m, 4))
+    # corner entries: A[m-1, 0] = A[0, m-1] = d1[m-1]; A[m-2, 0] = A[0, m-2] = d2[m-2];
+    # A[m-1, 1] = A[1, m-1] = d2[m-1]
+    U[m - 1, 0] = d1[m - 1]
+    U[m - 2, 0] = d2[m - 2]
+    U[m - 1, 1] = d2[m - 1]
+    U[0, 3] = d1[m - 1]
+    U[0, 2] = d2[m - 2]
+    U[1, 3] = d2[m - 1]
+    sol = solve_banded((2, 2), ab, np.hstack([b, U]), check_finite=False)
+    yv, Z = sol[:, : b.shape[1]], sol[:, b.shape[1]:]
+    K = np.eye(4) + Z[cols]
+    return yv - Z @ np.linalg.solve(K, yv[cols])
 
 
 def power_form(t, y, M) -> np.ndarray:
@@ -242,3 +324,112 @@ def fit_within(t, y, tol: float, *, periodic: bool = False, fixed=None, iteratio
         "residuals": d,
     }
     return c, facts
+
+
+def fit_noise(t, y, sigma: float, *, periodic: bool = False, fixed=None, rtol: float = 0.01,
+              iterations: int = 40, probes: int = 8):
+    """The smoothing spline whose residual matches the noise (Reinsch's criterion).
+
+    λ is chosen so that Σ_i |P_i − g(t_i)|² = n·σ² over the n points that
+    are not ``fixed`` (C.H. Reinsch, "Smoothing by spline functions",
+    Numer. Math. 10, 1967: his S = n with weights 1/σ), both coordinates
+    sharing one λ.  The residual sum grows with λ, so a bracketed secant
+    search on log λ against log Σ finds it (to ``rtol`` of n·σ²) in a few
+    solves of the O(n) banded system.
+
+    Parameters
+    ----------
+    t, y, periodic, fixed : as in :func:`smoothing_spline`.
+    sigma : float > 0
+        Noise of the points, mm (standard deviation normal to the curve).
+    rtol : relative tolerance on the residual sum.
+    probes : random probes for the degrees of freedom (see Returns).
+
+    Returns
+    -------
+    coefficients : (4, m, 2) piecewise cubic in ``scipy.interpolate.PPoly`` layout.
+    facts : dict with "lambda", "residual_sum" (mm², Σ|P_i − g(t_i)|²),
+        "target_sum" (n·σ²), "max_residual", "rms_residual" (mm, distances
+        from the points to the curve, measured), "residuals" ((n,) mm), and
+        "dof", "dof_error": the degrees of freedom the curve keeps per
+        coordinate, trace of the smoother matrix g = S P, estimated with
+        ``probes`` seeded Rademacher probes (Hutchinson's estimator:
+        tr S = n − λ E[zᵀW⁻¹Q A⁻¹Qᵀz]) and its standard error.
+    """
+    t = np.asarray(t, np.float64)
+    y = np.asarray(y, np.float64)
+    n = len(y)
+    if not (np.isfinite(sigma) and sigma > 0):
+        raise InputError(f"noise sigma must be a finite distance > 0 mm, got {sigma!r}")
+    winv = np.ones(n) if fixed is None else np.where(np.asarray(fixed, bool), 0.0, 1.0)
+    free = int(winv.sum())
+    target = free * sigma * sigma
+    if not periodic and n < 3:
+        c = _coefficients(t, y, np.zeros((n, 2)), False)
+        return c, _noise_facts(t, y, c, periodic, 0.0, 0.0, target, (float(n), 0.0))
+    S = _system(t, n, winv, periodic)
+    rhs = _qt_apply(S, y)
+
+    def rss(lam):
+        gamma = _solve(S, lam, y, rhs)
+        r = lam * winv[:, None] * _q_apply(S, gamma)  # y - g
+        return float((r * r).sum()), gamma
+
+    lam = float(np.mean(np.diff(t))) ** 3
+    lo = hi = None  # (log λ, log rss)
+    best = None
+    for _ in range(iterations):
+        f, gamma = rss(lam)
+        best = (lam, f, gamma)
+        if f > 0 and abs(f / target - 1.0) <= rtol:
+            break
+        x = math.log(lam)
+        if f < target:
+            lo = (x, math.log(max(f, 1e-300)))
+        else:
+            hi = (x, math.log(f))
+        if lo is not None and hi is not None and lo[1] > -690:
+            # secant in (log λ, log rss), kept inside the bracket
+            x_new = lo[0] + (math.log(target) - lo[1]) * (hi[0] - lo[0]) / (hi[1] - lo[1])
+            span = hi[0] - lo[0]
+            x_new = min(max(x_new, lo[0] + 0.05 * span), hi[0] - 0.05 * span)
+        elif hi is None:
+            x_new = x + 2.0 * math.log(10.0)
+        else:
+            x_new = x - 2.0 * math.log(10.0)
+        if abs(x_new) > 230:  # λ beyond 1e±100: the criterion cannot be met
+            break
+        lam = math.exp(x_new)
+    lam, f, gamma = best
+    g = y - lam * winv[:, None] * _q_apply(S, gamma)
+    M = np.vstack([gamma, gamma[:1]]) if periodic else np.vstack([np.zeros((1, 2)), gamma, np.zeros((1, 2))])
+    c = _coefficients(t, g, M, periodic)
+    dof = _dof(S, lam, winv, probes)
+    return c, _noise_facts(t, y, c, periodic, lam, f, target, dof)
+
+
+def _dof(S, lam, winv, probes):
+    """Hutchinson's estimate of tr(S) = n − λ tr(W⁻¹ Q A⁻¹ Qᵀ), with its standard error."""
+    n = S.n
+    rng = np.random.default_rng(20261203)
+    v = []
+    for first in range(0, probes, 4):  # 4 probes at a time: memory stays ~10 n floats
+        z = rng.choice(np.array([-1.0, 1.0]), size=(n, min(4, probes - first)))
+        gamma = _solve(S, lam, z)
+        v.append((z * (winv[:, None] * _q_apply(S, gamma))).sum(axis=0))  # zᵀ W⁻¹ Q A⁻¹ Qᵀ z
+    est = n - lam * np.concatenate(v)
+    return float(est.mean()), float(est.std(ddof=1) / math.sqrt(probes)) if probes > 1 else 0.0
+
+
+def _noise_facts(t, y, c, periodic, lam, f, target, dof):
+    d = foot_distances(_contour(t, c, periodic, y), y, t[: len(y)])
+    return {
+        "lambda": lam,
+        "residual_sum": f,
+        "target_sum": target,
+        "max_residual": float(d.max()) if len(d) else 0.0,
+        "rms_residual": float(np.sqrt(np.mean(d**2))) if len(d) else 0.0,
+        "residuals": d,
+        "dof": dof[0],
+        "dof_error": dof[1],
+    }

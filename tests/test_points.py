@@ -211,8 +211,11 @@ def test_dxf_units_mismatch_and_bulges_are_warned(tmp_path):
 
 
 def test_near_duplicates_merged_and_reported():
-    pts = np.array([[0, 0], [10, 0], [10, 1e-7], [10, 10], [0, 10], [0, 10]], float)
+    # full-precision coordinates (more than 9 decimals): the merge distance is
+    # MERGE_RTOL x size (a point 1.2e-7 mm from the last one kept is a repeat)
+    pts = np.array([[0, 0], [10, 0], [10, 1.234567891234e-7], [10, 10], [0, 10], [0, 10]], float)
     o = clean_points(pts)
+    assert o.quantization is None
     np.testing.assert_array_equal(o.points, [[0, 0], [10, 0], [10, 10], [0, 10]])
     assert any(s.startswith("merged 2 repeated points") and "points 2, 5" in s for s in o.steps)
     assert not o.closed

@@ -40,7 +40,7 @@ def test_readme_and_help_carry_the_caution():
 # Stages of the data flow; a module may import only its own stage or earlier ones.
 _STAGES = [
     {"errors", "_options", "_version", "geometry"},
-    {"spline", "points", "outline", "smooth", "simple"},
+    {"spline", "points", "outline", "smooth", "noise", "simple"},
     {"checks"},
     {"path"},
     {"export"},

@@ -40,7 +40,7 @@ def radius_extremes(samples):
     return tuple(out)
 
 
-def inflections(samples, size: float) -> np.ndarray:
+def inflections(samples, size: float, *, min_bow: float = 0.0) -> np.ndarray:
     """Arc lengths (mm) where the curvature changes sign along a smooth stretch.
 
     Curvature with |κ| ≤ 1e-4·max|κ| (or |κ|·size ≤ 1e-9) counts as zero:
@@ -56,7 +56,9 @@ def inflections(samples, size: float) -> np.ndarray:
     stretch of length L, the sagitta bound) is rounding noise, not a shape:
     the two sign changes cancel.  (Coordinates rounded to 1e-10 mm at
     10⁶ points 0.4 µm apart make thousands of such wiggles, each bowing
-    about 1e-11 mm.)
+    about 1e-11 mm.)  ``min_bow`` (mm) raises that threshold: the fit
+    passes it twice the points' noise, since a wiggle that bows less than
+    the noise cannot be told from it.
     """
     S = samples
     kmax = float(np.abs(S.kappa).max()) if len(S.kappa) else 0.0
@@ -89,7 +91,7 @@ def inflections(samples, size: float) -> np.ndarray:
     s = np.concatenate(found)
     order = np.argsort(s, kind="stable")
     s, before, after = s[order], np.concatenate(before)[order], np.concatenate(after)[order]
-    return _cancel_wiggles(S, s, before, after, corner_count, WIGGLE_BOW * size)
+    return _cancel_wiggles(S, s, before, after, corner_count, max(WIGGLE_BOW * size, min_bow))
 
 
 #: A wiggle between two curvature sign changes that bows less than this

@@ -122,6 +122,13 @@ class CheckReport:
     feed_plan : FeedPlan
     cycle_time, naive_time, full_feed_share : from the feed plan.
     tool_cannot_reach : True when some spot is out of the tool's reach.
+    fit : how the contour was fitted, from ``contour.info`` (see
+        :func:`fit_facts`): the points' noise and the smoothing; None when
+        the contour carries no such facts.
+    noise_spots : "tool cannot reach" spots of this contour that vanish
+        when the points are smoothed to their noise (checked against
+        ``noise_reference``): the noise's curvature, not the part's, so not
+        machining problems and not in ``tight_spots``.
     """
 
     machine: Machine
@@ -141,6 +148,8 @@ class CheckReport:
     largest_tool_diameter: float | None
     max_constant_feed: float
     feed_plan: FeedPlan
+    fit: dict | None = None
+    noise_spots: tuple = ()
 
     @property
     def cycle_time(self) -> float:
@@ -250,7 +259,7 @@ def _run_indices(i0: int, i1: int, n: int) -> np.ndarray:
     return np.arange(i0, i1 + 1) if i1 >= i0 else np.r_[np.arange(i0, n), np.arange(0, i1 + 1)]
 
 
-def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
+def check(contour, machine=None, tool=None, cut=None, *, noise_reference=None) -> CheckReport:
     """Check a contour for cutting with ``tool`` on ``machine``.
 
     Parameters
@@ -262,6 +271,11 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
         For a closed contour "outside" and "inside" refer to the part
         whichever way it runs; for an open one "outside" is the right of
         the direction of travel.
+    noise_reference : Contour or None
+        The same points smoothed to their noise, when ``contour`` fits
+        noisy points exactly: a spot where the contour bends tighter than
+        the tool but the reference does not (within the tool radius of
+        the spot) is the noise's, and goes to ``noise_spots``.
 
     Returns
     -------
@@ -325,7 +339,7 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
     rmin = min((v for v in (rl, rr) if v is not None), key=lambda v: v.radius, default=None)
     firsts = np.flatnonzero(S.corner & (S.turn != 0))
     corners = tuple((*at(i), math.degrees(float(S.turn[i]))) for i in firsts)
-    infl_s = inflections(S, size)
+    infl_s = inflections(S, size, min_bow=_noise_bow(contour))
     if infl_s.size:
         t_infl = np.interp(infl_s, S.s, S.t)
         p_infl = contour(t_infl)
@@ -390,6 +404,9 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
                                float(prad), feed, depth, note))
     order = {key: i for i, key in enumerate(REASONS)}
     tight.sort(key=lambda t: (t.s, order[t.reason], t.start_s))
+    noise_spots = ()
+    if noise_reference is not None and any(t.reason == "reach" for t in tight):
+        tight, noise_spots = _split_noise(tight, noise_reference, sign, r, S.length, closed)
 
     # -- the highest constant feed ------------------------------------------------
     free = ~S.corner & (lim.gap > 0)
@@ -417,7 +434,72 @@ def check(contour, machine=None, tool=None, cut=None) -> CheckReport:
         largest_tool_diameter=largest,
         max_constant_feed=max_const,
         feed_plan=plan,
+        fit=fit_facts(contour),
+        noise_spots=tuple(noise_spots),
     )
+
+
+def _split_noise(tight, reference, sign, r, length, closed):
+    """Move the reach spots that do not survive the smoothing to a second list.
+
+    A spot whose note says the contour bends tighter than the tool survives
+    when the reference bends toward the tool with radius ≤ r somewhere
+    within r of the spot (arc lengths matched by the length ratio).  Sharp
+    corners and narrow gaps are geometry, never noise.
+    """
+    b = np.asarray(reference.breaks)
+    per = max(1, min(8, 400_000 // max(len(b) - 1, 1)))
+    u = (b[:-1, None] + np.diff(b)[:, None] * (np.arange(per) / per)).ravel()
+    s_ref = reference.arc_length(u) * (length / float(reference.length))
+    bend = sign * reference.curvature(u) * r >= 1.0 - 1e-9
+    keep, noise = [], []
+    for t in tight:
+        if t.reason != "reach" or not t.note.startswith("radius"):
+            keep.append(t)
+            continue
+        lo, hi = t.start_s - r, t.end_s + r
+        if closed and t.end_s < t.start_s:
+            hi += length
+        near = (s_ref >= lo) & (s_ref <= hi)
+        if closed:
+            near |= (s_ref + length >= lo) & (s_ref + length <= hi)
+            near |= (s_ref - length >= lo) & (s_ref - length <= hi)
+        (keep if bool((bend & near).any()) else noise).append(t)
+    return keep, noise
+
+
+def _noise_bow(contour) -> float:
+    """Twice the points' noise (mm): wiggles that bow less are not inflections."""
+    info = getattr(contour, "info", None) or {}
+    sigma = info.get("sigma")
+    est = info.get("noise")
+    if sigma is None and est is not None and est.resolved:
+        sigma = est.sigma_used
+    return 2.0 * float(sigma) if sigma else 0.0
+
+
+def fit_facts(contour) -> dict | None:
+    """How the contour was fitted, as plain numbers (mm): "smoothing" ("off",
+    "tolerance", "noise", or "none" when auto found the points clean),
+    "points", "spacing_median", "spacing_min", "quantization", "sigma"
+    (measured noise), "noise_resolved", "fake_radius" (the smallest radius
+    the noise can fake in an exact fit), "sigma_used" (aimed at when
+    smoothing to the noise), "max_residual", "rms_residual" (distances
+    from the points to the contour), "dof", "dof_error" (degrees of freedom
+    kept, estimated).  None when ``contour.info`` has no smoothing facts."""
+    info = getattr(contour, "info", None) or {}
+    if "smoothing" not in info:
+        return None
+    out = {"smoothing": info["smoothing"], "tolerance": info.get("smooth"),
+           "max_residual": info.get("max_residual"), "rms_residual": info.get("rms_residual"),
+           "sigma_used": info.get("sigma"), "dof": info.get("dof"), "dof_error": info.get("dof_error")}
+    est = info.get("noise")
+    if est is not None:
+        out.update(points=est.points, spacing_median=est.spacing_median,
+                   spacing_min=est.spacing_min, quantization=est.quantization, sigma=est.sigma,
+                   noise_resolved=est.resolved, fake_radius=est.fake_radius,
+                   noise_fakes=bool(est.smooth))
+    return out
 
 
 # -- JSON and text -------------------------------------------------------------
@@ -472,6 +554,9 @@ def _to_dict(rep: CheckReport, units: str) -> dict:
         "naive_time": _num(rep.naive_time),
         "full_feed_share": _num(rep.full_feed_share),
         "tool_cannot_reach": rep.tool_cannot_reach,
+        "fit": _fit_dict(rep.fit, k),
+        "noise_spots": [{"x": _num(t.x, k), "y": _num(t.y, k), "s": _num(t.s, k),
+                         "min_radius": _num(t.min_radius, k)} for t in rep.noise_spots],
         "tight_spots": [
             {"reason": t.reason, "text": t.text, "x": _num(t.x, k), "y": _num(t.y, k),
              "s": _num(t.s, k), "start_s": _num(t.start_s, k), "end_s": _num(t.end_s, k),
@@ -481,6 +566,68 @@ def _to_dict(rep: CheckReport, units: str) -> dict:
             for t in rep.tight_spots
         ],
     }
+
+
+_FIT_LENGTHS = ("tolerance", "max_residual", "rms_residual", "sigma_used", "spacing_median",
+                "spacing_min", "quantization", "sigma", "fake_radius")
+
+
+def _fit_dict(fit, k):
+    if fit is None:
+        return None
+    out = {}
+    for key, v in sorted(fit.items()):
+        if key in _FIT_LENGTHS:
+            out[key] = _num(v, k)
+        elif isinstance(v, float):
+            out[key] = _num(v)
+        else:
+            out[key] = v
+    return out
+
+
+def _fit_lines(fit, k, u) -> list:
+    """The summary's first lines: how the contour was fitted and the noise."""
+    if fit is None:
+        return []
+    mode = fit["smoothing"]
+    lines = []
+    within = (f"every point within {_g(fit['max_residual'], k)} {u} of the contour "
+              f"(RMS {_g(fit['rms_residual'], k)} {u})")
+    fakes = fit.get("noise_fakes", False)
+    if mode == "noise":
+        dof = ""
+        if fit.get("dof") is not None:
+            dof = f", about {fit['dof']:.0f} ± {max(fit['dof_error'], 1.0):.0f} degrees of freedom kept"
+        lines.append(f"fit: smoothed to the points' noise (σ {_g(fit['sigma_used'], k)} {u} aimed at): "
+                     f"{within}{dof}; exact interpolation: --smooth off")
+    elif mode == "tolerance":
+        lines.append(f"fit: smoothed within {_g(fit['tolerance'], k)} {u} (--smooth): {within}")
+    elif mode == "none":
+        lines.append("fit: exact interpolation (the points are clean: their noise cannot fake "
+                     "the curvature)")
+    else:
+        warn = ""
+        if fakes:
+            warn = (f"; CAUTION: in an exact fit the points' noise fakes radii of about "
+                    f"{_g(fit['fake_radius'], k)} {u} (4σ/h²) and smaller: such radii may be noise "
+                    "(--smooth auto smooths to it)")
+        lines.append(f"fit: exact interpolation (--smooth off){warn}")
+    if "points" in fit:
+        q = fit.get("quantization")
+        qtext = f"rounding step {_g(q, k)} {u}" if q is not None else "no rounding step (full precision)"
+        if fit.get("noise_resolved"):
+            noise = f"noise σ {_g(fit['sigma'], k)} {u}"
+            fake = (f"; at this spacing an exact fit turns it into radii of about "
+                    f"{_g(fit['fake_radius'], k)} {u} (4σ/h²)")
+        elif fit.get("sigma"):
+            noise = f"noise below what the spacing resolves (σ under {_g(fit['sigma'], k)} {u})"
+            fake = ""
+        else:
+            noise, fake = "no noise measurable", ""
+        lines.append(f"points: {fit['points']}, spacing {_g(fit['spacing_median'], k)} {u} median, "
+                     f"{_g(fit['spacing_min'], k)} {u} smallest; {noise}; {qtext}{fake}")
+    return lines
 
 
 def _g(value, k: float = 1.0, digits: int = 4) -> str:
@@ -501,7 +648,7 @@ def _to_text(rep: CheckReport, units: str) -> str:
     k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
     u = "in" if units == "inch" else "mm"
     m, tool, cut = rep.machine, rep.tool, rep.cut
-    lines = []
+    lines = _fit_lines(rep.fit, k, u)
     shape = "closed" if rep.closed else "open"
     head = f"{shape} contour, length {_g(rep.length, k, 6)} {u}"
     if rep.closed:
@@ -532,6 +679,10 @@ def _to_text(rep: CheckReport, units: str) -> str:
     )
     counts = ", ".join(f"{rep.count(r)} {REASONS[r]}" for r in REASONS)
     lines.append(f"{len(rep.tight_spots)} tight spots ({counts})")
+    if rep.noise_spots:
+        lines.append(f"  {len(rep.noise_spots)} more spots bend tighter than the tool only in this exact "
+                     "fit of noisy points: they vanish when the points are smoothed to their noise "
+                     "(the noise's curvature, not the part's; not listed)")
     if rep.tight_spots:
         lines.append(
             f"  {'reason':<18} {'x':>10} {'y':>10} {'s':>10} {'length':>9} {'radius':>9} "

@@ -1,0 +1,348 @@
+"""Noise of digitized points: the estimate, smoothing to it, and the default.
+
+Outside references, named beside each check:
+* difference-based noise estimates: Gasser, T., Sroka, L. & Jennen-Steinmetz,
+  C., "Residual variance and residual pattern in nonlinear regression",
+  Biometrika 73(3):625-633, 1986 (pseudo-residuals from neighbouring
+  points); Hall, P., Kay, J.W. & Titterington, D.M., "Asymptotically optimal
+  difference-based estimation of variance in nonparametric regression",
+  Biometrika 77(3):521-528, 1990 (longer difference sequences);
+* rounding to a step q adds a uniform error of variance q²/12 per
+  coordinate (Sheppard's correction; common practice);
+* Reinsch, C.H., "Smoothing by spline functions", Numerische Mathematik
+  10:177-183, 1967: the smoothing spline whose residual sum is n·σ² (from
+  memory);
+* scipy.interpolate.make_smoothing_spline (scipy 1.10+) for the smoother's
+  degrees of freedom (the trace of the map from points to values);
+* the ellipse's curvature ab/(a²sin²θ + b²cos²θ)^{3/2} and its smallest
+  radius b²/a (handbook formula; do Carmo, Differential Geometry of Curves
+  and Surfaces, 1976, §1-5, from memory).
+The noise added here is invented, seeded test data.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+
+import numpy as np
+import pytest
+
+from pathgen.checks.report import check
+from pathgen.noise import estimate_noise, quantization_step
+from pathgen.outline import fit_outline
+from pathgen.points import clean_points, read_points
+from pathgen.smooth import fit_noise, smoothing_spline
+from pathgen.spline import fit
+
+from conftest import ellipse_curvature, ellipse_points
+
+
+def _even_ellipse(a, b, n):
+    """n points evenly spaced along the ellipse's length (counter-clockwise)."""
+    u = np.linspace(0, 2 * np.pi, 200_001)
+    sp = np.hypot(a * np.sin(u), b * np.cos(u))
+    s = np.concatenate([[0], np.cumsum(0.5 * (sp[1:] + sp[:-1]) * np.diff(u))])
+    return ellipse_points(a, b, theta=np.interp(np.arange(n) * s[-1] / n, s, u))
+
+
+def _cam(n):
+    """The cam r = 60 + 8 cos 5θ (an invented part), n points."""
+    th = np.linspace(0, 2 * np.pi, n, endpoint=False)
+    r = 60 + 8 * np.cos(5 * th)
+    return np.c_[r * np.cos(th), r * np.sin(th)]
+
+
+def _cam_min_radius():
+    # polar-curve curvature (r² + 2r'² − r r'')/(r² + r'²)^{3/2} (handbook
+    # formula, from memory), on a fine grid
+    th = np.linspace(0, 2 * np.pi, 400_000, endpoint=False)
+    r, dr, ddr = 60 + 8 * np.cos(5 * th), -40 * np.sin(5 * th), -200 * np.cos(5 * th)
+    k = (r * r + 2 * dr * dr - r * ddr) / (r * r + dr * dr) ** 1.5
+    return float(1 / np.abs(k).max())
+
+
+def _write(path, p, fmt="%.17g", closed=True):
+    if closed:
+        p = np.vstack([p, p[:1]])
+    np.savetxt(path, p, fmt=fmt, delimiter=",", header="x,y", comments="")
+    return path
+
+
+# -- the rounding step --------------------------------------------------------------
+
+
+def test_quantization_step_is_the_decimals_used():
+    assert quantization_step([1.25, 3.5, -7.125]) == 0.001
+    assert quantization_step([12.0, -3.0]) == 1.0
+    assert quantization_step(np.round(np.random.default_rng(1).normal(0, 50, 1000), 6)) == 1e-6
+    assert quantization_step([0.1 + 1e-12]) is None  # more than 9 decimals
+
+
+def test_file_rounding_step_in_mm_also_for_inch(tmp_path):
+    p = _cam(400)
+    o = read_points(_write(tmp_path / "mm.csv", p, "%.3f"))
+    assert o.quantization == 0.001
+    # a file that prints 4 decimals has a 0.0001 step even where its values are round
+    o = read_points(_write(tmp_path / "round.csv", np.round(p), "%.4f"))
+    assert o.quantization == 0.0001
+    o = read_points(_write(tmp_path / "in.csv", p / 25.4, "%.4f"), units="inch")
+    assert o.quantization == pytest.approx(0.00254, rel=1e-12)
+
+
+# -- the noise estimate --------------------------------------------------------------
+
+
+@pytest.mark.parametrize("sigma", [0.001, 0.005, 0.02])
+def test_noise_estimate_on_a_noisy_ellipse(sigma):
+    # Gasser et al. 1986 / Hall et al. 1990: difference-based estimates are
+    # unaffected by a smooth signal when the spacing is small; seeded noise,
+    # 4000 points: the sample standard deviation itself varies by ~1 %.
+    p = _even_ellipse(60, 25, 4000)
+    noisy = p + np.random.default_rng(7).normal(0, sigma, p.shape)
+    est = estimate_noise(noisy, True)
+    assert est.resolved and est.smooth
+    assert est.sigma == pytest.approx(sigma, rel=0.08)
+    # the curvature noise fakes at this spacing: 4σ/h² (derived: second difference)
+    assert est.fake_curvature == pytest.approx(4 * est.sigma_used / est.spacing_median**2, rel=1e-12)
+
+
+def test_noise_estimate_ignores_corners():
+    # a 100 x 60 rectangle with four sharp corners: the robust scale leaves
+    # the few large pseudo-residuals at the corners out (Gasser et al. 1986)
+    edge = np.linspace(0, 1, 500, endpoint=False)[:, None]
+    sq = np.vstack([np.c_[100 * edge, 0 * edge], np.c_[100 + 0 * edge, 60 * edge],
+                    np.c_[100 - 100 * edge, 60 + 0 * edge], np.c_[0 * edge, 60 - 60 * edge]])
+    noisy = sq + np.random.default_rng(3).normal(0, 0.004, sq.shape)
+    assert estimate_noise(noisy, True).sigma == pytest.approx(0.004, rel=0.1)
+
+
+def test_rounding_noise_is_measured_at_q_over_sqrt12():
+    # Sheppard (common practice): rounding to q = 0.001 adds σ = q/√12 = 0.000289
+    p = np.round(_cam(20_000), 3)
+    est = estimate_noise(p, True)
+    assert est.quantization == 0.001
+    assert est.sigma == pytest.approx(0.001 / math.sqrt(12), rel=0.25)
+    assert est.smooth  # 4σ/h² ≈ 2.7 /mm: a fake radius of 0.4 mm
+
+
+@pytest.mark.parametrize("n", [16, 64, 400, 100_000])
+def test_clean_points_are_not_taken_for_noise(n):
+    # exact points (full precision): at any spacing the estimate finds no
+    # noise that could fake the curvature
+    est = estimate_noise(_even_ellipse(3.0, 1.0, n), True)
+    assert not est.smooth
+
+
+# -- Reinsch's criterion ------------------------------------------------------------
+
+
+def test_fit_noise_meets_reinsch_criterion_and_counts_the_freedom(rng):
+    n = 80
+    t = np.cumsum(rng.uniform(0.5, 1.5, n))
+    y = np.c_[np.sin(t / 5), np.cos(t / 7)] + rng.normal(0, 0.05, (n, 2))
+    c, f = fit_noise(t, y, 0.05, rtol=1e-3, probes=64)
+    # Reinsch 1967: Σ |P_i − g(t_i)|² = n σ² (both coordinates, one λ)
+    assert f["residual_sum"] == pytest.approx(n * 0.05**2, rel=1e-3)
+    g, _ = smoothing_spline(t, y, f["lambda"])
+    assert float(((y - g) ** 2).sum()) == pytest.approx(f["residual_sum"], rel=1e-9)
+    # degrees of freedom: trace of the smoother, exactly, from scipy's
+    # make_smoothing_spline (same criterion, natural ends) on unit vectors
+    from scipy.interpolate import make_smoothing_spline
+
+    trace = sum(float(make_smoothing_spline(t, np.eye(n)[j], lam=f["lambda"])(t[j])) for j in range(n))
+    assert abs(f["dof"] - trace) <= 3 * f["dof_error"] + 1e-9
+    assert 2 < trace < n
+
+
+def test_fit_noise_closed_loop_matches_the_noise():
+    p = _even_ellipse(60, 25, 3000)
+    noisy = p + np.random.default_rng(5).normal(0, 0.005, p.shape)
+    t = np.concatenate([[0], np.cumsum(np.hypot(*np.diff(np.vstack([noisy, noisy[:1]]), axis=0).T))])
+    c, f = fit_noise(t, noisy, 0.005, periodic=True)
+    assert f["residual_sum"] == pytest.approx(3000 * 0.005**2, rel=0.01)
+    # measured distances: RMS near σ, none beyond 4σ (3000 Gaussian draws)
+    assert f["rms_residual"] == pytest.approx(0.005, rel=0.1)
+    assert f["max_residual"] <= 4 * 0.005
+
+
+# -- the default: auto ---------------------------------------------------------------
+
+
+def test_auto_interpolates_clean_points_exactly():
+    p = _even_ellipse(3.0, 2.0, 64)
+    a = fit_outline(p, closed=True, smooth="auto")
+    b = fit(p, closed=True)
+    assert a.info["smoothing"] == "none"
+    np.testing.assert_array_equal(a.coefficients, b.coefficients)
+
+
+def test_auto_smooths_a_noisy_ellipse_to_its_handbook_curvature():
+    a_, b_ = 150.0, 50.0
+    p = _even_ellipse(a_, b_, 3000)
+    noisy = p + np.random.default_rng(11).normal(0, 0.005, p.shape)
+    exact = fit_outline(noisy, closed=True, smooth="off")
+    c = fit_outline(noisy, closed=True, smooth="auto")
+    assert c.info["smoothing"] == "noise"
+    rep, rep_exact = check(c), check(exact)
+    # handbook: smallest radius b²/a at the ends of the long axis
+    assert rep.min_radius.radius == pytest.approx(b_ * b_ / a_, rel=0.03)
+    assert rep_exact.min_radius.radius < 0.5 * b_ * b_ / a_  # the noise fakes it
+    # the curvature along the outline, against the formula at each point's angle
+    th = np.arctan2(p[:, 1] / b_, p[:, 0] / a_)
+    k_true = ellipse_curvature(a_, b_, th)
+    err = np.abs(c.curvature(c.breaks[:-1]) - k_true)
+    assert float(np.sqrt(np.mean(err**2))) < 0.02 * (a_ / b_**2)
+    assert c.info["max_residual"] <= 4 * 0.005
+    assert len(rep.inflections) == 0  # an ellipse has none
+
+
+def test_non_chained_merge_keeps_a_dense_outline():
+    # a closed cam sampled 4x finer than the merge distance: thinned, never
+    # collapsed (each point is judged against the last point kept)
+    p = _cam(20_000)
+    h = float(np.median(np.hypot(*np.diff(p, axis=0).T)))
+    o = clean_points(np.vstack([p, p[:1]]), merge_tol=3.5 * h)
+    assert o.closed
+    assert 4000 <= len(o) <= 6000
+    steps = np.hypot(*np.diff(o.points, axis=0).T)
+    assert steps.min() > 3.5 * h
+    length = lambda q: float(np.hypot(*np.diff(np.vstack([q, q[:1]]), axis=0).T).sum())  # noqa: E731
+    assert length(o.points) == pytest.approx(length(p), rel=1e-5)
+
+
+def test_rounded_dense_points_merge_only_exact_repeats():
+    # a 2 x 1 mm tab probed every 0.05 µm, 6 decimals, on a 100 x 50 mm plate:
+    # closer than 1e-6 x the plate's size (0.11 µm), but the values resolve
+    # 0.01 µm (5 decimals), so the merge distance is half that and the tab
+    # stays (merging each point into the one before, chained, used to erase it)
+    x = np.round(np.arange(0, 2, 0.00005), 6)
+    up = np.round(np.arange(0, 1, 0.00005), 6)
+    tab = np.vstack([np.c_[40 + 0 * up, up], np.c_[40 + x, 1 + 0 * x], np.c_[42 + 0 * up, 1 - up]])
+    plate = np.vstack([[[0, 0]], tab, [[100, 0], [100, 50], [0, 50]]])
+    o = clean_points(plate, closed=True)
+    assert o.quantization == 1e-5
+    assert len(o) == len(plate)
+    def area(q):  # shoelace
+        return 0.5 * abs(np.dot(q[:, 0], np.roll(q[:, 1], -1)) - np.dot(q[:, 1], np.roll(q[:, 0], -1)))
+
+    assert area(o.points) == pytest.approx(area(plate), rel=1e-12)
+    assert area(plate) == pytest.approx(100 * 50 - 2 * 1, abs=0.01)  # the notch is there
+
+
+# -- the whole job --------------------------------------------------------------------
+
+
+def test_cli_default_smooths_rounded_dense_points_and_says_so(tmp_path):
+    from pathgen.cli import main
+    import io
+
+    f = _write(tmp_path / "cam.csv", _cam(10_000), "%.3f")
+    out, err = io.StringIO(), io.StringIO()
+    status = main(["check", str(f), "--tool-diameter", "6"], out=out, err=err)
+    lines = out.getvalue().splitlines()
+    assert status == 0
+    assert lines[1].startswith("fit: smoothed to the points' noise") and "--smooth off" in lines[1]
+    assert "rounding step 0.001 mm" in lines[2] and "spacing" in lines[2] and "radii of about" in lines[2]
+    out2 = io.StringIO()
+    status = main(["check", str(f), "--tool-diameter", "6", "--json"], out=out2, err=io.StringIO())
+    data = json.loads(out2.getvalue())
+    fit_ = data["report"]["fit"]
+    assert fit_["smoothing"] == "noise" and fit_["quantization"] == 0.001
+    assert fit_["sigma"] == pytest.approx(0.001 / math.sqrt(12), rel=0.25)  # Sheppard
+    assert fit_["max_residual"] <= 0.001
+    assert data["report"]["min_radius"]["radius"] == pytest.approx(_cam_min_radius(), rel=0.03)
+    # forced exact interpolation: the rounding fakes radii under the tool's;
+    # those spots vanish when smoothed, so they are the noise's, not machining
+    # problems (listed apart; exit 0)
+    out3 = io.StringIO()
+    status = main(["check", str(f), "--tool-diameter", "6", "--smooth", "off", "--json"],
+                  out=out3, err=io.StringIO())
+    rep = json.loads(out3.getvalue())["report"]
+    assert status == 0 and rep["fit"]["smoothing"] == "off"
+    assert rep["min_radius"]["radius"] < 3.0  # the tool's radius: the noise's curvature
+    assert len(rep["noise_spots"]) > 10 and not rep["tool_cannot_reach"]
+    out4 = io.StringIO()
+    main(["check", str(f), "--tool-diameter", "6", "--smooth", "off"], out=out4, err=io.StringIO())
+    text = out4.getvalue()
+    assert "exact interpolation (--smooth off); CAUTION: in an exact fit the points' noise fakes" in text
+    assert "vanish when the points are smoothed to their noise" in text
+
+
+def test_a_real_tight_spot_survives_the_noise_check():
+    # the hook sample (pathgen.demo): its slot end, inner radius 2 mm, is too
+    # tight for a 6 mm tool whether the points are smoothed or fitted exactly
+    from pathgen import demo
+    from pathgen.pipeline import run
+
+    for smooth in ("auto", "off"):
+        rep = run(demo.make_part("hook"), closed=True, tool_diameter=6, smooth=smooth).report
+        reach = [t for t in rep.tight_spots if t.reason == "reach"]
+        assert rep.tool_cannot_reach
+        assert any(35 < t.x < 45 and 24 < t.y < 31 for t in reach)  # the slot's end, centre (40, 28)
+
+
+def test_inch_noise_is_stated_in_inch(tmp_path):
+    from pathgen.pipeline import run
+
+    p = _cam(3000) / 25.4
+    noisy = p + np.random.default_rng(2).normal(0, 0.0002, p.shape)
+    r = run(_write(tmp_path / "cam_in.csv", noisy), units="inch", tool_diameter=0.25)
+    fit_ = r.report.to_dict(units="inch")["fit"]
+    assert fit_["smoothing"] == "noise"
+    assert fit_["sigma"] == pytest.approx(0.0002, rel=0.15)
+    assert r.report.fit["sigma"] == pytest.approx(0.0002 * 25.4, rel=0.15)  # mm inside
+    assert r.report.min_radius.radius == pytest.approx(_cam_min_radius(), rel=0.03)  # mm inside
+    assert r.status == 0
+
+
+def test_demo_bracket_reports_its_fillets_not_the_noise():
+    # pathgen.demo draws the bracket with outer corners R 8 and an inner
+    # fillet R 10, probed with σ = 0.005 mm noise every 1.3 mm
+    from pathgen import demo
+    from pathgen.pipeline import run
+
+    r = run(demo.make_part("bracket"), closed=True, tool_diameter=6)
+    rep = r.report
+    assert rep.fit["smoothing"] == "noise"
+    assert 0.9 * 8 <= rep.min_radius_left.radius <= 1.03 * 8
+    assert 0.9 * 10 <= rep.min_radius_right.radius <= 1.03 * 10
+    # the drawn bracket's dent has 4 inflections (its noise-free points give
+    # 4); the noise gave 164 before the check knew the noise
+    assert len(rep.inflections) <= 2 * 4
+
+
+def test_smooth_option_errors(tmp_path):
+    import io
+
+    from pathgen.cli import main
+    from pathgen.errors import InputError
+    from pathgen.pipeline import run
+
+    f = _write(tmp_path / "c.csv", _cam(100), "%.3f")
+    err = io.StringIO()
+    assert main(["check", str(f), "--smooth", "lots"], out=io.StringIO(), err=err) == 2
+    assert err.getvalue().count("\n") == 1 and "expected auto, off or a distance, got 'lots'" in err.getvalue()
+    with pytest.raises(InputError, match=r"smooth='lots' is not one of: 'auto', 'off'"):
+        run(f, smooth="lots")
+    with pytest.raises(InputError, match=r"smooth='lots' is not one of: 'auto', 'off'"):
+        fit_outline(_cam(100), closed=True, smooth="lots")
+
+
+def test_smoothing_makes_no_false_corners_far_from_the_origin():
+    # the cam 900 m from the origin, 20 000 points rounded to 0.001 mm: the
+    # tangent of a smoothing spline is continuous by construction, but at
+    # these coordinates rounding makes it jump by more than 1e-9 rad at many
+    # breaks; such jumps are not corners (they made 17 936 of them, and the
+    # tool path cut the outline into as many windows)
+    p = np.round(_cam(20_000) + 9e5, 3)
+    c = fit_outline(p, closed=True, smooth="auto")
+    assert c.info["smoothing"] == "noise"
+    assert c.corners == ()
+    # the rectangle's four corners stay corners when its noisy edges are smoothed
+    edge = np.linspace(0, 1, 300, endpoint=False)[:, None]
+    sq = np.vstack([np.c_[100 * edge, 0 * edge], np.c_[100 + 0 * edge, 60 * edge],
+                    np.c_[100 - 100 * edge, 60 + 0 * edge], np.c_[0 * edge, 60 - 60 * edge]])
+    noisy = sq + np.random.default_rng(4).normal(0, 0.004, sq.shape)
+    c = fit_outline(noisy, closed=True, smooth="auto")
+    assert len(c.corners) == 4
