@@ -36,6 +36,7 @@ from .flatten import MOVES, _drop_tiny, approximate
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from .offset import assemble, regular_windows, unique_spots
+from .straighten import straighten
 
 __all__ = ["make_toolpath", "contour_moves", "choose_seam", "DIRECTIONS", "LEADS"]
 
@@ -116,6 +117,9 @@ def _approximate_all(contour, windows, d, tol, moves):
         if moves == "arcs":
             # arcs fitted inside the tolerance band (falls back to curve-tangent biarcs)
             chain, dv, st = band_arcs(contour, w[None], d, tol)
+            # near-straight arcs (radius > 1000 chords, or bulge < 5 % of tol) become lines, measured
+            chain, dv_lines = straighten(contour, chain, d, tol)
+            dv = max(dv, dv_lines)
         else:
             chain, dv, st = approximate(contour, w[None], d, tol, moves=moves)
         parts.append(chain)
