@@ -61,7 +61,7 @@ def rounding_bound(decimals: int, units: str = "mm") -> float:
     the arc it stands for (derived).  Returned in mm.
 
     >>> round(rounding_bound(4) * 1e4, 4), round(rounding_bound(5, "inch"), 7)
-    (3.5355, 0.0008980)
+    (3.5355, 0.000898)
     """
     unit = 10.0 ** (-int(decimals))
     scale = _MM_PER_INCH if units == "inch" else 1.0
@@ -76,7 +76,7 @@ def decimals_for(tolerance_mm: float, units: str = "mm") -> int:
 
     >>> decimals_for(0.1), decimals_for(0.01), decimals_for(0.001), decimals_for(0.0001)
     (4, 4, 5, 6)
-    >>> decimals_for(0.01, "inch"), decimals_for(0.0254 * 0.0001, "inch")
+    >>> decimals_for(0.1, "inch"), decimals_for(0.01, "inch")
     (5, 6)
     """
     d = _MIN_DECIMALS[units]
@@ -85,7 +85,8 @@ def decimals_for(tolerance_mm: float, units: str = "mm") -> int:
     return d
 
 
-def budget(tolerance_mm: float, *, decimals: int, units: str = "mm", smoothing=None) -> dict:
+def budget(tolerance_mm: float, *, decimals: int, units: str = "mm", residual=(0.0, 0.0),
+           smoothed: bool = False) -> dict:
     """The tolerance budget of a program, in mm.
 
     Parameters
@@ -93,28 +94,34 @@ def budget(tolerance_mm: float, *, decimals: int, units: str = "mm", smoothing=N
     tolerance_mm : chord tolerance.
     decimals : decimals written.
     units : units of the program.
-    smoothing : None when the contour interpolates the points, else
-        ``(largest, rms)`` distance of the points from the contour (mm).
+    residual : (largest, rms) distance of the points from the contour (mm),
+        as measured by the fit.
+    smoothed : True when the contour smooths the points (asked for with its
+        own tolerance): the residual is then stated apart and not taken
+        from the chord tolerance; interpolating, the residual (about 0) is
+        the first part of the budget.
 
     Returns
     -------
-    dict with ``tolerance``, ``rounding`` (the bound of
-    :func:`rounding_bound`), ``approximation_target`` (what is left for
-    the moves: tolerance − rounding) and ``smoothing`` (largest, rms or
-    None).  Smoothing is asked for separately (its own tolerance) and is
-    stated beside the chord tolerance, not taken from it.
+    dict with ``tolerance``, ``decimals``, ``points`` (the points → contour
+    part), ``smoothing`` ([largest, rms] or None), ``rounding`` (the bound of
+    :func:`rounding_bound`) and ``approximation_target`` (what is left for
+    the moves: tolerance − points − rounding).  The caller adds the measured
+    ``approximation`` and ``total``.
 
     >>> b = budget(0.01, decimals=4)
     >>> round(b["approximation_target"], 8), b["smoothing"]
-    (0.00996464, None)
+    (0.00964645, None)
     """
     rnd = rounding_bound(decimals, units)
+    points = 0.0 if smoothed else float(residual[0])
     return {
         "tolerance": float(tolerance_mm),
         "decimals": int(decimals),
+        "points": points,
+        "smoothing": [float(residual[0]), float(residual[1])] if smoothed else None,
         "rounding": rnd,
-        "approximation_target": float(tolerance_mm) - rnd,
-        "smoothing": None if smoothing is None else [float(smoothing[0]), float(smoothing[1])],
+        "approximation_target": float(tolerance_mm) - rnd - points,
     }
 
 
@@ -459,8 +466,12 @@ def program_time(program, machine) -> float | None:
     if np.any(cut & ~(program.feed > 0)):
         return None
     start = np.array(program.start, dtype=np.float64)
-    # the first rapid starts where the machine stands (unknown): count it from its end
+    end = np.asarray(program.end)
+    # the first rapids start where the machine stands (not known): they are
+    # counted from where they go, and a rapid to an unknown X, Y not at all
     unknown = np.isnan(start)
-    start[unknown] = np.asarray(program.end)[unknown]
-    _, t = feeds_for_moves(kind, start, program.end, program.center, feed=program.feed, machine=machine)
+    start[unknown] = end[unknown]
+    known = np.isfinite(end).all(axis=1)
+    _, t = feeds_for_moves(kind[known], start[known], end[known], program.center[known],
+                           feed=program.feed[known], machine=machine)
     return float(t)
