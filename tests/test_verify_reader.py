@@ -197,3 +197,28 @@ def test_rounding_error_of_written_points(decimals, rng):
     half = 0.5 * 10.0**-decimals
     assert err.max() <= math.sqrt(2) * half * (1 + 1e-9)
     assert err.max() > 0.3 * half  # the rounding is really there (the check can fail)
+
+
+def test_plain_blocks_and_general_blocks_read_the_same(rng):
+    # pathgen's own blocks take a short path through the reader; the same program in
+    # lower case with extra spaces takes the general one: the moves must be identical
+    from pathgen.export.gcode import gcode_text
+    from pathgen.path.model import ARC_CCW, LINE, Toolpath
+
+    n = 300
+    p = np.cumsum(rng.normal(0, 4, (n + 1, 2)), axis=0)
+    kind = np.where(np.arange(n) % 3 == 0, ARC_CCW, LINE).astype(np.int8)
+    mid = 0.5 * (p[:-1] + p[1:])
+    chord = p[1:] - p[:-1]
+    center = mid + 2.0 * np.c_[-chord[:, 1], chord[:, 0]]  # on the chord's perpendicular: a consistent arc
+    z = np.full((n, 1), -1.0)
+    tp = Toolpath(kind, np.hstack([p[:-1], z]), np.hstack([p[1:], z]), np.where(kind[:, None] == LINE, 0, center),
+                  np.full(n, 700.0), info={"safe_height": 5.0})
+    for units in ("mm", "inch"):
+        text = gcode_text(tp if units == "mm" else Toolpath(tp.kind, tp.start, tp.end, tp.center, tp.feed,
+                                                             units="inch", info=tp.info), line_numbers=True)
+        a = read_gcode(text, strict=True)
+        b = read_gcode(text.lower().replace(" ", "  "), strict=True)
+        for col in ("kind", "start", "end", "center", "feed", "line"):
+            np.testing.assert_array_equal(getattr(a, col), getattr(b, col))
+        assert a.problems == b.problems == ()

@@ -72,6 +72,11 @@ _MM_PER_INCH = 25.4
 _MAX_LINE = 256
 
 _WORD = re.compile(r"([A-Za-z])[ \t]*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)?")
+# the plain motion block pathgen writes (upper case, one space apart, fixed point): read without the
+# general tokenizer; anything else takes the general path, which applies the same rules
+_NUM = r"(-?\d+(?:\.\d+)?)"
+_FAST = re.compile(rf"(?:N\d{{1,5}} )?G([0-3])(?: X{_NUM})?(?: Y{_NUM})?(?: Z{_NUM})?(?: I{_NUM})?(?: J{_NUM})?"
+                   rf"(?: F(\d+(?:\.\d+)?))?")
 _G_KNOWN = {0, 1, 2, 3, 17, 20, 21, 40, 90, 91, 94}
 _M_KNOWN = {2, 3, 5, 8, 9, 30}
 _LETTERS = set("GMXYZIJFSN")
@@ -175,8 +180,53 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
     raw_lines = text.split("\n")
     if raw_lines and raw_lines[-1] == "":
         raw_lines.pop()
+    fast = _FAST.fullmatch
+    arc_rule = None
     for lineno, raw in enumerate(raw_lines, start=1):
         code = raw.rstrip("\r")
+        m = fast(code) if (incremental is False and units is not None and not ended and len(code) <= _MAX_LINE) \
+            else None
+        if m is not None:
+            g, x, y, z, i_, j_, f_ = m.groups()
+            g = int(g)
+            arc = g >= 2
+            if (x is not None or y is not None or z is not None) and arc == (i_ is not None or j_ is not None) \
+                    and (f_ is None or float(f_) > 0):
+                # a plain absolute move: the same rules as below, without the tokenizer
+                motion = g
+                if f_ is not None:
+                    feed = float(f_)
+                scale = _MM_PER_INCH if units == "inch" else 1.0
+                start = pos
+                end = [pos[0] if x is None else float(x) * scale, pos[1] if y is None else float(y) * scale,
+                       pos[2] if z is None else float(z) * scale]
+                center = (0.0, 0.0)
+                if g:
+                    if start[0] != start[0] or start[1] != start[1] or start[2] != start[2]:  # NaN: unknown
+                        _fail(source, lineno, f"G{g} from an unknown position (give X, Y and Z first)")
+                    if feed <= 0:
+                        problem(lineno, "no feed", f"G{g} before any F word (the feed is not set)")
+                    if arc:
+                        cx = start[0] + (float(i_) * scale if i_ is not None else 0.0)
+                        cy = start[1] + (float(j_) * scale if j_ is not None else 0.0)
+                        r0 = math.hypot(start[0] - cx, start[1] - cy)
+                        r1 = math.hypot(end[0] - cx, end[1] - cy)
+                        if arc_rule is None:
+                            arc_rule = ARC_RULE[units] * scale
+                        if abs(r0 - r1) > arc_rule or r0 == 0.0:
+                            fs = 1.0 / scale
+                            problem(lineno, "arc radius",
+                                    f"arc start radius {r0 * fs:.6f} and end radius {r1 * fs:.6f} {units} differ by "
+                                    f"{abs(r0 - r1) * fs:.6f}, more than {ARC_RULE[units]} {units} (NISTIR 6556)")
+                        center = (cx, cy)
+                kinds.append(g)
+                starts.append(start)
+                ends.append(end)
+                centers.append(center)
+                feeds.append(feed * scale if g else 0.0)
+                lines.append(lineno)
+                pos = end
+                continue
         if len(code) > _MAX_LINE:
             problem(lineno, "line length", f"{len(code)} characters, more than {_MAX_LINE} (NISTIR 6556)")
         # comments: (...) on one line, or ; to the end of the line
