@@ -427,6 +427,9 @@ def _table(rows) -> str:
     errors = [f"  {r['file']}: {r['message']}" for r in rows if r["exit"] == 2]
     if errors:
         lines += ["", "skipped (bad input):", *errors]
+    internal = [f"  {r['file']}: {r['message']}" for r in rows if r["exit"] == 3]
+    if internal:
+        lines += ["", "not written (internal check failed, please report it):", *internal]
     return "\n".join(lines) + "\n"
 
 

@@ -538,8 +538,14 @@ def batch_row(result: Result | None, source, *, error: str | None = None) -> dic
 def _batch_one(source: Path, outdir: Path, stem: str, outputs: tuple, options: dict) -> dict:
     """Run one file of a batch; a bad file becomes an error row."""
     targets = {k: outdir / (stem + OUTPUT_SUFFIXES[k]) for k in outputs}
+    from .errors import InternalCheckError
+
     try:
         result = run(source, **targets, **options)
+    except InternalCheckError as exc:  # pathgen's own check of its program failed: exit 3, not bad input
+        row = batch_row(None, source.name, error=" ".join(str(exc).split()))
+        row.update(status="internal check failed", exit=3)
+        return row
     except (PathgenError, OSError) as exc:
         return batch_row(None, source.name, error=" ".join(str(exc).split()))
     return batch_row(result, source.name)
