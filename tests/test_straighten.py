@@ -55,6 +55,10 @@ def test_no_arc_is_a_line_in_disguise(tol):
         assert np.all(r <= MAX_RADIUS_RATIO * chord)
         assert np.all(sag >= LINE_BULGE_SHARE * tol * (1 - 1e-9))
         assert tp.deviation <= tol  # measured after the replacement
+        # the two 80 mm straight edges are lines (the seam may split one of them in two)
+        L = np.hypot(*(tp.end - tp.start)[:, :2].T)
+        assert L[tp.kind == 1].sum() == pytest.approx(160.0, abs=1e-3)  # (a plunge has no length in the plane)
+        assert np.sum((tp.kind == 1) & (L > 30.0)) >= 2
 
 
 def test_straight_edge_of_a_noisy_profile_is_a_line_within_tolerance():

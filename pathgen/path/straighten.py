@@ -1,4 +1,8 @@
-"""Arcs that are lines in all but name are written as lines.
+"""Straight edges, and arcs that are lines in all but name, are written as lines.
+
+The straight edges of a contour (``contour.info["straight_runs"]``, exact
+lines of the fit) and their offsets are lines: :func:`arcs_and_lines`
+writes each as one line and fits arcs to the stretches between them.
 
 An arc fitted along a nearly straight stretch can come out with a radius
 of many metres over a chord of a few millimetres (a 162 m radius over
@@ -21,10 +25,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .measure import Chain, arc_geometry, chain_deviation, offset_points
+from .measure import Chain, _offset_side, arc_geometry, chain_deviation, offset_points
 from .model import LINE
 
-__all__ = ["straighten", "MAX_RADIUS_RATIO", "LINE_BULGE_SHARE"]
+__all__ = ["straighten", "straight_spans", "arcs_and_lines", "MAX_RADIUS_RATIO", "LINE_BULGE_SHARE"]
 
 #: An arc whose radius is more than this many times its chord is a line.
 MAX_RADIUS_RATIO = 1000.0
@@ -139,3 +143,67 @@ def _split(contour, arc: Chain, d, tol):
         if dev.max() <= tol:
             return lines, float(dev.max())
     return None
+
+
+def straight_spans(contour) -> list:
+    """Parameter intervals [t0, t1] of the contour's straight edges."""
+    info = getattr(contour, "info", None) or {}
+    b = contour.breaks
+    return [(float(b[i]), float(b[j])) for i, j in info.get("straight_runs") or () if 0 <= i < j < len(b)]
+
+
+def _pieces(contour, a: float, b: float, spans):
+    """[a, b] cut into (t0, t1, straight) pieces at the straight edges."""
+    period = contour.breaks[-1] - contour.breaks[0] if contour.closed else 0.0
+    shifts = (-1, 0, 1, 2) if contour.closed else (0,)
+    eps = 1e-7 * max(1.0, b - a)
+    cuts = sorted((max(s0 + k * period, a), min(s1 + k * period, b)) for s0, s1 in spans for k in shifts)
+    cuts = [(lo, hi) for lo, hi in cuts if hi - lo > eps]
+    out, t = [], a
+    for lo, hi in cuts:
+        if lo - t > eps:
+            out.append((t, lo, False))
+        else:
+            lo = t  # a sliver of curve before the edge: the line takes it
+        out.append((lo, hi, True))
+        t = hi
+    if b - t > eps:
+        out.append((t, b, False))
+    elif out:
+        out[-1] = (out[-1][0], b, out[-1][2])
+    return out or [(a, b, False)]
+
+
+def arcs_and_lines(contour, window, d: float, tol: float, spans, fit_arcs):
+    """One window: its straight edges as lines, arcs between them.
+
+    ``fit_arcs(contour, windows, d, tol)`` -> (chain, deviation, stats) fits
+    the curved stretches; near-straight arcs become lines
+    (:func:`straighten`).  Returns (chain, deviation, stats), measured.
+    """
+    a, b = float(window[0]), float(window[1])
+    parts, dev, stats = [], 0.0, None
+    for t0, t1, straight in _pieces(contour, a, b, spans):
+        if straight:
+            s = _offset_side(contour, np.array([t0]), d, left=False)
+            e = _offset_side(contour, np.array([t1]), d, left=True)
+            chain = Chain(np.array([LINE], np.int8), s, e, np.zeros((1, 2)), np.array([t0]), np.array([t1]))
+            dv = float(chain_deviation(contour, d, chain, tol, density=_DENSITY).max())
+            st = {"spans": 1, "merged_spans": 0, "boost_rounds": 0, "split_rounds": 0}
+        else:
+            chain, dv, st = fit_arcs(contour, np.array([[t0, t1]]), d, tol)
+            chain, dv_lines = straighten(contour, chain, d, tol)
+            dv = max(dv, dv_lines)
+        parts.append(chain)
+        dev = max(dev, dv)
+        if stats is None:
+            stats = dict(st)
+        else:
+            for key in stats:
+                summed = key in ("spans", "merged_spans")
+                stats[key] = stats[key] + st[key] if summed else max(stats[key], st[key])
+    for prev, nxt in zip(parts[:-1], parts[1:]):
+        # consecutive pieces meet at the same point of q, evaluated two ways: make it one point
+        if len(prev) and len(nxt) and np.hypot(*(nxt.start[0] - prev.end[-1])) <= 1e-9 * (1.0 + abs(d)):
+            nxt.start[0] = prev.end[-1]
+    return Chain.concat(parts), dev, stats
