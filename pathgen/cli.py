@@ -1,16 +1,19 @@
 """The ``pathgen`` command: a thin layer over :func:`pathgen.pipeline.run`.
 
-Commands: check, gcode, dxf, plot, demo, batch (``pathgen COMMAND --help``).
+Commands: check, gcode, dxf, plot, verify, demo, batch (``pathgen COMMAND --help``).
 
 Exit status
 -----------
 0  done.
 1  done, but the tool cannot cut some spot as drawn (see the report's tight
-   spots); a script should stop before cutting.
+   spots); a script should stop before cutting.  ``verify``: the program
+   gouges the part, strays beyond the tolerance, or breaks a rule.
 2  bad input or usage: one line on stderr naming the file (and line) and
    what is wrong; no output file is left behind.
 3  internal error (a bug in pathgen): one line on stderr and the file that
-   holds the details; no output file is left behind.
+   holds the details, or "internal check failed" when the program pathgen
+   made, read back from its text, strays beyond the tolerance or cuts into
+   the part (the figures on stderr); no output file is left behind.
 130  interrupted (Ctrl-C or SIGTERM); no output file is left behind.
 
 This module imports only the standard library at load time, so that
@@ -67,6 +70,10 @@ _COMMANDS = {
     "plot": (
         "draw the picture (PNG or SVG)",
         "pathgen plot samples/bracket.csv -o bracket.png --tool-diameter 6",
+    ),
+    "verify": (
+        "check a program (e.g. hand-edited) against the part: deviation, gouges, word problems, time",
+        "pathgen verify bracket.nc samples/bracket.csv --tool-diameter 6 --machine samples/router.toml",
     ),
     "demo": (
         "write the sample parts and a machine profile into DIR and run the whole job on them",
@@ -208,6 +215,10 @@ def build_parser() -> argparse.ArgumentParser:
         if name in outputs:
             p.add_argument("points", metavar="POINTS", help="points file (.csv .txt .xy .dxf)")
             _add_shared(p, output=outputs[name], program=name == "gcode")
+        elif name == "verify":
+            p.add_argument("program", metavar="PROGRAM", help="G-code program to check (.nc, .ngc, .tap, any text)")
+            p.add_argument("points", metavar="POINTS", help="the part's points file (.csv .txt .xy .dxf)")
+            _add_shared(p, output=None)
         elif name == "demo":
             p.add_argument("directory", metavar="DIR", nargs="?", default="pathgen-demo",
                            help="folder to write into (default: pathgen-demo)")
@@ -260,6 +271,10 @@ def _summary_lines(result) -> list[str]:
         lines.append(f"program: {tp.block_count} moves, estimated time {_fmt_time(tp.time)} with rapids "
                      f"and plunges, measured deviation {tp.deviation:.4f} {tp.units} "
                      f"(tolerance {tp.tolerance:.4f} {tp.units})")
+    if getattr(result, "program", None):
+        from .verify.check import summary_lines
+
+        lines += summary_lines(result.program, tp.units if tp is not None else result.units)
     for kind_, p in result.files.items():
         lines.append(f"wrote {kind_}: {p}")
     return lines
@@ -279,6 +294,10 @@ def _report_json(result) -> str:
     payload = {"source": result.source, "contour": _finite_or_null(result.facts)}
     if rep is not None:
         payload["report"] = rep.to_dict(units=result.units)
+    if getattr(result, "program", None):
+        from .verify.check import program_dict
+
+        payload["program"] = program_dict(result.program, result.units)
     if result.files:
         payload["files"] = {k: str(v) for k, v in result.files.items()}
     return json.dumps(payload, indent=2, sort_keys=True, allow_nan=False, default=_json_default)
@@ -452,6 +471,9 @@ def _table(rows) -> str:
     errors = [f"  {r['file']}: {r['message']}" for r in rows if r["exit"] == 2]
     if errors:
         lines += ["", "skipped (bad input):", *errors]
+    internal = [f"  {r['file']}: {r['message']}" for r in rows if r["exit"] == 3]
+    if internal:
+        lines += ["", "not written (internal check failed, please report it):", *internal]
     return "\n".join(lines) + "\n"
 
 
@@ -504,9 +526,86 @@ def _cmd_demo(a, out, err) -> int:
     return _emit_rows(rows, a, out, err, footer)
 
 
+def _verify_text(facts, result, a) -> list[str]:
+    """The verify command's plain lines (figures in the program's units)."""
+    u = facts["units"]
+    f = 25.4 if u == "inch" else 1.0
+
+    def L(v):
+        return "-" if v is None else f"{v / f:.5f} {u}"
+
+    tol = facts["tolerance"]
+    lines = [f"{facts['program']} against {result.source}: {len(result.toolpath)} moves expected, "
+             f"{facts['moves_measured']} cutting moves along the part measured"]
+    verdict = "within" if facts["within_tolerance"] else "OFF"
+    where = ""
+    if facts["deviation_worst_line"] is not None:
+        where = f"; moves to curve {L(facts['deviation_moves_to_curve'])} worst at line {facts['deviation_worst_line']}"
+    gap = facts["deviation_gap_at"]
+    if gap is not None:
+        where += f"; curve to moves {L(facts['deviation_curve_to_moves'])} at x={gap[0] / f:.4f} y={gap[1] / f:.4f}"
+    lines.append(f"deviation from the expected tool-center path: {L(facts['deviation'])} ({verdict} the tolerance "
+                 f"{L(tol)}{where})")
+    cl = facts["clearance"]
+    if cl is None:
+        lines.append("clearance: not checked (cutting on the line)")
+    else:
+        lines.append(f"clearance: the tool center comes {L(cl['smallest'])} from the part at line {cl['line']} "
+                     f"(tool radius {L(cl['tool_radius'])})" + ("" if cl["ok"] else ""))
+    for g in facts["gouges"]:
+        lines.append(f"GOUGE: line {g['line']} cuts {L(g['depth'])} into the part")
+    for pr in facts["problems"]:
+        if pr["rule"] != "no feed":
+            lines.append(f"problem: line {pr['line']}: {pr['message']}")
+    nof = facts["feed_moves_without_f"]
+    if nof:
+        shown = ", ".join(str(n) for n in nof[:10]) + (" ..." if len(nof) > 10 else "")
+        lines.append(f"feed moves without F: {len(nof)} (lines {shown})")
+    tp = result.toolpath
+    want = sorted({round(float(z) * (25.4 if tp.units == "inch" else 1.0), 6)
+                   for z, k, z1 in zip(tp.start[:, 2], tp.kind, tp.end[:, 2]) if k != 0 and z == z1})
+    got = facts["cutting_depths"]
+
+    def zs(v):
+        return ", ".join(f"{z / f:g}" for z in v) or "none"
+
+    lines.append(f"cutting depths: {zs(got)} {u} (the path made from the points: {zs(want)} {u})")
+    t = facts["time"]
+    lines.append("estimated cycle time as written: " + ("not known (a feed move has no F)" if t is None
+                                                        else _fmt_time(t)))
+    lines.append("clean" if facts["status"] == 0 else
+                 "NOT clean (exit status 1): fix the lines named above before cutting")
+    return lines
+
+
+def _cmd_verify(a, out, err) -> int:
+    import json
+
+    from .pipeline import verify
+    from .verify.check import program_dict
+
+    opts = _run_options(a)
+    for key in ("spindle_speed", "one_feed", "line_numbers", "force"):
+        opts.pop(key, None)
+    facts, result = verify(a.program, a.points, **opts)
+    if not a.quiet:
+        for note in result.notes:
+            err.write(f"pathgen verify: note: {' '.join(note.split())}\n")
+    if a.json:
+        payload = program_dict(facts, facts["units"])
+        out.write(json.dumps(payload, indent=2, sort_keys=True, allow_nan=False) + "\n")
+        err.write(CAUTION + "\n")
+    elif not a.quiet:
+        out.write("\n".join(_verify_text(facts, result, a)) + "\n")
+        out.write(CAUTION + "\n")
+    else:
+        err.write(CAUTION + "\n")
+    return facts["status"]
+
+
 def _commands():
     return {"check": _cmd_job, "gcode": _cmd_job, "dxf": _cmd_job, "plot": _cmd_job,
-            "batch": _cmd_batch, "demo": _cmd_demo}
+            "batch": _cmd_batch, "demo": _cmd_demo, "verify": _cmd_verify}
 
 
 def _one_line(exc: BaseException) -> str:
@@ -532,7 +631,7 @@ def main(argv=None, *, out=None, err=None) -> int:
     if a.command is None:
         err.write(f"pathgen: give a command: {', '.join(_COMMANDS)} (see pathgen --help)\n")
         return EXIT_BAD
-    from .errors import PathgenError
+    from .errors import InternalCheckError, PathgenError
     import signal
     import warnings
 
@@ -548,6 +647,9 @@ def main(argv=None, *, out=None, err=None) -> int:
             # numerical warnings are pathgen's to handle, never the user's to read
             warnings.simplefilter("ignore", RuntimeWarning)
             return _commands()[a.command](a, out, err)
+    except InternalCheckError as exc:
+        _safe_write(err, f"pathgen {a.command}: {_one_line(exc)} (exit status 3: please report it)\n")
+        return EXIT_INTERNAL
     except _UsageError as exc:
         err.write(f"{_one_line(exc)} (see pathgen {a.command} --help)\n")
         return EXIT_BAD

@@ -27,7 +27,7 @@ from pathlib import Path
 from ._options import MM_PER_INCH, SIDES, UNITS, check_flag, check_option, check_positive
 from .errors import InputError, PathgenError
 
-__all__ = ["run", "Result", "MOVES", "LEADS", "contour_facts"]
+__all__ = ["run", "verify", "Result", "MOVES", "LEADS", "contour_facts"]
 
 MOVES = ("arcs", "lines")
 LEADS = ("arc", "line", "none")
@@ -56,6 +56,9 @@ class Result:
     notes : warnings for the user, plain sentences (the input's warnings,
         e.g. points out of order or a self-crossing outline, and writers'
         warnings, e.g. a very large drawing).
+    program : what the replay of the written program measured (mm; see
+        :func:`pathgen.verify.check.check_program`: deviation, clearance,
+        time, tolerance budget), or None when no program was written.
     """
 
     source: str
@@ -68,6 +71,7 @@ class Result:
     timings: dict = field(default_factory=dict)
     units: str = "mm"
     notes: tuple = ()
+    program: dict = None
 
     @property
     def tool_cannot_reach(self) -> bool:
@@ -307,6 +311,7 @@ def run(
     plot=None,
     force: bool = False,
     progress=None,
+    make_path: bool = False,
 ) -> Result:
     """Run the whole job on a points file or an (n, 2) array.
 
@@ -377,6 +382,9 @@ def run(
         Overwrite existing files.
     progress : callable(str) or None
         Called with each stage's name as it starts (for long work).
+    make_path : bool
+        Make the toolpath even when no program, drawing or picture asks
+        for it (:func:`verify` compares a program with it).
 
     Returns
     -------
@@ -410,7 +418,7 @@ def run(
         seam = (sx, sy)
     from .checks.machine import Cut, Machine, Tool, load_machine
 
-    if gcode is not None and tool_mm is None and side != "on":
+    if (gcode is not None or make_path) and tool_mm is None and side != "on":
         raise InputError(f"a program cutting {side} the outline needs the tool diameter "
                          "(tool_diameter=, --tool-diameter), or side='on' (--side on) to follow the line")
     overrides = {"max_accel": _length("accel", accel, scale)}
@@ -497,7 +505,8 @@ def run(
 
     # -- toolpath --------------------------------------------------------------
     tp = None
-    if makes_path:
+    plan = None
+    if make_path or makes_path:
         from .path.build import make_toolpath
 
         kw = {"moves": moves, "lead": lead, "seam": seam, "units": units, "direction": direction}
@@ -505,12 +514,23 @@ def run(
                             ("plunge_feed", plunge_feed)):
             if value is not None:
                 kw[name] = _length(name.replace("_", " "), value, scale)
-        tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
+        # the tolerance budget: rounding to the written decimals takes at most 5 %, the moves the rest
+        # smoothed points (to a tolerance or to their noise): the residual is stated apart
+        plan = _budget(contour, tol_mm, units, contour.info.get("smoothing") in ("tolerance", "noise"))
+        cut_moves = Cut(feed=cut.feed, side=cut.side, tolerance=plan["approximation_target"])
+        tp = timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **kw)
+        import dataclasses
+
+        tp = dataclasses.replace(tp, tolerance=tol_mm / scale,
+                                 info={**tp.info, "approximation_target": plan["approximation_target"] / scale})
+        plan["approximation"] = float(tp.deviation) * scale
+        plan["total"] = plan["points"] + plan["approximation"] + plan["rounding"]
 
     # -- write -----------------------------------------------------------------
     from .export._atomic import Staging, clean_stale
 
     files = {}
+    replayed = {}
     notes = list(getattr(outline, "warnings", ())) + early_notes
     for folder in sorted({str(p.parent) for p in targets.values()}):
         clean_stale(folder)
@@ -528,12 +548,19 @@ def run(
 
             timed("gcode", write_gcode, tp, targets["gcode"], force=True,
                   source=Path(source).name, program_name=Path(final["gcode"]).stem,
-                  spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers)
+                  spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers,
+                  decimals=plan["decimals"],
+                  check=_replay(contour, tp, tool_mm, side, tol_mm, plan, mach, replayed))
             files["gcode"] = final["gcode"]
         if "report" in targets:
             from .export.report import write_report
 
-            timed("report", write_report, rep, targets["report"], units=units, force=True)
+            stated = rep
+            if replayed:
+                from .verify.check import ReportWithProgram
+
+                stated = ReportWithProgram(rep, replayed)
+            timed("report", write_report, stated, targets["report"], units=units, force=True)
             files["report"], files["report_text"] = final["report"], final["report_text"]
         if "dxf" in targets:
             from .export.dxf import write_dxf
@@ -552,7 +579,97 @@ def run(
         stage.commit()
     notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]
     return Result(source, outline, contour, report=rep, toolpath=tp, facts=facts,
-                  timings=timings, files=files, units=units, notes=tuple(notes))
+                  timings=timings, files=files, units=units, notes=tuple(notes),
+                  program=replayed or None)
+
+
+def verify(program, points, **options) -> tuple:
+    """Check a G-code program (any, e.g. hand-edited) against a part's points.
+
+    The points are fitted and the expected toolpath made with the same
+    options as :func:`run` (fit, tool, side, tolerance, moves, depths,
+    leads); the program is read back (:mod:`pathgen.verify.reader`, G20
+    converted to mm) and measured against the part.
+
+    Parameters
+    ----------
+    program : path of the program file.
+    points : the part's points (file or array), as for :func:`run`.
+    **options : as for :func:`run` (no output files).
+
+    Returns
+    -------
+    (facts, result): ``facts`` as :func:`pathgen.verify.check.verify_program`
+    gives them (mm): deviation from the expected tool-center path (two-sided,
+    the worst line), clearance and gouges (file line, depth), the reader's
+    problems, feed moves without F, the estimated time as written, and
+    ``status`` (0 clean, 1 a gouge, off tolerance or a rule break);
+    ``result`` the :class:`Result` of the fit and the expected path.
+
+    Raises
+    ------
+    InputError
+        The program cannot be read (the file and line are named), or an
+        option or the points are bad.
+    """
+    from .checks.machine import load_machine
+    from .verify.check import Moves, verify_program
+    from .verify.reader import read_gcode_file
+
+    for key in ("gcode", "dxf", "report", "plot"):
+        if options.get(key) is not None:
+            raise InputError(f"verify writes no files ({key}= was given)")
+    prog = read_gcode_file(program)
+    result = run(points, make_path=True, **options)
+    tp = result.toolpath
+    units = options.get("units", "mm")
+    scale = MM_PER_INCH if units == "inch" else 1.0
+    f = MM_PER_INCH if tp.units == "inch" else 1.0
+    accel = options.get("accel")
+    mach = options.get("machine")
+    from .checks.machine import Machine
+
+    if not isinstance(mach, Machine):
+        mach = load_machine(mach, max_accel=accel * scale if accel else None)
+    tool = options.get("tool_diameter")
+    facts = verify_program(prog, result.contour, offset=float(tp.info.get("offset", 0.0)) * f,
+                           tool_radius=0.5 * float(tool) * scale if tool else 0.0,
+                           side=options.get("side", "outside"), tolerance=float(tp.tolerance) * f,
+                           expected=Moves.from_toolpath(tp), machine=mach)
+    return facts, result
+
+
+def _budget(contour, tol_mm: float, units: str, smoothed: bool) -> dict:
+    """The tolerance budget (mm) before the moves are made: decimals from the
+    tolerance, the fit's residual, what is left for the moves."""
+    from .verify.replay import budget, decimals_for
+
+    info = getattr(contour, "info", {}) or {}
+    residual = (float(info.get("max_residual", 0.0)), float(info.get("rms_residual", 0.0)))
+    plan = budget(tol_mm, decimals=decimals_for(tol_mm, units), units=units, residual=residual,
+                  smoothed=smoothed)
+    if plan["approximation_target"] <= 0.5 * tol_mm:
+        raise InputError(f"tolerance {tol_mm:g} mm is too small to write: rounding to {plan['decimals']} decimals "
+                         f"and the fit's residual take more than half of it")
+    return plan
+
+
+def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
+    """The check run on the program's text before it is renamed into place:
+    read back, measured against the part; its figures go into ``out``."""
+    from .verify.check import Moves, check_program, header_lines
+
+    f = MM_PER_INCH if tp.units == "inch" else 1.0
+    offset = float(tp.info.get("offset", 0.0)) * f
+    radius = 0.5 * (tool_mm or 0.0)
+
+    def check(text):
+        facts = check_program(text, contour, offset=offset, tool_radius=radius, side=side, tolerance=tol_mm,
+                              expected=Moves.from_toolpath(tp), budget=plan, machine=machine)
+        out.update(facts)
+        return header_lines(facts, tp.units)
+
+    return check
 
 
 # -- many files -----------------------------------------------------------------
@@ -628,8 +745,14 @@ def batch_row(result: Result | None, source, *, error: str | None = None) -> dic
 def _batch_one(source: Path, outdir: Path, stem: str, outputs: tuple, options: dict) -> dict:
     """Run one file of a batch; a bad file becomes an error row."""
     targets = {k: outdir / (stem + OUTPUT_SUFFIXES[k]) for k in outputs}
+    from .errors import InternalCheckError
+
     try:
         result = run(source, **targets, **options)
+    except InternalCheckError as exc:  # pathgen's own check of its program failed: exit 3, not bad input
+        row = batch_row(None, source.name, error=" ".join(str(exc).split()))
+        row.update(status="internal check failed", exit=3)
+        return row
     except (PathgenError, OSError) as exc:
         return batch_row(None, source.name, error=" ".join(str(exc).split()))
     return batch_row(result, source.name)

@@ -118,7 +118,7 @@ def test_usage_errors(args, says):
 
 
 def test_no_command_is_a_usage_error():
-    assert_one_line_error(*call(), names="give a command: check, gcode, dxf, plot, demo, batch")
+    assert_one_line_error(*call(), names="give a command: check, gcode, dxf, plot, verify, demo, batch")
 
 
 @pytest.mark.parametrize(

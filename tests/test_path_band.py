@@ -186,7 +186,13 @@ def test_band_arcs_within_tolerance_and_tangent_continuous(name, tol):
     if len(corners):
         near = np.min(np.linalg.norm(at[:, None] - corners[None], axis=2), axis=1) < 1e-9
         assert near.sum() == len(corners) and kink[near].min() > 0.1  # real corners stay corners
-    assert kink[~near].max(initial=0.0) < 1e-9
+    # a near-straight arc is written as its chord (radius > 1000 chords: half sweep < 5e-4 rad;
+    # bulge b < 5 % of tol: half sweep ~ 4b/L < 0.2 tol/L; derived): such a line may
+    # meet its neighbours at that small angle; every other joint is tangent
+    L = np.hypot(*(ch.end - ch.start).T)
+    slack = np.where(ch.kind == LINE, np.maximum(5.1e-4, 0.21 * tol / np.maximum(L, 1e-12)), 0.0)
+    allowed = 1e-9 + slack[:-1] + slack[1:]
+    assert np.all(kink[~near] <= allowed[~near])
 
 
 @pytest.mark.parametrize("name, side", [("bracket", "outside"), ("bracket", "inside"),
@@ -204,7 +210,10 @@ def test_offsets_stay_within_tolerance_of_the_true_offset(name, side):
     assert to_curve <= tol * 1.001
     assert to_moves <= tol * 1.001
     kink, _ = _joint_kinks(ch)
-    assert kink.max() < 1e-9
+    # tangent except where a near-straight arc was written as its chord (bound as above)
+    L = np.hypot(*(ch.end - ch.start).T)
+    slack = np.where(ch.kind == LINE, np.maximum(5.1e-4, 0.21 * tol / np.maximum(L, 1e-12)), 0.0)
+    assert np.all(kink <= 1e-9 + slack[:-1] + slack[1:])
 
 
 # -- fewer blocks ---------------------------------------------------------------

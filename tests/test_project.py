@@ -43,7 +43,7 @@ _STAGES = [
     {"spline", "points", "outline", "smooth", "noise", "simple"},
     {"checks"},
     {"path"},
-    {"export"},
+    {"export", "verify"},
     {"pipeline"},
     {"cli", "demo", "__main__"},
 ]

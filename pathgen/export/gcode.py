@@ -199,7 +199,7 @@ def _info_float(info, key):
     return v if math.isfinite(v) else None
 
 
-def _header(tp: Toolpath, program_name: str, source: str) -> list[str]:
+def _header(tp: Toolpath, program_name: str, source: str, notes=()) -> list[str]:
     u = tp.units
     info = tp.info
     lines = [
@@ -229,6 +229,7 @@ def _header(tp: Toolpath, program_name: str, source: str) -> list[str]:
             f"estimated cycle time: {duration_text(tp.time)}"
         )
     )
+    lines.extend(_comment(c) for c in notes)  # e.g. what the replay of this text measured
     lines.extend(_comment(c) for c in CAUTION)
     return lines
 
@@ -427,6 +428,7 @@ def gcode_text(
     line_numbers: bool = False,
     single_feed: bool = False,
     decimals: int | None = None,
+    notes=(),
 ) -> str:
     """The G-code program for ``toolpath``, as text ending in a newline.
 
@@ -451,6 +453,8 @@ def gcode_text(
     decimals : int, optional
         Decimals of coordinates: default and minimum 4 in mm, 5 in inch;
         at most 8.
+    notes : sequence of str
+        Extra header comment lines, before the caution.
 
     Returns
     -------
@@ -482,7 +486,7 @@ def gcode_text(
     """
     units, decimals, spindle_speed = _options(toolpath, decimals, spindle_speed)
     rows = _program_rows(toolpath, units, decimals, bool(single_feed))
-    head = _header(toolpath, str(program_name), str(source))
+    head = _header(toolpath, str(program_name), str(source), notes)
     pre = [("G20" if units == "inch" else "G21") + " G90 G17 G94 G40"]
     if spindle_speed is not None:
         pre.append(f"S{_fixed(spindle_speed, 1)} M3")
@@ -507,7 +511,15 @@ def gcode_text(
     return "\n".join(head + pre) + "\n" + body + "\n".join(post) + "\n"
 
 
-def write_gcode(toolpath: Toolpath, path, *, force: bool = False, **options) -> Path:
+def _code(text: str) -> str:
+    """The program without its header comments (the text a controller moves by)."""
+    at = 0
+    while text.startswith("(", at):
+        at = text.index("\n", at) + 1
+    return text[at:]
+
+
+def write_gcode(toolpath: Toolpath, path, *, force: bool = False, check=None, **options) -> Path:
     """Write :func:`gcode_text` of ``toolpath`` to ``path`` atomically.
 
     Parameters
@@ -521,6 +533,11 @@ def write_gcode(toolpath: Toolpath, path, *, force: bool = False, **options) -> 
         Passed to :func:`gcode_text` (``program_name``, ``source``,
         ``spindle_speed``, ``line_numbers``, ``single_feed``, ``decimals``).
         ``program_name`` defaults to the file's stem.
+    check : callable(text) -> list of str, optional
+        Replays the program's text before anything is written (e.g.
+        :func:`pathgen.verify.check.check_program`) and returns header lines
+        stating what it measured; it raises to stop the write.  The file
+        then carries those lines, and its code is the text checked.
 
     Returns
     -------
@@ -533,4 +550,10 @@ def write_gcode(toolpath: Toolpath, path, *, force: bool = False, **options) -> 
     p = Path(os.fspath(path))
     options.setdefault("program_name", p.stem)
     text = gcode_text(toolpath, **options)
+    if check is not None:
+        notes = list(check(text))
+        checked = text
+        text = gcode_text(toolpath, notes=notes, **options)
+        if _code(text) != _code(checked):  # pragma: no cover - the notes are comments only
+            raise ExportError("internal error: the program changed after its check; nothing was written")
     return atomic_write(p, text.encode("ascii"), force=force)

@@ -36,6 +36,7 @@ from .flatten import MOVES, _drop_tiny, approximate
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from .offset import assemble, regular_windows, unique_spots
+from .straighten import arcs_and_lines, straight_spans
 
 __all__ = ["make_toolpath", "contour_moves", "choose_seam", "DIRECTIONS", "LEADS"]
 
@@ -112,10 +113,13 @@ def _approximate_all(contour, windows, d, tol, moves):
     """Approximate each window; counts add up, rounds take the most."""
     parts, dev = [], 0.0
     stats = {"spans": 0, "merged_spans": 0, "boost_rounds": 0, "split_rounds": 0}
+    spans = straight_spans(contour) if moves == "arcs" else []
     for w in windows:
         if moves == "arcs":
-            # arcs fitted inside the tolerance band (falls back to curve-tangent biarcs)
-            chain, dv, st = band_arcs(contour, w[None], d, tol)
+            # straight edges of the contour are lines; the rest arcs fitted inside the tolerance band
+            # (falls back to curve-tangent biarcs), near-straight arcs (radius > 1000 chords, or bulge
+            # < 5 % of tol) lines too, measured
+            chain, dv, st = arcs_and_lines(contour, w, d, tol, spans, band_arcs)
         else:
             chain, dv, st = approximate(contour, w[None], d, tol, moves=moves)
         parts.append(chain)
