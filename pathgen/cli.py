@@ -249,7 +249,7 @@ def _summary_lines(result) -> list[str]:
         ]
     tp = result.toolpath
     if tp is not None:
-        lines.append(f"program: {tp.block_count} moves, estimated time {_fmt_time(tp.time)} with rapids "
+        lines.append(f"program: {tp.block_count} blocks, estimated time {_fmt_time(tp.time)} with rapids "
                      f"and plunges, measured deviation {tp.deviation:.4f} {tp.units} "
                      f"(tolerance {tp.tolerance:.4f} {tp.units})")
     for kind_, p in result.files.items():
