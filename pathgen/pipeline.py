@@ -30,6 +30,8 @@ from .errors import InputError, PathgenError
 __all__ = ["run", "Result", "MOVES", "LEADS", "contour_facts"]
 
 MOVES = ("arcs", "lines")
+#: Who offsets the tool: pathgen (the tool-center path) or the control (G41/G42).
+COMPENSATIONS = ("computed", "machine")
 LEADS = ("arc", "line", "none")
 POINT_SUFFIXES = (".csv", ".txt", ".xy", ".dxf")
 
@@ -179,6 +181,16 @@ def _cutting_feed(feed, flutes, chip_load, spindle_speed, scale, machine, units)
     return f, notes
 
 
+def _profile_tables(machine):
+    """The program frame and the [tool] settings of a profile file (defaults otherwise)."""
+    from .checks.machine import load_tool_settings
+    from .export.frame import Frame, load_frame
+
+    if isinstance(machine, (str, os.PathLike)):
+        return load_frame(machine), load_tool_settings(machine)
+    return Frame(), {}
+
+
 def _refuse_crossing(outline, side, allow_crossing, scale, units) -> list[str]:
     """A closed outline that crosses itself is not cut (unless asked, on the
     line); returns the notes to pass on."""
@@ -301,6 +313,7 @@ def run(
     one_feed: bool = False,
     line_numbers: bool = False,
     allow_crossing: bool = False,
+    compensation: str = "computed",
     gcode=None,
     dxf=None,
     report=None,
@@ -362,6 +375,11 @@ def run(
         Write one constant cutting feed instead of the planned feed per block.
     line_numbers : bool
         Number the program's blocks (N words).
+    compensation : {"computed", "machine"}
+        "computed" (default): the program is the tool-center path pathgen
+        computed.  "machine": the program follows the part line with
+        G41/G42 and a D word, for cutter compensation at the control
+        (the register from the profile's ``[program]`` table).
     allow_crossing : bool
         Follow a closed outline that crosses itself (a deliberate figure,
         engraved with ``side="on"``); otherwise such an outline is refused
@@ -384,6 +402,7 @@ def run(
     check_option("moves", moves, MOVES)
     check_option("lead", lead, LEADS)
     check_option("direction", direction, ("climb", "conventional"))
+    check_option("compensation", compensation, COMPENSATIONS)
     if spindle_speed is not None:
         spindle_speed = check_positive("spindle speed", spindle_speed)
     scale = MM_PER_INCH if units == "inch" else 1.0
@@ -411,6 +430,12 @@ def run(
         else:
             mach = load_machine(machine, **overrides)
     tool = Tool(tool_mm if tool_mm is not None else 0.0)
+    frame, tool_settings = _profile_tables(machine)
+    if frame.spindle == "counter-clockwise":  # climb and conventional swap with the spindle's turn
+        direction = {"climb": "conventional", "conventional": "climb"}[direction]
+    if compensation == "machine" and (tool_mm is None or tool_mm == 0 or side == "on"):
+        raise InputError("cutter compensation at the control (--compensation machine) needs a tool diameter "
+                         "and a side outside or inside the outline")
     cut_kw = {"side": side, "tolerance": tol_mm}
     feed_mm, feed_notes = _cutting_feed(feed, flutes, chip_load, spindle_speed, scale, mach, units)
     if feed_mm is not None:
@@ -485,7 +510,16 @@ def run(
                             ("plunge_feed", plunge_feed)):
             if value is not None:
                 kw[name] = _length(name.replace("_", " "), value, scale)
-        tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
+        if plunge_feed is None and "plunge_feed" in tool_settings:
+            kw["plunge_feed"] = tool_settings["plunge_feed"]
+        if compensation == "machine":
+            from .path.compensate import part_line_toolpath
+
+            center_mm = timed("toolpath", make_toolpath, contour, tool, cut, mach, **{**kw, "units": "mm"})
+            tp = timed("part line", part_line_toolpath, contour, center_mm, tool, cut, mach,
+                       register=frame.register, seam=seam, moves=moves, units=units)
+        else:
+            tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
 
     # -- write -----------------------------------------------------------------
     from .export._atomic import Staging, clean_stale
@@ -508,7 +542,7 @@ def run(
 
             timed("gcode", write_gcode, tp, targets["gcode"], force=True,
                   source=Path(source).name, program_name=Path(final["gcode"]).stem,
-                  spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers)
+                  spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers, frame=frame)
             files["gcode"] = final["gcode"]
         if "report" in targets:
             from .export.report import write_report

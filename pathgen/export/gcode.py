@@ -536,10 +536,10 @@ def _frame_comments(head: list[str], tp: Toolpath, frame) -> list[str]:
         word = comp["word"]
         extra.append(_comment(
             f"cutter compensation at the control: {word} D{comp['register']} "
-            f"(tool {'left' if word == 'G41' else 'right'} of travel), the part line is programmed, "
+            f"= tool {'left' if word == 'G41' else 'right'} of travel, the part line is programmed, "
             f"set D{comp['register']} to the tool radius {_num(comp['radius'])} {tp.units}"))
     if tp.info.get("arcs_as_lines"):
-        extra.append(_comment(f"{tp.info['arcs_as_lines']} arc(s) written as lines: their I or J "
+        extra.append(_comment(f"arcs written as lines: {tp.info['arcs_as_lines']}, their I or J "
                               f"would need more than {frame.arc_digits} integer digits"))
     head = head[: len(head) - len(CAUTION)] + extra + head[len(head) - len(CAUTION):]
     return [frame.style_comment(c) for c in head]
