@@ -133,8 +133,16 @@ def part_line_toolpath(contour, tool_center: Toolpath, tool, cut, machine, *, re
     def run(point, tangent, kind_first, radius_first, backwards):
         """The tangent run (straight, on the part line's tangent) and the free-air point."""
         room = lead_len if kind_first == LINE else min(lead_len, math.sqrt(tol * radius_first))
-        p_run = point - room * tangent if backwards else point + room * tangent
         n = _rot(tangent, left)
+        u = np.linspace(0.0, 1.0, 50)[:, None]
+        for _ in range(20):  # shorter until its offset stays clear of the part within half the tolerance
+            p_run = point - room * tangent if backwards else point + room * tangent
+            if dist(point + u * (p_run - point) + r * n).min() >= r - 0.5 * tol:
+                break
+            room *= 0.5
+        else:
+            raise InputError("cutter compensation at the control: no straight run along the part line fits "
+                             f"at ({point[0]:.4f}, {point[1]:.4f}) mm; choose another seam")
         for la in (lead_len + r, 0.5 * lead_len + r, 0.25 * lead_len + r, 1.1 * r):
             free = p_run + la * n
             if dist(free[None])[0] >= r + tol:
