@@ -19,7 +19,7 @@ code line, and ``;`` comments to the end of the line.
 Anything else is refused with a :class:`GcodeError` naming the line.
 
 Cutter radius compensation (NISTIR 6556, the cutter radius compensation
-section, sources: nistir-6556, with the common practice of the trade):
+section; sources: nistir-6556; with the common practice of the trade):
 G41/G42 need a D word and may not be given while compensation is on; the
 block that turns it on must be a straight G1 move, and so must the first
 move after it (no arc as the first compensated move); G40 goes on a
