@@ -230,3 +230,19 @@ def test_no_comment_of_any_sample_program_holds_a_semicolon(tmp_path):
         assert len(comments) >= 9
         assert [c for c in comments if ";" in c] == []
         assert "motion blocks:" in text and "moves:" not in text
+
+
+@pytest.mark.parametrize("marker, extra", [("frame", {}), ("compensated", {"compensation": "machine"})])
+def test_the_programs_shown_in_the_docs_are_the_real_output(tmp_path, marker, extra):
+    # docs/gcode.md shows two programs in full: regenerate them and compare, byte for byte
+    doc = (ROOT / "docs" / "gcode.md").read_text()
+    m = re.search(rf"<!-- program: {marker} -->\n```\n(.*?)```", doc, re.S)
+    assert m, f"docs/gcode.md lost its '{marker}' example"
+    a = np.linspace(0, 2 * np.pi, 37)
+    ring = tmp_path / "ring.csv"
+    ring.write_text("x,y\n" + "".join(f"{22 * np.cos(t):.4f},{22 * np.sin(t):.4f}\n" for t in a))
+    out = tmp_path / ("ring.nc" if marker == "frame" else "ring-comp.nc")
+    run(ring, tool_diameter=6.0, depth=1.0, machine=SAMPLES / "mill-frame.toml", spindle_speed=12000,
+        gcode=out, **extra)
+    assert m.group(1) == out.read_text()
+    gr.read(m.group(1))  # and it reads back under the rules
