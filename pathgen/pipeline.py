@@ -547,7 +547,12 @@ def run(
         if "report" in targets:
             from .export.report import write_report
 
-            timed("report", write_report, rep, targets["report"], units=units, force=True)
+            comp = tp.info.get("compensation") if tp is not None else None
+            program = None if not comp else {
+                "compensation": "machine", "word": comp["word"], "register": comp["register"],
+                "side": "left of travel" if comp["word"] == "G41" else "right of travel",
+                "radius": comp["radius"]}
+            timed("report", write_report, rep, targets["report"], units=units, force=True, program=program)
             files["report"], files["report_text"] = final["report"], final["report_text"]
         if "dxf" in targets:
             from .export.dxf import write_dxf

@@ -203,3 +203,23 @@ def test_cli_writes_a_compensated_program_in_inch_and_says_the_side(tmp_path):
                   out=StringIO(), err=(e := StringIO()))
     assert status == 2 and "needs a tool diameter and a side outside or inside" in e.getvalue()
     assert not (tmp_path / "x.nc").exists()
+
+
+def test_the_report_beside_the_program_says_the_side_and_the_register(tmp_path):
+    import json
+
+    from pathgen.pipeline import run
+
+    pts = np.c_[30 * np.cos(_TH), 18 * np.sin(_TH)]
+    out = tmp_path / "e.nc"
+    run(pts, closed=True, tool_diameter=6.0, side="inside", direction="conventional", compensation="machine",
+        gcode=out, report=tmp_path / "e.report.json")
+    data = json.loads((tmp_path / "e.report.json").read_text())
+    # inside, conventional with M3: the tool on the right of travel (common practice)
+    assert data["program"] == {"compensation": "machine", "word": "G42", "side": "right of travel",
+                               "register": 1, "radius": 3.0}
+    assert "program: compensation machine, radius 3.0, register 1, side right of travel, word G42" in \
+        (tmp_path / "e.report.txt").read_text()
+    assert "G42 D1 G1" in out.read_text()
+    plain = run(pts, closed=True, tool_diameter=6.0, gcode=tmp_path / "p.nc", report=tmp_path / "p.report.json")
+    assert "program" not in json.loads((tmp_path / "p.report.json").read_text()) and plain.toolpath is not None
