@@ -246,3 +246,25 @@ def test_the_programs_shown_in_the_docs_are_the_real_output(tmp_path, marker, ex
         gcode=out, **extra)
     assert m.group(1) == out.read_text()
     gr.read(m.group(1))  # and it reads back under the rules
+
+
+@pytest.mark.parametrize("program, message", [
+    ("G21 G90 G17 G94 G40\nG0 X0 Y0 Z0\nG41 G1 X5 F100\nG40 G1 X9\nM2\n", "G41 without a D word"),
+    ("G21 G90 G17 G94 G40\nG0 X0 Y0 Z0\nG41 D1 G2 X5 Y5 I5 J0 F100\nG40 G1 X9\nM2\n", "turned on on a G2 move"),
+    ("G21 G90 G17 G94 G40\nG0 X0 Y0 Z0\nG42 D1 G1 X5 F100\nG2 X10 Y0 I2.5 J0\nG40 G1 X20\nM2\n",
+     "an arc as the first move after cutter compensation"),
+    ("G21 G90 G17 G94 G40\nG0 X0 Y0 Z0\nG41 D1 G1 X5 F100\nG1 X6\nG42 D1 G1 X7\nM2\n", "while cutter compensation is on"),
+    ("G21 G90 G17 G94 G40\nG0 X0 Y0 Z0\nG41 D1 G1 X5 F100\nG1 X6\nM2\n", "program end with cutter compensation on"),
+    ("G21 G90 G17 G94 G40\nG0 X0 Y0 Z0\nG40 G41 D1 G1 X5 F100\nM2\n", "two G words of one modal group"),
+    ("G21 G90 G17 G94 G40\nG43\nM2\n", "G43 without an H word"),
+    ("G21 G90 G17 G94 G40\nM6\nM2\n", "M6 without a selected tool"),
+    ("G21 G90 G17 G94 G40\nM7 M8\nM2\n", "two of one group"),
+    ("G21 G90 G17 G94 G40\nG54 G55\nM2\n", "two G words of one modal group"),
+    ("%\nG21 G90 G17 G94 G40\nM2\n", "must close with one"),
+    ("G21 G90 G17 G94 G40\nO12\nM2\n", "the O program number must be the first code line"),
+    ("G21 G90 G17 G94 G40\nG0 X0 Y0 Z5\nG28\nG1 X5 F100\nM2\n", "cutting move from an unknown position"),
+])
+def test_the_reader_refuses_what_the_rules_forbid(program, message):
+    # the checker itself: each rule above fails a program that breaks it (sources: nistir-6556)
+    with pytest.raises(gr.GcodeError, match=message):
+        gr.read(program)
