@@ -431,6 +431,7 @@ def run(
             mach = load_machine(machine, **overrides)
     tool = Tool(tool_mm if tool_mm is not None else 0.0)
     frame, tool_settings = _profile_tables(machine)
+    asked_direction = direction
     if frame.spindle == "counter-clockwise":  # climb and conventional swap with the spindle's turn
         direction = {"climb": "conventional", "conventional": "climb"}[direction]
     if compensation == "machine" and (tool_mm is None or tool_mm == 0 or side == "on"):
@@ -501,7 +502,7 @@ def run(
     facts = timed("facts", contour_facts, contour, rep)
 
     # -- toolpath --------------------------------------------------------------
-    tp = None
+    tp = drawn = None
     if makes_path:
         from .path.build import make_toolpath
 
@@ -518,8 +519,22 @@ def run(
             center_mm = timed("toolpath", make_toolpath, contour, tool, cut, mach, **{**kw, "units": "mm"})
             tp = timed("part line", part_line_toolpath, contour, center_mm, tool, cut, mach,
                        register=frame.register, seam=seam, moves=moves, units=units)
+            # the drawing and the picture show where the tool's center goes
+            drawn = center_mm
+            if units == "inch":
+                from .path.build import _to_inch
+
+                drawn = _to_inch(center_mm, {k: getattr(center_mm, k) for k in (
+                    "units", "tool_diameter", "side", "tolerance", "deviation", "time", "info")})
         else:
             tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
+        if direction != asked_direction:  # the program states the milling direction asked for
+            import dataclasses
+
+            tp = dataclasses.replace(tp, info={**tp.info, "direction": asked_direction,
+                                               "spindle": "counter-clockwise"})
+        if drawn is None:
+            drawn = tp
 
     # -- write -----------------------------------------------------------------
     from .export._atomic import Staging, clean_stale
@@ -559,13 +574,13 @@ def run(
             from .path.build import contour_moves
 
             arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
-            timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
+            timed("dxf", write_dxf, targets["dxf"], contour, toolpath=drawn, arcs=arcs,
                   report=rep, units=units, force=True)
             files["dxf"] = final["dxf"]
         if "plot" in targets:
             from .export.plot import plot as draw
 
-            timed("plot", draw, targets["plot"], contour, toolpath=tp, report=rep,
+            timed("plot", draw, targets["plot"], contour, toolpath=drawn, report=rep,
                   units=units, force=True)
             files["plot"] = final["plot"]
         stage.commit()

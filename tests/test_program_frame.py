@@ -210,6 +210,8 @@ def test_a_counter_clockwise_spindle_keeps_climb_milling(tmp_path):
     b = run(SAMPLES / "plate.csv", tool_diameter=6.0, spindle_speed=9000, gcode=tmp_path / "b.nc")
     assert a.toolpath.info["travel"] != b.toolpath.info["travel"]
     assert "M4" in [w for _, w in gr.read((tmp_path / "a.nc").read_text()).events]
+    assert "direction: climb" in (tmp_path / "a.nc").read_text()
+    assert a.toolpath.info["direction"] == "climb"
 
 
 def test_no_comment_of_any_sample_program_holds_a_semicolon(tmp_path):
