@@ -188,6 +188,9 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
         g.add_argument("--one-feed", action="store_true",
                        help="write one constant cutting feed instead of the planned feed per block")
         g.add_argument("--line-numbers", action="store_true", help="number the blocks (N words)")
+        g.add_argument("--compensation", choices=("computed", "machine"), default="computed",
+                       help="computed (default): the program is the tool-center path; machine: the program "
+                            "follows the part line with G41/G42 and a D word, the control offsets it")
 
     g = p.add_argument_group("output")
     if output == "OUTDIR":
@@ -268,13 +271,18 @@ def _summary_lines(result) -> list[str]:
         ]
     tp = result.toolpath
     if tp is not None:
-        lines.append(f"program: {tp.block_count} moves, estimated time {_fmt_time(tp.time)} with rapids "
+        lines.append(f"program: {tp.block_count} blocks, estimated time {_fmt_time(tp.time)} with rapids "
                      f"and plunges, measured deviation {tp.deviation:.4f} {tp.units} "
                      f"(tolerance {tp.tolerance:.4f} {tp.units})")
     if getattr(result, "program", None):
         from .verify.check import summary_lines
 
         lines += summary_lines(result.program, tp.units if tp is not None else result.units)
+        comp = tp.info.get("compensation")
+        if comp:
+            lines.append(f"cutter compensation at the control: {comp['word']} D{comp['register']} (tool "
+                         f"{'left' if comp['word'] == 'G41' else 'right'} of travel); the program follows the "
+                         f"part line: set D{comp['register']} to the tool radius {comp['radius']:.4f} {tp.units}")
     for kind_, p in result.files.items():
         lines.append(f"wrote {kind_}: {p}")
     return lines
@@ -325,6 +333,7 @@ def _run_options(a) -> dict:
         spindle_speed=a.spindle_speed, flutes=a.flutes, chip_load=a.chip_load,
         one_feed=getattr(a, "one_feed", False),
         line_numbers=getattr(a, "line_numbers", False), allow_crossing=a.allow_crossing,
+        compensation=getattr(a, "compensation", "computed"),
     )
 
 

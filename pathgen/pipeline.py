@@ -30,6 +30,8 @@ from .errors import InputError, PathgenError
 __all__ = ["run", "verify", "Result", "MOVES", "LEADS", "contour_facts"]
 
 MOVES = ("arcs", "lines")
+#: Who offsets the tool: pathgen (the tool-center path) or the control (G41/G42).
+COMPENSATIONS = ("computed", "machine")
 LEADS = ("arc", "line", "none")
 POINT_SUFFIXES = (".csv", ".txt", ".xy", ".dxf")
 
@@ -183,6 +185,16 @@ def _cutting_feed(feed, flutes, chip_load, spindle_speed, scale, machine, units)
     return f, notes
 
 
+def _profile_tables(machine):
+    """The program frame and the [tool] settings of a profile file (defaults otherwise)."""
+    from .checks.machine import load_tool_settings
+    from .export.frame import Frame, load_frame
+
+    if isinstance(machine, (str, os.PathLike)):
+        return load_frame(machine), load_tool_settings(machine)
+    return Frame(), {}
+
+
 def _refuse_crossing(outline, side, allow_crossing, scale, units) -> list[str]:
     """A closed outline that crosses itself is not cut (unless asked, on the
     line); returns the notes to pass on."""
@@ -305,6 +317,7 @@ def run(
     one_feed: bool = False,
     line_numbers: bool = False,
     allow_crossing: bool = False,
+    compensation: str = "computed",
     gcode=None,
     dxf=None,
     report=None,
@@ -371,6 +384,11 @@ def run(
         Write one constant cutting feed instead of the planned feed per block.
     line_numbers : bool
         Number the program's blocks (N words).
+    compensation : {"computed", "machine"}
+        "computed" (default): the program is the tool-center path pathgen
+        computed.  "machine": the program follows the part line with
+        G41/G42 and a D word, for cutter compensation at the control
+        (the register from the profile's ``[program]`` table).
     allow_crossing : bool
         Follow a closed outline that crosses itself (a deliberate figure,
         engraved with ``side="on"``); otherwise such an outline is refused
@@ -396,6 +414,7 @@ def run(
     check_option("moves", moves, MOVES)
     check_option("lead", lead, LEADS)
     check_option("direction", direction, ("climb", "conventional"))
+    check_option("compensation", compensation, COMPENSATIONS)
     if spindle_speed is not None:
         spindle_speed = check_positive("spindle speed", spindle_speed)
     scale = MM_PER_INCH if units == "inch" else 1.0
@@ -429,6 +448,13 @@ def run(
         else:
             mach = load_machine(machine, **overrides)
     tool = Tool(tool_mm if tool_mm is not None else 0.0)
+    frame, tool_settings = _profile_tables(machine)
+    asked_direction = direction
+    if frame.spindle == "counter-clockwise":  # climb and conventional swap with the spindle's turn
+        direction = {"climb": "conventional", "conventional": "climb"}[direction]
+    if compensation == "machine" and (tool_mm is None or tool_mm == 0 or side == "on"):
+        raise InputError("cutter compensation at the control (--compensation machine) needs a tool diameter "
+                         "and a side outside or inside the outline")
     cut_kw = {"side": side, "tolerance": tol_mm}
     feed_mm, feed_notes = _cutting_feed(feed, flutes, chip_load, spindle_speed, scale, mach, units)
     if feed_mm is not None:
@@ -504,7 +530,7 @@ def run(
     facts = timed("facts", contour_facts, contour, rep)
 
     # -- toolpath --------------------------------------------------------------
-    tp = None
+    tp = drawn = None
     plan = None
     if make_path or makes_path:
         from .path.build import make_toolpath
@@ -514,15 +540,36 @@ def run(
                             ("plunge_feed", plunge_feed)):
             if value is not None:
                 kw[name] = _length(name.replace("_", " "), value, scale)
+        if plunge_feed is None and "plunge_feed" in tool_settings:
+            kw["plunge_feed"] = tool_settings["plunge_feed"]
         # the tolerance budget: rounding to the written decimals takes at most 5 %, the moves the rest
         # smoothed points (to a tolerance or to their noise): the residual is stated apart
         plan = _budget(contour, tol_mm, units, contour.info.get("smoothing") in ("tolerance", "noise"))
         cut_moves = Cut(feed=cut.feed, side=cut.side, tolerance=plan["approximation_target"])
-        tp = timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **kw)
+        if compensation == "machine":
+            from .path.compensate import part_line_toolpath
+
+            center_mm = timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **{**kw, "units": "mm"})
+            tp = timed("part line", part_line_toolpath, contour, center_mm, tool, cut_moves, mach,
+                       register=frame.register, seam=seam, moves=moves, units=units)
+            # the drawing and the picture show where the tool's center goes
+            drawn = center_mm
+            if units == "inch":
+                from .path.build import _to_inch
+
+                drawn = _to_inch(center_mm, {k: getattr(center_mm, k) for k in (
+                    "units", "tool_diameter", "side", "tolerance", "deviation", "time", "info")})
+        else:
+            tp = timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **kw)
         import dataclasses
 
         tp = dataclasses.replace(tp, tolerance=tol_mm / scale,
                                  info={**tp.info, "approximation_target": plan["approximation_target"] / scale})
+        if direction != asked_direction:  # the program states the milling direction asked for
+            tp = dataclasses.replace(tp, info={**tp.info, "direction": asked_direction,
+                                               "spindle": "counter-clockwise"})
+        if drawn is None:
+            drawn = tp
         plan["approximation"] = float(tp.deviation) * scale
         plan["total"] = plan["points"] + plan["approximation"] + plan["rounding"]
 
@@ -549,8 +596,9 @@ def run(
             timed("gcode", write_gcode, tp, targets["gcode"], force=True,
                   source=Path(source).name, program_name=Path(final["gcode"]).stem,
                   spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers,
-                  decimals=plan["decimals"],
-                  check=_replay(contour, tp, tool_mm, side, tol_mm, plan, mach, replayed))
+                  decimals=plan["decimals"], frame=frame,
+                  check=None if compensation == "machine"
+                  else _replay(contour, tp, tool_mm, side, tol_mm, plan, mach, replayed))
             files["gcode"] = final["gcode"]
         if "report" in targets:
             from .export.report import write_report
@@ -560,20 +608,25 @@ def run(
                 from .verify.check import ReportWithProgram
 
                 stated = ReportWithProgram(rep, replayed)
-            timed("report", write_report, stated, targets["report"], units=units, force=True)
+            comp = tp.info.get("compensation") if tp is not None else None
+            program = None if not comp else {
+                "compensation": "machine", "word": comp["word"], "register": comp["register"],
+                "side": "left of travel" if comp["word"] == "G41" else "right of travel",
+                "radius": comp["radius"]}
+            timed("report", write_report, stated, targets["report"], units=units, force=True, program=program)
             files["report"], files["report_text"] = final["report"], final["report_text"]
         if "dxf" in targets:
             from .export.dxf import write_dxf
             from .path.build import contour_moves
 
             arcs = timed("dxf arcs", contour_moves, contour, tolerance=tol_mm, moves="arcs")
-            timed("dxf", write_dxf, targets["dxf"], contour, toolpath=tp, arcs=arcs,
+            timed("dxf", write_dxf, targets["dxf"], contour, toolpath=drawn, arcs=arcs,
                   report=rep, units=units, force=True)
             files["dxf"] = final["dxf"]
         if "plot" in targets:
             from .export.plot import plot as draw
 
-            timed("plot", draw, targets["plot"], contour, toolpath=tp, report=rep,
+            timed("plot", draw, targets["plot"], contour, toolpath=drawn, report=rep,
                   units=units, force=True)
             files["plot"] = final["plot"]
         stage.commit()

@@ -371,8 +371,9 @@ def test_header_states_the_facts_and_the_caution():
     assert "(pathgen program: bracket [left])" in joined  # no nested parentheses (§3.3.4)
     assert "input: parts/bracket.csv" in joined
     assert "units: mm" in joined
-    assert "tool diameter: 6 mm; side: outside; direction: climb" in joined
-    assert "chord tolerance: 0.01 mm; measured deviation: 0.0042 mm" in joined
+    assert "tool diameter: 6 mm, side: outside, direction: climb" in joined
+    assert "chord tolerance: 0.01 mm, measured deviation: 0.0042 mm" in joined
+    assert "motion blocks: " in joined and ";" not in joined  # ";" opens a line comment in some senders
     assert "estimated cycle time: 1 min 23.4 s" in joined
     assert "passes: 2" in joined and "safe height: 5 mm" in joined
     assert "Verify every program by simulation or an air cut" in joined

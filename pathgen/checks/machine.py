@@ -106,6 +106,12 @@ PROFILE_KEYS = {"highest_feed": "max_feed", "acceleration": "max_accel",
 #: Keys of earlier releases, still read (with a note) for one release.
 OLD_PROFILE_KEYS = {field: key for key, field in PROFILE_KEYS.items()}
 _KEYS = tuple(PROFILE_KEYS) + ("name", "units")
+#: Tables of a profile read elsewhere: [program] (the program frame, read by
+#: pathgen.export.frame.load_frame) and [tool] (read by load_tool_settings).
+_TABLES = ("program", "tool")
+#: Keys of the [tool] table: plunge_feed (units/min, the feed of the plunge
+#: to depth; without it half the cutting feed).
+TOOL_KEYS = ("plunge_feed",)
 
 
 def _toml_line(text: str, key: str) -> int | None:
@@ -200,8 +206,12 @@ def load_machine(path=None, **overrides) -> Machine:
                 data[new] = data.pop(key)
                 given_as[new] = key
         for key, value in data.items():
+            if key in _TABLES:
+                if not isinstance(value, dict):
+                    raise InputError(f"{where(key)}: {key} must be a table ([{key}]), got {value!r}")
+                continue
             if key not in _KEYS:
-                valid = ", ".join(_KEYS)
+                valid = ", ".join(_KEYS + tuple(f"[{t}]" for t in _TABLES))
                 raise InputError(f"{where(key)}: unknown key {key!r}; valid keys: {valid}")
         units = data.get("units", "mm")
         if units not in UNITS:
@@ -238,3 +248,36 @@ def load_machine(path=None, **overrides) -> Machine:
                 raise InputError(f"{key} must be a finite number > 0, got {value!r}")
             values[key] = check_positive(key, value)
     return Machine(**values)
+
+
+def load_tool_settings(path) -> dict:
+    """The ``[tool]`` table of a profile, lengths in mm: ``{"plunge_feed": mm/min}``
+    (an empty dict when absent or when ``path`` is None).
+
+    Unknown keys and values that are not finite numbers > 0 are refused
+    with the file and line.
+    """
+    if path is None:
+        return {}
+    path = Path(path)
+    data, text = _read_toml(path)
+    table = data.get("tool")
+    if table is None:
+        return {}
+
+    def where(key):
+        line = _toml_line(text, key)
+        return f"{path}, line {line}" if line else f"{path}"
+
+    if not isinstance(table, dict):
+        raise InputError(f"{where('tool')}: tool must be a table ([tool]), got {table!r}")
+    scale = MM_PER_INCH if data.get("units", "mm") == "inch" else 1.0
+    out = {}
+    for key, value in table.items():
+        if key not in TOOL_KEYS:
+            raise InputError(f"{where(key)}: unknown key {key!r} in [tool]; valid keys: {', '.join(TOOL_KEYS)}")
+        bad = isinstance(value, bool) or not isinstance(value, (int, float))
+        if bad or not (math.isfinite(value) and 1.0 <= value * scale <= 1e6):
+            raise InputError(f"{where(key)}: {key} must be a number from 1 to 1000000 mm/min, got {value!r}")
+        out[key] = float(value) * scale
+    return out

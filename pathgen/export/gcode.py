@@ -71,7 +71,8 @@ _CHUNK = 1 << 17
 def _comment(text: str) -> str:
     """One comment line: printable ASCII, no parentheses, at most 256 chars."""
     clean = "".join(c if 32 <= ord(c) < 127 else "?" for c in str(text))
-    clean = clean.replace("(", "[").replace(")", "]")
+    # no ";" either: several senders take it for a line comment and leave "(" open
+    clean = clean.replace("(", "[").replace(")", "]").replace(";", ",")
     return "(" + clean[: _MAX_LINE - 2] + ")"
 
 
@@ -199,20 +200,20 @@ def _info_float(info, key):
     return v if math.isfinite(v) else None
 
 
-def _header(tp: Toolpath, program_name: str, source: str, notes=()) -> list[str]:
+def _header(tp: Toolpath, program_name: str, source: str, notes=(), blocks: int | None = None) -> list[str]:
     u = tp.units
     info = tp.info
     lines = [
         _comment(f"pathgen program: {program_name}"),
         _comment(f"input: {source if source else 'not given'}"),
-        _comment(f"units: {u}; feeds in {u}/min; absolute coordinates; XY plane"),
+        _comment(f"units: {u}, feeds in {u}/min, absolute coordinates, XY plane"),
     ]
-    tool = f"tool diameter: {_num(tp.tool_diameter)} {u}; side: {tp.side}"
+    tool = f"tool diameter: {_num(tp.tool_diameter)} {u}, side: {tp.side}"
     if info.get("direction"):
-        tool += f"; direction: {info['direction']}"
+        tool += f", direction: {info['direction']}"
     lines.append(_comment(tool))
     lines.append(
-        _comment(f"chord tolerance: {_num(tp.tolerance)} {u}; measured deviation: {_num(tp.deviation)} {u}")
+        _comment(f"chord tolerance: {_num(tp.tolerance)} {u}, measured deviation: {_num(tp.deviation)} {u}")
     )
     depth = []
     if _info_float(info, "depth") is not None:
@@ -222,10 +223,11 @@ def _header(tp: Toolpath, program_name: str, source: str, notes=()) -> list[str]
     if _info_float(info, "safe_height") is not None:
         depth.append(f"safe height: {_num(info['safe_height'])} {u}")
     if depth:
-        lines.append(_comment("; ".join(depth)))
+        lines.append(_comment(", ".join(depth)))
     lines.append(
         _comment(
-            f"moves: {len(tp)}; cutting length: {_num(tp.cutting_length)} {u}; "
+            f"motion blocks: {len(tp) if blocks is None else blocks}, "
+            f"cutting length: {_num(tp.cutting_length)} {u}, "
             f"estimated cycle time: {duration_text(tp.time)}"
         )
     )
@@ -392,11 +394,12 @@ def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):
         change[1:] = fc[1:] != fc[:-1]
         f_write[cut_rows] = change
     return dict(
-        kind=kind, q=q, axis_write=axis_write, iq=iq, jq=jq, arcs=arcs, fq=fq, f_write=f_write, fd=fd
+        kind=kind, q=q, axis_write=axis_write, iq=iq, jq=jq, arcs=arcs, fq=fq, f_write=f_write, fd=fd,
+        source=source,
     )
 
 
-def _format_rows(rows, decimals: int, first_number: int | None) -> str:
+def _format_rows(rows, decimals: int, first_number: int | None, step: int = 1) -> str:
     kind, q, aw = rows["kind"], rows["q"], rows["axis_write"]
     m = len(kind)
     out = []
@@ -406,7 +409,7 @@ def _format_rows(rows, decimals: int, first_number: int | None) -> str:
         k = hi - lo
         fields = []
         if first_number is not None:
-            nums = np.arange(first_number + lo, first_number + hi, dtype=np.int64)
+            nums = step * np.arange(first_number + lo, first_number + hi, dtype=np.int64)
             fields.append(_field_number("N", nums, 0, np.ones(k, bool)))
         fields.append(_field_text(["G0", "G1", "G2", "G3"], kind[sl].astype(np.intp), np.ones(k, bool)))
         for c, letter in enumerate("XYZ"):
@@ -429,6 +432,7 @@ def gcode_text(
     single_feed: bool = False,
     decimals: int | None = None,
     notes=(),
+    frame=None,
 ) -> str:
     """The G-code program for ``toolpath``, as text ending in a newline.
 
@@ -455,6 +459,10 @@ def gcode_text(
         at most 8.
     notes : sequence of str
         Extra header comment lines, before the caution.
+    frame : pathgen.export.frame.Frame, optional
+        What surrounds the moves (program number, tool, offsets, coolant,
+        end code, numbering, comment style); None: the default frame, the
+        program above.  The moves are the same with any frame.
 
     Returns
     -------
@@ -485,30 +493,82 @@ def gcode_text(
     M2
     """
     units, decimals, spindle_speed = _options(toolpath, decimals, spindle_speed)
+    from .frame import Frame, lines_for_wide_arcs
+
+    frame = Frame() if frame is None else frame
+    if not isinstance(frame, Frame):
+        raise InputError(f"frame must be a pathgen Frame, got {type(frame).__name__}")
+    if frame.arc_digits is not None:
+        toolpath, _ = lines_for_wide_arcs(toolpath, frame.arc_digits, decimals)
     rows = _program_rows(toolpath, units, decimals, bool(single_feed))
-    head = _header(toolpath, str(program_name), str(source), notes)
+    head = _header(toolpath, str(program_name), str(source), notes, blocks=len(rows["kind"]))
+    head = _frame_comments(head, toolpath, frame)
     pre = [("G20" if units == "inch" else "G21") + " G90 G17 G94 G40"]
-    if spindle_speed is not None:
-        pre.append(f"S{_fixed(spindle_speed, 1)} M3")
-    post = []
-    if spindle_speed is not None:
-        post.append("M5")
-    post.append("M2")
+    pre += frame.start_blocks(None if spindle_speed is None else f"S{_fixed(spindle_speed, 1)}")
+    post = frame.end_blocks(spindle_speed is not None)
     m = len(rows["kind"])
-    if line_numbers:
-        total = len(pre) + m + len(post)
+    step = frame.block_step or (1 if line_numbers else 0)
+    if step:
+        total = step * (len(pre) + m + len(post))
         if total > _MAX_LINE_NUMBER:
             raise ExportError(
-                f"the program has {total} code lines but line numbers stop at N{_MAX_LINE_NUMBER} "
-                f"(5 digits, NISTIR 6556 §3.3.1): write it without line numbers"
+                f"the program has {len(pre) + m + len(post)} code lines, numbered every {step}, but line "
+                f"numbers stop at N{_MAX_LINE_NUMBER} (5 digits, NISTIR 6556 §3.3.1): write it without "
+                f"line numbers"
             )
-        pre = [f"N{i + 1} {t}" for i, t in enumerate(pre)]
+        pre = [f"N{step * (i + 1)} {t}" for i, t in enumerate(pre)]
         first = len(pre) + 1
-        post = [f"N{first + m + i} {t}" for i, t in enumerate(post)]
-        body = _format_rows(rows, decimals, first)
+        post = [f"N{step * (first + m + i)} {t}" for i, t in enumerate(post)]
+        body = _format_rows(rows, decimals, first, step)
     else:
         body = _format_rows(rows, decimals, None)
-    return "\n".join(head + pre) + "\n" + body + "\n".join(post) + "\n"
+    body = _compensation_words(body, rows, toolpath)
+    return frame.wrap("\n".join(head + pre) + "\n" + body + "\n".join(post) + "\n")
+
+
+def _frame_comments(head: list[str], tp: Toolpath, frame) -> list[str]:
+    """The header with the frame's and the compensation's lines, in the frame's comment style."""
+    extra = []
+    summary = frame.summary()
+    if summary:
+        extra.append(_comment(summary))
+    comp = tp.info.get("compensation")
+    if comp:
+        word = comp["word"]
+        extra.append(_comment(
+            f"cutter compensation at the control: {word} D{comp['register']} "
+            f"= tool {'left' if word == 'G41' else 'right'} of travel, the part line is programmed, "
+            f"set D{comp['register']} to the tool radius {_num(comp['radius'])} {tp.units}"))
+    if tp.info.get("arcs_as_lines"):
+        extra.append(_comment(f"arcs written as lines: {tp.info['arcs_as_lines']}, their I or J "
+                              f"would need more than {frame.arc_digits} integer digits"))
+    head = head[: len(head) - len(CAUTION)] + extra + head[len(head) - len(CAUTION):]
+    return [frame.style_comment(c) for c in head]
+
+
+def _compensation_words(body: str, rows, tp: Toolpath) -> str:
+    """Put G41/G42 Dn on the blocks that turn compensation on, G40 on those that turn it off."""
+    comp = tp.info.get("compensation")
+    if not comp:
+        return body
+    source = rows["source"]
+    on = {int(i) for i in comp["on"]}
+    off = {int(i) for i in comp["off"]}
+    lines = body.split("\n")
+    found = 0
+    for row in np.flatnonzero(np.isin(source, list(on | off))):
+        k = int(source[row])
+        word = f"{comp['word']} D{comp['register']}" if k in on else "G40"
+        text = lines[row]
+        if text.startswith("N"):
+            n, rest = text.split(" ", 1)
+            lines[row] = f"{n} {word} {rest}"
+        else:
+            lines[row] = f"{word} {text}"
+        found += 1
+    if found != len(on) + len(off):
+        raise ExportError("a move that turns cutter compensation on or off was too short to write")
+    return "\n".join(lines)
 
 
 def _code(text: str) -> str:
@@ -544,7 +604,8 @@ def write_gcode(toolpath: Toolpath, path, *, force: bool = False, check=None, **
     pathlib.Path
         The path written.  Nothing is written if any check fails.
     """
-    unknown = set(options) - {"program_name", "source", "spindle_speed", "line_numbers", "single_feed", "decimals"}
+    unknown = set(options) - {"program_name", "source", "spindle_speed", "line_numbers", "single_feed", "decimals",
+                              "frame"}
     if unknown:
         raise InputError(f"write_gcode got unknown option(s): {', '.join(sorted(unknown))}")
     p = Path(os.fspath(path))

@@ -94,7 +94,8 @@ def report_json(report, *, units: str = "mm") -> str:
     return json.dumps(_plain(data, ""), allow_nan=False, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
 
 
-def write_report(report, path, *, units: str = "mm", force: bool = False) -> tuple[Path, Path]:
+def write_report(report, path, *, units: str = "mm", force: bool = False,
+                 program: dict | None = None) -> tuple[Path, Path]:
     """Write ``report`` as JSON and text files, both or neither.
 
     Parameters
@@ -110,6 +111,10 @@ def write_report(report, path, *, units: str = "mm", force: bool = False) -> tup
     force : bool
         Replace existing files; otherwise ExportError if either exists and
         nothing is written.
+    program : dict, optional
+        Facts about the program written beside the report (e.g. the cutter
+        compensation at the control: ``word``, ``side``, ``register``,
+        ``radius``): a ``program`` field in the JSON and a line in the text.
 
     Returns
     -------
@@ -123,6 +128,11 @@ def write_report(report, path, *, units: str = "mm", force: bool = False) -> tup
         raise ExportError(f"report.to_text() gave a {type(text).__name__}, not text")
     if not text.endswith("\n"):
         text += "\n"
+    if program:
+        data = json.loads(text_json)
+        data["program"] = _plain(dict(program), "")
+        text_json = json.dumps(data, allow_nan=False, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+        text += "program: " + ", ".join(f"{k} {v}" for k, v in sorted(program.items())) + "\n"
     with atomic_paths([json_path, text_path], force=force) as (tmp_json, tmp_text):
         tmp_json.write_bytes(text_json.encode("utf-8"))
         tmp_text.write_bytes(text.encode("utf-8"))

@@ -77,9 +77,11 @@ _WORD = re.compile(r"([A-Za-z])[ \t]*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)
 _NUM = r"(-?\d+(?:\.\d+)?)"
 _FAST = re.compile(rf"(?:N\d{{1,5}} )?G([0-3])(?: X{_NUM})?(?: Y{_NUM})?(?: Z{_NUM})?(?: I{_NUM})?(?: J{_NUM})?"
                    rf"(?: F(\d+(?:\.\d+)?))?")
-_G_KNOWN = {0, 1, 2, 3, 17, 20, 21, 40, 90, 91, 94}
-_M_KNOWN = {2, 3, 5, 8, 9, 30}
-_LETTERS = set("GMXYZIJFSN")
+_G_KNOWN = {0, 1, 2, 3, 17, 20, 21, 28, 40, 41, 42, 43, 49, 54, 55, 56, 57, 58, 59, 90, 91, 94}
+_M_KNOWN = {2, 3, 4, 5, 6, 7, 8, 9, 30}
+# T tool, H length-offset register (G43), D radius register (G41/G42): read,
+# they move nothing; an O word (program number) stands alone on its line
+_LETTERS = set("GMXYZIJFSNTHDO")
 
 
 @dataclass(frozen=True)
@@ -282,12 +284,13 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
             if letter == "G":
                 g = int(v) if v == int(v) else None
                 if g not in _G_KNOWN:
-                    _fail(source, lineno, f"G{num} is not one pathgen reads (G0 G1 G2 G3 G17 G20 G21 G40 G90 G91 G94)")
+                    _fail(source, lineno, f"G{num} is not one pathgen reads (G0 G1 G2 G3 G17 G20 G21 G28 "
+                                          "G40 G41 G42 G43 G49 G54-G59 G90 G91 G94)")
                 gs.append(g)
             elif letter == "M":
                 m = int(v) if v == int(v) else None
                 if m not in _M_KNOWN:
-                    _fail(source, lineno, f"M{num} is not one pathgen reads (M2 M3 M5 M8 M9 M30)")
+                    _fail(source, lineno, f"M{num} is not one pathgen reads (M2 M3 M4 M5 M6 M7 M8 M9 M30)")
                 ms.append(m)
             else:
                 if letter in vals:
@@ -312,6 +315,15 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
                 if motion_here is not None:
                     _fail(source, lineno, "two motion words on one line")
                 motion_here = g
+        if "O" in vals and (len(words) != 1 or gs or ms):
+            _fail(source, lineno, "a program number O stands alone on its line")
+        if 28 in gs:
+            # return home (NISTIR 6556, G28): the tool goes to a place the
+            # program does not state; nothing after it is measured
+            if axes_given := [a for a in "XYZ" if a in vals]:
+                _fail(source, lineno, f"G28 with {''.join(axes_given)} (an intermediate point) is not read")
+            pos = [math.nan, math.nan, math.nan]
+            continue
         if motion_here is not None:
             motion = motion_here
         axes = {a: vals[a] for a in "XYZ" if a in vals}
