@@ -597,8 +597,8 @@ def run(
                   source=Path(source).name, program_name=Path(final["gcode"]).stem,
                   spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers,
                   decimals=plan["decimals"], frame=frame,
-                  check=None if compensation == "machine"
-                  else _replay(contour, tp, tool_mm, side, tol_mm, plan, mach, replayed))
+                  **({"notes": (_NOT_REPLAYED,)} if compensation == "machine" else
+                     {"check": _replay(contour, tp, tool_mm, side, tol_mm, plan, mach, replayed)}))
             files["gcode"] = final["gcode"]
         if "report" in targets:
             from .export.report import write_report
@@ -690,6 +690,11 @@ def verify(program, points, **options) -> tuple:
                            side=options.get("side", "outside"), tolerance=float(tp.tolerance) * f,
                            expected=Moves.from_toolpath(tp), machine=mach)
     return facts, result
+
+
+#: Header line of a program written for cutter compensation at the control.
+_NOT_REPLAYED = ("not replayed by pathgen: the control offsets this part line by the D register, "
+                 "so its tool path exists only there - verify it on the control")
 
 
 def _budget(contour, tol_mm: float, units: str, smoothed: bool) -> dict:

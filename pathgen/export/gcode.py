@@ -572,11 +572,9 @@ def _compensation_words(body: str, rows, tp: Toolpath) -> str:
 
 
 def _code(text: str) -> str:
-    """The program without its header comments (the text a controller moves by)."""
-    at = 0
-    while text.startswith("(", at):
-        at = text.index("\n", at) + 1
-    return text[at:]
+    """The program without its comment lines (the text a controller moves by);
+    the frame may put % and O lines before the header."""
+    return "\n".join(ln for ln in text.split("\n") if not ln.startswith(("(", ";")))
 
 
 def write_gcode(toolpath: Toolpath, path, *, force: bool = False, check=None, **options) -> Path:
