@@ -172,6 +172,11 @@ def run(
     lead: str = "arc",
     direction: str = "climb",
     plunge_feed=None,
+    lead_length=None,
+    entry: str = "plunge",
+    ramp_angle=None,
+    retract_height=None,
+    overlap=None,
     spindle_speed=None,
     one_feed: bool = False,
     line_numbers: bool = False,
@@ -223,6 +228,21 @@ def run(
     plunge_feed : float or None
         Feed of the plunge to depth (units/min); None: half the
         programmed feed (the toolpath stage's default).
+    lead_length : float or None
+        Lead size (units): arc radius or line length; None: the tool
+        diameter.  Either way a lead that would touch the part shrinks.
+    entry : {"plunge", "ramp", "helix"}
+        How the tool goes down to each pass (see ``docs/toolpath.md``).
+    ramp_angle : float or None
+        Descent angle of a ramp or helix, degrees (0 < angle <= 45);
+        None: 3 degrees.
+    retract_height : float or None
+        Height (units) just above the stock where entries start at feed
+        and where passes link; None: 1 mm (0.04 inch), or the safe height
+        if that is lower.
+    overlap : float or None
+        Length (units) to go on past the start of a closed cut before the
+        lead-out; None: 0.
     spindle_speed : float or None
         rev/min; when given the program starts the spindle (S… M3) and
         stops it at the end (M5).
@@ -247,6 +267,13 @@ def run(
     check_option("moves", moves, MOVES)
     check_option("lead", lead, LEADS)
     check_option("direction", direction, ("climb", "conventional"))
+    from .path.entry import ENTRIES
+
+    check_option("entry", entry, ENTRIES)
+    if ramp_angle is not None:
+        ramp_deg = check_positive("ramp angle", ramp_angle)
+        if ramp_deg > 45:
+            raise InputError(f"ramp angle must be at most 45 degrees, got {ramp_angle!r}")
     if spindle_speed is not None:
         spindle_speed = check_positive("spindle speed", spindle_speed)
     scale = MM_PER_INCH if units == "inch" else 1.0
@@ -338,6 +365,17 @@ def run(
                             ("plunge_feed", plunge_feed)):
             if value is not None:
                 kw[name] = _length(name.replace("_", " "), value, scale)
+        kw["entry"] = entry
+        if ramp_angle is not None:
+            kw["ramp_angle"] = math.radians(float(ramp_angle))
+        if lead_length is not None:
+            kw["lead_length"] = _length("lead length", lead_length, scale)
+        if overlap is not None:
+            kw["overlap"] = _length("overlap", overlap, scale, allow_zero=True)
+        if retract_height is not None:
+            kw["retract_height"] = _length("retract height", retract_height, scale)
+        elif units == "inch":
+            kw["retract_height"] = min(0.04 * MM_PER_INCH, kw.get("safe_height", 5.0))
         tp = timed("toolpath", make_toolpath, contour, tool, cut, mach, **kw)
 
     # -- write -----------------------------------------------------------------

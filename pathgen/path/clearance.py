@@ -500,6 +500,13 @@ class Probe:
             raise InputError("clearance: a move holds a coordinate that is not finite")
         return self._measure(kind, start, end, center, float(stock_top))
 
+    def per_move(self, kind, start, end, center, *, stock_top: float = 0.0) -> np.ndarray:
+        """Smallest signed clearance of each move (inf for moves above the stock top)."""
+        kind = np.asarray(kind).astype(np.int8).reshape(-1)
+        n = len(kind)
+        return self._measure(kind, np.asarray(start, float).reshape(n, 3), np.asarray(end, float).reshape(n, 3),
+                             np.asarray(center, float).reshape(n, 2), float(stock_top), per_move=True)
+
     def _measure(self, kind, start, end, center, stock_top, per_move=False):
         r, tol, V, tv, tree = self.r, self.tol, self.V, self.tv, self.tree
         contour, chord_error, h_max, h_med, step = self.contour, self.chord_error, self.h_max, self.h_med, self.step
