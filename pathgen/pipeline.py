@@ -396,7 +396,7 @@ def run(
             from .export.report import write_report
 
             files["report"], files["report_text"] = timed(
-                "report", write_report, rep, targets["report"], units=units, force=force)
+                "report", write_report, rep, targets["report"], units=units, force=force, toolpath=tp)
         if "dxf" in targets:
             from .export.dxf import write_dxf
             from .path.build import contour_moves

@@ -21,7 +21,7 @@ import numpy as np
 
 from .._options import MM_PER_INCH, UNITS, check_option, duration_text
 from ..errors import InputError
-from ..path.model import ARC_CCW, ARC_CW, RAPID, Toolpath
+from ..path.model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from ._atomic import atomic_paths
 
 __all__ = ["plot", "plot_figure", "CAUTION"]
@@ -95,6 +95,31 @@ def _tool_lines(tp: Toolpath, k: float):
     scale = 1.0 if tp.units == "mm" else MM_PER_INCH
     segs = np.stack([tp.start[sel, :2], tp.end[sel, :2]], axis=1) * scale * k
     return runs, segs
+
+
+def _start_marks(tp: Toolpath, k: float):
+    """(entry xy, start xy, unit direction, entry kind) in display units, or
+    None when the toolpath does not say where it starts."""
+    info = tp.info
+    if "entry_xy" not in info or "seam" not in info:
+        return None
+    scale = (1.0 if tp.units == "mm" else MM_PER_INCH) * k
+    seam = np.asarray(info["seam"], float)
+    cut = np.flatnonzero((tp.kind != RAPID) & np.any(tp.start[:, :2] != tp.end[:, :2], axis=1)
+                         & (np.hypot(*(tp.start[:, :2] - seam).T) <= 1e-6 * max(1.0, float(np.abs(seam).max())))
+                         & (tp.start[:, 2] == tp.end[:, 2]))
+    if not len(cut):
+        return None
+    i = int(cut[0])
+    s, e = tp.start[i, :2], tp.end[i, :2]
+    if tp.kind[i] == LINE:
+        t = e - s
+    else:
+        rel = s - tp.center[i]
+        t = np.array([-rel[1], rel[0]]) if tp.kind[i] == ARC_CCW else np.array([rel[1], -rel[0]])
+    t = t / max(float(np.hypot(*t)), 1e-300)
+    entry = np.asarray(info["entry_xy"], float)
+    return tuple(entry * scale), tuple(seam * scale), tuple(t), str(info.get("entry", "plunge"))
 
 
 def _group_spots(spots, near: float) -> list[list[int]]:
@@ -214,6 +239,18 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
             d = toolpath.tool_diameter * (1.0 if toolpath.units == "mm" else MM_PER_INCH) * k
             legend.append(Line2D([], [], color=_COLORS["tool"], lw=1.6,
                                  label=f"tool center, {_fmt(d)} {u} tool, {toolpath.side}"))
+        marks = _start_marks(toolpath, k)
+        if marks is not None:
+            (ex, ey), (sx, sy), (tx, ty), entry = marks
+            ax.plot([ex], [ey], "v", ms=11, color="#6a1b9a", zorder=8, gid="entry")
+            legend.append(Line2D([], [], marker="v", ls="", ms=9, color="#6a1b9a", label=f"entry: {entry}"))
+            arrow = 0.06 * size * k
+            ax.annotate("", (sx + tx * arrow, sy + ty * arrow), xytext=(sx, sy), zorder=8,
+                        arrowprops=dict(arrowstyle="-|>", color="#6a1b9a", lw=2.2, mutation_scale=18),
+                        gid="direction")
+            ax.plot([sx], [sy], "s", ms=8, mfc="white", mec="#6a1b9a", mew=2, zorder=8, gid="start")
+            legend.append(Line2D([], [], marker="s", ls="", ms=8, mfc="white", mec="#6a1b9a", mew=2,
+                                 label="start of the cut, arrow: direction"))
 
     # tight spots: every one circled; nearby ones share a label; the tightest
     # (lowest allowed feed) groups are labelled first
