@@ -271,7 +271,7 @@ def _fits(probe, moves2, z=-1.0):
 
 
 def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, pass_depth, overlap,
-                probe, r, tol, user_seam):
+                probe, r, tol, user_seam, units="mm"):
     """Leads, seam and entry that keep clear of the part.
 
     Leads start at ``lead_len`` and shrink (by a quarter at a time) until
@@ -286,6 +286,13 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
     """
     notes = []
     floor = max(0.05 * r, 4.0 * tol)
+    k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
+
+    def at(p):  # a point for the notes, in the program's units
+        return f"({p[0] * k:.4f}, {p[1] * k:.4f})"
+
+    def ln(v):  # a length for the notes
+        return f"{v * k:.4g} {units}"
 
     def tool_side(t_dir):
         nl = np.array([-t_dir[1], t_dir[0]]) * (1.0 if forward else -1.0)
@@ -335,7 +342,7 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
     total = float(sum(move_length(int(k), a, b, c) for k, a, b, c in
                       zip(chain.kind, chain.start, chain.end, chain.center)))
     if closed and overlap > total:
-        raise InputError(f"overlap {overlap:g} mm is longer than the path itself ({total:.4g} mm)")
+        raise InputError(f"overlap {ln(overlap)} is longer than the path itself ({ln(total)})")
     if not closed and overlap > 0:
         notes.append("overlap applies to closed cuts only; this open cut ends at its end")
     lin, lin_len, lout, lout_len, ov = leads_at(chain)
@@ -358,18 +365,17 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
                     break
         if best[1] != 0:
             S0, S1 = chain.start[0], best[2].start[0]
-            notes.append(f"the lead did not fit at the seam ({S0[0]:.4f}, {S0[1]:.4f}); "
-                         f"the cut starts at ({S1[0]:.4f}, {S1[1]:.4f}) instead")
+            notes.append(f"the lead did not fit at the seam {at(S0)}; the cut starts at {at(S1)} instead")
         _, _, chain, lin, lin_len, lout, lout_len, ov = best
     S = chain.start[0]
     if lead != "none":
         if entry != "ramp" and lin_len < lead_len:
-            notes.append(f"lead-in shrunk to {lin_len:.4g} mm to fit at ({S[0]:.4f}, {S[1]:.4f})" if lin else
-                         f"no lead-in fits at ({S[0]:.4f}, {S[1]:.4f}): the tool enters straight onto the path")
+            notes.append(f"lead-in shrunk to {ln(lin_len)} to fit at {at(S)}" if lin else
+                         f"no lead-in fits at {at(S)}: the tool enters straight onto the path")
         if lout_len < lead_len:
             E = lout[0][1] if lout else (ov[-1][2] if ov else chain.end[-1])
-            notes.append(f"lead-out shrunk to {lout_len:.4g} mm to fit at ({E[0]:.4f}, {E[1]:.4f})" if lout else
-                         f"no lead-out fits at ({E[0]:.4f}, {E[1]:.4f}): the tool leaves straight up from the path")
+            notes.append(f"lead-out shrunk to {ln(lout_len)} to fit at {at(E)}" if lout else
+                         f"no lead-out fits at {at(E)}: the tool leaves straight up from the path")
     plan = {"chain": chain, "lead_in": lin, "lead_out": lout, "overlap": ov,
             "lead_in_length": lin_len, "lead_out_length": lout_len,
             "overlap_length": overlap if closed else 0.0, "entry": entry, "helix_radius": 0.0,
@@ -382,7 +388,7 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
     if entry == "helix":
         found = _helix_place(E0, tool_side(_tangent_at(chain, 0, False)), probe, r, tol)
         if found is None:
-            notes.append(f"no room for a helix at ({E0[0]:.4f}, {E0[1]:.4f}); the tool ramps down along the path instead")
+            notes.append(f"no room for a helix at {at(E0)}; the tool ramps down along the path instead")
             plan["entry"] = "ramp"
         else:
             plan["helix_center"], plan["helix_radius"] = found
@@ -550,7 +556,7 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     n_pass = max(1, math.ceil(depth / step - 1e-9))
     plan = _plan_entry(chain, closed=contour.closed, forward=forward, n_out=n_out, lead=lead,
                        lead_len=lead_len, entry=entry, ramp=math.tan(ramp_angle), pass_depth=depth / n_pass,
-                       overlap=overlap, probe=probe, r=r, tol=tol, user_seam=seam is not None)
+                       overlap=overlap, probe=probe, r=r, tol=tol, user_seam=seam is not None, units=units)
     chain = plan["chain"]
     S = chain.start[0]
     if moves == "lines":
@@ -636,9 +642,11 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
             i = int(found.move)
             role = roles[int(role_of[i])][0]
             x, y, zz = found.where
+            k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
             raise InputError(
-                f"the {role} move {i} would cut {r - found.min_clearance:.4f} mm into the part at "
-                f"({x:.4f}, {y:.4f}, {zz:.4f}) (tool radius {r:g} mm, tolerance {tol:g} mm); "
+                f"the {role} move {i} would cut {(r - found.min_clearance) * k:.4f} {units} into the part at "
+                f"({x * k:.4f}, {y * k:.4f}, {zz * k:.4f}) (tool radius {r * k:g} {units}, tolerance "
+                f"{tol * k:g} {units}); "
                 f"try --lead none, a smaller --lead-length, another --seam or --entry, or a smaller tool"
             )
     # feed per block from the machine's limits (curvature, acceleration,
