@@ -171,6 +171,7 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
     from matplotlib.collections import LineCollection
     from matplotlib.figure import Figure
     from matplotlib.lines import Line2D
+    from matplotlib.patches import Circle
     from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
     units = check_option("units", units, UNITS)
@@ -243,6 +244,11 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
         if marks is not None:
             (ex, ey), (sx, sy), (tx, ty), entry = marks
             ax.plot([ex], [ey], "v", ms=11, color="#6a1b9a", zorder=8, gid="entry")
+            hc, hr = toolpath.info.get("helix_center"), toolpath.info.get("helix_radius") or 0.0
+            if hc is not None and hr > 0:
+                sc = (1.0 if toolpath.units == "mm" else MM_PER_INCH) * k
+                ax.add_patch(Circle((hc[0] * sc, hc[1] * sc), hr * sc, fill=False, ec="#6a1b9a", lw=1.2,
+                                    ls=(0, (2, 2)), zorder=8, gid="helix"))
             legend.append(Line2D([], [], marker="v", ls="", ms=9, color="#6a1b9a", label=f"entry: {entry}"))
             arrow = 0.06 * size * k
             ax.annotate("", (sx + tx * arrow, sy + ty * arrow), xytext=(sx, sy), zorder=8,

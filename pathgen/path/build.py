@@ -678,6 +678,8 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
         "entry_xy": (float(E0[0]), float(E0[1])),
         "ramp_angle": float(math.degrees(ramp_angle)),
         "helix_radius": float(plan["helix_radius"]),
+        "helix_center": None if plan["helix_center"] is None or plan["entry"] != "helix" else
+        (float(plan["helix_center"][0]), float(plan["helix_center"][1])),
         "retract_height": float(retract),
         "stock_top": 0.0,
         "overlap": float(plan["overlap_length"]),
@@ -713,6 +715,8 @@ def _to_inch(path: Toolpath, meta: dict) -> Toolpath:
         info[key] = info[key] * f
     info["seam"] = (info["seam"][0] * f, info["seam"][1] * f)
     info["entry_xy"] = (info["entry_xy"][0] * f, info["entry_xy"][1] * f)
+    if info.get("helix_center") is not None:
+        info["helix_center"] = (info["helix_center"][0] * f, info["helix_center"][1] * f)
     if info.get("clearance"):
         info["clearance"] = {k: (v * f if k in ("min", "margin", "tool_radius", "x", "y", "z") else v)
                              for k, v in info["clearance"].items()}
