@@ -247,8 +247,21 @@ def test_helix_fits_the_hole(tmp_path):
     R, tool = 10.0, 6.0
     nc = tmp_path / "helix.nc"
     run(circle(R, 200), closed=True, tool_diameter=tool, side="inside", gcode=nc, entry="helix",
-        ramp_angle=4.0, depth=3.0, step_down=1.5)
+        ramp_angle=4.0, depth=3.0, step_down=1.5, report=tmp_path / "helix.json", plot=tmp_path / "helix.svg")
     prog = gr.read(nc.read_text())
+    # the report lists the entry, the leads, the heights and the clearance found
+    import json
+
+    section = json.loads((tmp_path / "helix.json").read_text())["toolpath"]
+    assert section["entry"] == "helix" and section["ramp_angle"] == pytest.approx(4.0)
+    assert section["helix_radius"] > 0 and section["lead"] == "arc" and section["lead_in_length"] > 0
+    assert section["safe_height"] == 5.0 and section["retract_height"] == 1.0
+    assert section["clearance"]["min"] >= tool / 2 - TOL
+    assert "smallest clearance of the tool center" in (tmp_path / "helix.txt").read_text()
+    # the picture marks the entry, the helix, the start of the cut and the direction
+    svg = (tmp_path / "helix.svg").read_text()
+    for gid in ("entry", "helix", "start", "direction"):
+        assert f'id="{gid}' in svg
     helix = [m for m in prog.moves if m.g in (2, 3) and m.end[2] < m.start[2]]
     assert len(helix) >= 8
     for m in helix:

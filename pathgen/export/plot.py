@@ -251,9 +251,9 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
                                     ls=(0, (2, 2)), zorder=8, gid="helix"))
             legend.append(Line2D([], [], marker="v", ls="", ms=9, color="#6a1b9a", label=f"entry: {entry}"))
             arrow = 0.06 * size * k
-            ax.annotate("", (sx + tx * arrow, sy + ty * arrow), xytext=(sx, sy), zorder=8,
-                        arrowprops=dict(arrowstyle="-|>", color="#6a1b9a", lw=2.2, mutation_scale=18),
-                        gid="direction")
+            ann = ax.annotate("", (sx + tx * arrow, sy + ty * arrow), xytext=(sx, sy), zorder=8,
+                              arrowprops=dict(arrowstyle="-|>", color="#6a1b9a", lw=2.2, mutation_scale=18))
+            ann.arrow_patch.set_gid("direction")
             ax.plot([sx], [sy], "s", ms=8, mfc="white", mec="#6a1b9a", mew=2, zorder=8, gid="start")
             legend.append(Line2D([], [], marker="s", ls="", ms=8, mfc="white", mec="#6a1b9a", mew=2,
                                  label="start of the cut, arrow: direction"))
