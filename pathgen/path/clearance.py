@@ -522,30 +522,47 @@ class Probe:
         D = r + max(4.0 * tol, 0.05 * r)  # beyond this, exact values are not needed
         nv = len(V)
         ne = nv - 1
-        k = int(np.clip(math.ceil(3.0 * math.sqrt(r * (h_med + step)) / max(h_med, 1e-12)) + 4, 8, 48))
-        k = min(k, nv)
+        # a few nearest vertices settle most sub-moves; the rest are asked
+        # again with more, and then with a ball query
+        k_big = int(np.clip(math.ceil(3.0 * math.sqrt(r * (h_med + step)) / max(h_med, 1e-12)) + 4, 8, 48))
+        levels = sorted({min(8, nv), min(k_big, nv)})
         best_d = np.empty(m)
         best_f = np.empty(m)
         best_e = np.empty(m, np.int64)
-        for c0 in range(0, m, _CHUNK):
-            ids = np.arange(c0, min(m, c0 + _CHUNK))
-            mid_x, mid_y, _ = _point_on(sub, ids, np.full(len(ids), 0.5))
-            dist_k, vert = tree.query(np.c_[mid_x, mid_y], k=k)
-            dist_k = dist_k.reshape(len(ids), k)
-            vert = vert.reshape(len(ids), k)
+
+        def examine(rows, ids, mid_x, mid_y, k):
+            dist_k, vert = tree.query(np.c_[mid_x[rows], mid_y[rows]], k=k)
+            dist_k = dist_k.reshape(len(rows), k)
+            vert = vert.reshape(len(rows), k)
             # edges touching each near vertex: j - 1 and j
             cand = np.concatenate([vert - 1, vert], axis=1)
             valid = (cand >= 0) & (cand < ne)
             cand = np.where(valid, cand, np.clip(cand, 0, ne - 1))
-            grp = np.repeat(ids, 2 * k)
+            grp = np.repeat(ids[rows], 2 * k)
             d, f = _pairs(sub, grp, cand.ravel(), V)
-            d = np.where(valid.ravel(), d, np.inf).reshape(len(ids), 2 * k)
-            bd, bf, be = _reduce_rows(d, f.reshape(len(ids), 2 * k), cand)
+            d = np.where(valid.ravel(), d, np.inf).reshape(len(rows), 2 * k)
+            bd, bf, be = _reduce_rows(d, f.reshape(len(rows), 2 * k), cand)
             # certificate: every edge not examined has both ends beyond the k-th
             # vertex, so it is at least dist_k[-1] - h_max/2 - len/2 from the sub-move
-            reach = dist_k[:, -1] - 0.5 * h_max - 0.5 * (sub["len"][ids] + 0.0)
+            reach = dist_k[:, -1] - 0.5 * h_max - 0.5 * sub["len"][ids[rows]]
+            proven = (k >= nv) | (reach >= np.minimum(bd, D))
+            return bd, bf, be, proven
+
+        for c0 in range(0, m, _CHUNK):
+            ids = np.arange(c0, min(m, c0 + _CHUNK))
+            mid_x, mid_y, _ = _point_on(sub, ids, np.full(len(ids), 0.5))
+            bd = np.full(len(ids), np.inf)
+            bf = np.zeros(len(ids))
+            be = np.zeros(len(ids), np.int64)
+            rows = np.arange(len(ids))
+            for k in levels:
+                d_, f_, e_, proven = examine(rows, ids, mid_x, mid_y, k)
+                bd[rows], bf[rows], be[rows] = d_, f_, e_
+                rows = rows[~proven]
+                if not len(rows):
+                    break
             need = np.minimum(bd, D)
-            redo = np.flatnonzero((k < nv) & (reach < need))
+            redo = rows
             if len(redo):
                 radius = need[redo] + 0.5 * h_max + 0.5 * sub["len"][ids[redo]] + 1e-9
                 lists = tree.query_ball_point(np.c_[mid_x[redo], mid_y[redo]], radius)
