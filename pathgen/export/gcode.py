@@ -252,8 +252,9 @@ def _entry_lines(tp: Toolpath) -> list[str]:
             text += f", helix radius {_num(info['helix_radius'])} {u}"
         lead = info.get("lead")
         if lead and lead != "none":
-            text += (f"; lead-in: {lead} {_num(info.get('lead_in_length', 0.0))} {u}; "
-                     f"lead-out: {lead} {_num(info.get('lead_out_length', 0.0))} {u}")
+            for end in ("in", "out"):
+                size = _info_float(info, f"lead_{end}_length") or 0.0
+                text += f"; lead-{end}: " + (f"{lead} {_num(size)} {u}" if size > 0 else "none")
         else:
             text += "; no leads: straight onto and off the path"
         if _info_float(info, "overlap"):

@@ -388,6 +388,8 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
     if entry == "helix":
         found = _helix_place(E0, tool_side(_tangent_at(chain, 0, False)), probe, r, tol)
         if found is None:
+            # the ramp replaces the lead-in too: what was said about it no longer holds
+            notes[:] = [n for n in notes if not n.startswith(("lead-in", "no lead-in"))]
             notes.append(f"no room for a helix at {at(E0)}; the tool ramps down along the path instead")
             plan["entry"] = "ramp"
         else:
@@ -395,9 +397,7 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
             if closed:
                 x, y = chain.start[:, 0], chain.start[:, 1]
                 plan["helix_ccw"] = bool(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)) >= 0)
-    if plan["entry"] == "ramp":
-        if entry == "ramp" and lin:
-            lin = plan["lead_in"] = []
+    if plan["entry"] == "ramp":  # the ramp enters along the path: no lead-in
         plan["lead_in"], plan["lead_in_length"] = [], 0.0
         plan["ramp"] = ramp_route(chain, pass_depth / ramp, closed=closed)
         E0 = plan["ramp"][0][1]
