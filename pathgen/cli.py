@@ -182,6 +182,18 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                    help="milling direction with a clockwise (M3) spindle (default: climb)")
     g.add_argument("--plunge-feed", type=_number, metavar="F",
                    help="feed of the plunge to depth per minute (default: half the cutting feed)")
+    g.add_argument("--lead-length", type=_number, metavar="L",
+                   help="lead size: arc radius or line length (default: the tool diameter, shrunk to fit)")
+    g.add_argument("--entry", choices=("plunge", "ramp", "helix"), default="plunge",
+                   help="how the tool goes down to each pass: straight, along the path, or a helix "
+                        "(default: plunge)")
+    g.add_argument("--ramp-angle", type=_number, metavar="DEG",
+                   help="descent angle of a ramp or helix entry, degrees (default: 3)")
+    g.add_argument("--retract-height", type=_number, metavar="H",
+                   help="height just above the stock where entries start at feed and passes link "
+                        "(default: 1 mm, 0.04 in, or the safe height if lower)")
+    g.add_argument("--overlap", type=_number, metavar="L",
+                   help="go on past the start of a closed cut by L before the lead-out (default: 0)")
 
     if program:
         g = p.add_argument_group("program")
@@ -330,6 +342,8 @@ def _run_options(a) -> dict:
         tolerance=a.tolerance, moves=a.moves, depth=a.depth, step_down=a.step_down,
         safe_height=a.safe_height, seam=a.seam, lead=a.lead, force=a.force,
         direction=a.direction, plunge_feed=a.plunge_feed,
+        lead_length=a.lead_length, entry=a.entry, ramp_angle=a.ramp_angle,
+        retract_height=a.retract_height, overlap=a.overlap,
         spindle_speed=a.spindle_speed, flutes=a.flutes, chip_load=a.chip_load,
         one_feed=getattr(a, "one_feed", False),
         line_numbers=getattr(a, "line_numbers", False), allow_crossing=a.allow_crossing,

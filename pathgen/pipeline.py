@@ -311,6 +311,11 @@ def run(
     lead: str = "arc",
     direction: str = "climb",
     plunge_feed=None,
+    lead_length=None,
+    entry: str = "plunge",
+    ramp_angle=None,
+    retract_height=None,
+    overlap=None,
     spindle_speed=None,
     flutes=None,
     chip_load=None,
@@ -372,6 +377,21 @@ def run(
     plunge_feed : float or None
         Feed of the plunge to depth (units/min); None: half the
         programmed feed (the toolpath stage's default).
+    lead_length : float or None
+        Lead size (units): arc radius or line length; None: the tool
+        diameter.  Either way a lead that would touch the part shrinks.
+    entry : {"plunge", "ramp", "helix"}
+        How the tool goes down to each pass (see ``docs/toolpath.md``).
+    ramp_angle : float or None
+        Descent angle of a ramp or helix, degrees (0 < angle <= 45);
+        None: 3 degrees.
+    retract_height : float or None
+        Height (units) just above the stock where entries start at feed
+        and where passes link; None: 1 mm (0.04 inch), or the safe height
+        if that is lower.
+    overlap : float or None
+        Length (units) to go on past the start of a closed cut before the
+        lead-out; None: 0.
     spindle_speed : float or None
         rev/min; when given the program starts the spindle (S… M3) and
         stops it at the end (M5).
@@ -415,6 +435,13 @@ def run(
     check_option("lead", lead, LEADS)
     check_option("direction", direction, ("climb", "conventional"))
     check_option("compensation", compensation, COMPENSATIONS)
+    from .path.entry import ENTRIES
+
+    check_option("entry", entry, ENTRIES)
+    if ramp_angle is not None:
+        ramp_deg = check_positive("ramp angle", ramp_angle)
+        if ramp_deg > 45:
+            raise InputError(f"ramp angle must be at most 45 degrees, got {ramp_angle!r}")
     if spindle_speed is not None:
         spindle_speed = check_positive("spindle speed", spindle_speed)
     scale = MM_PER_INCH if units == "inch" else 1.0
@@ -542,6 +569,17 @@ def run(
                 kw[name] = _length(name.replace("_", " "), value, scale)
         if plunge_feed is None and "plunge_feed" in tool_settings:
             kw["plunge_feed"] = tool_settings["plunge_feed"]
+        kw["entry"] = entry
+        if ramp_angle is not None:
+            kw["ramp_angle"] = math.radians(float(ramp_angle))
+        if lead_length is not None:
+            kw["lead_length"] = _length("lead length", lead_length, scale)
+        if overlap is not None:
+            kw["overlap"] = _length("overlap", overlap, scale, allow_zero=True)
+        if retract_height is not None:
+            kw["retract_height"] = _length("retract height", retract_height, scale)
+        elif units == "inch":
+            kw["retract_height"] = min(0.04 * MM_PER_INCH, kw.get("safe_height", 5.0))
         # the tolerance budget: rounding to the written decimals takes at most 5 %, the moves the rest
         # smoothed points (to a tolerance or to their noise): the residual is stated apart
         plan = _budget(contour, tol_mm, units, contour.info.get("smoothing") in ("tolerance", "noise"))
@@ -613,7 +651,8 @@ def run(
                 "compensation": "machine", "word": comp["word"], "register": comp["register"],
                 "side": "left of travel" if comp["word"] == "G41" else "right of travel",
                 "radius": comp["radius"]}
-            timed("report", write_report, stated, targets["report"], units=units, force=True, program=program)
+            timed("report", write_report, stated, targets["report"], units=units, force=True, program=program,
+                  toolpath=tp)
             files["report"], files["report_text"] = final["report"], final["report_text"]
         if "dxf" in targets:
             from .export.dxf import write_dxf

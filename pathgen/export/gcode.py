@@ -224,6 +224,7 @@ def _header(tp: Toolpath, program_name: str, source: str, notes=(), blocks: int 
         depth.append(f"safe height: {_num(info['safe_height'])} {u}")
     if depth:
         lines.append(_comment(", ".join(depth)))
+    lines.extend(_comment(t) for t in _entry_lines(tp))
     lines.append(
         _comment(
             f"motion blocks: {len(tp) if blocks is None else blocks}, "
@@ -234,6 +235,42 @@ def _header(tp: Toolpath, program_name: str, source: str, notes=(), blocks: int 
     lines.extend(_comment(c) for c in notes)  # e.g. what the replay of this text measured
     lines.extend(_comment(c) for c in CAUTION)
     return lines
+
+
+def _entry_lines(tp: Toolpath) -> list[str]:
+    """Header sentences on the entry, leads, heights and the measured clearance."""
+    u, info = tp.units, tp.info
+    out = []
+    entry = info.get("entry")
+    if entry:
+        how = {"plunge": "plunge straight down", "ramp": "ramp down along the path",
+               "helix": "helix down"}.get(entry, entry)
+        text = f"entry: {how}"
+        if entry in ("ramp", "helix") and _info_float(info, "ramp_angle") is not None:
+            text += f" at {_num(info['ramp_angle'])} deg"
+        if entry == "helix" and _info_float(info, "helix_radius"):
+            text += f", helix radius {_num(info['helix_radius'])} {u}"
+        lead = info.get("lead")
+        if lead and lead != "none":
+            for end in ("in", "out"):
+                size = _info_float(info, f"lead_{end}_length") or 0.0
+                text += f"; lead-{end}: " + (f"{lead} {_num(size)} {u}" if size > 0 else "none")
+        else:
+            text += "; no leads: straight onto and off the path"
+        if _info_float(info, "overlap"):
+            text += f"; overlap past the start: {_num(info['overlap'])} {u}"
+        out.append(text)
+    if _info_float(info, "retract_height") is not None and _info_float(info, "safe_height") is not None:
+        out.append(f"heights: safe {_num(info['safe_height'])} {u} for traverses; retract "
+                   f"{_num(info['retract_height'])} {u}, entries start there at feed; stock top z = 0")
+    c = info.get("clearance")
+    if isinstance(c, dict) and _info_float(c, "min") is not None:
+        out.append(f"smallest clearance of the tool center to the part: {_num(c['min'])} {u} "
+                   f"(tool radius {_num(c['tool_radius'])} {u}) at X{_num(c['x'])} Y{_num(c['y'])} "
+                   f"Z{_num(c['z'])}; no move below the stock top comes closer than radius - tolerance")
+    for note in info.get("notes", ()) or ():
+        out.append(f"note: {note}")
+    return out
 
 
 def _program_rows(tp: Toolpath, units: str, decimals: int, single_feed: bool):

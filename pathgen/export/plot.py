@@ -21,7 +21,7 @@ import numpy as np
 
 from .._options import CAUTION, CAUTION_LINES, MM_PER_INCH, UNITS, check_option, duration_text
 from ..errors import InputError
-from ..path.model import ARC_CCW, ARC_CW, RAPID, Toolpath
+from ..path.model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from ._atomic import atomic_paths
 
 __all__ = ["plot", "plot_figure", "CAUTION"]
@@ -95,6 +95,31 @@ def _tool_lines(tp: Toolpath, k: float):
     return runs, segs
 
 
+def _start_marks(tp: Toolpath, k: float):
+    """(entry xy, start xy, unit direction, entry kind) in display units, or
+    None when the toolpath does not say where it starts."""
+    info = tp.info
+    if "entry_xy" not in info or "seam" not in info:
+        return None
+    scale = (1.0 if tp.units == "mm" else MM_PER_INCH) * k
+    seam = np.asarray(info["seam"], float)
+    cut = np.flatnonzero((tp.kind != RAPID) & np.any(tp.start[:, :2] != tp.end[:, :2], axis=1)
+                         & (np.hypot(*(tp.start[:, :2] - seam).T) <= 1e-6 * max(1.0, float(np.abs(seam).max())))
+                         & (tp.start[:, 2] == tp.end[:, 2]))
+    if not len(cut):
+        return None
+    i = int(cut[0])
+    s, e = tp.start[i, :2], tp.end[i, :2]
+    if tp.kind[i] == LINE:
+        t = e - s
+    else:
+        rel = s - tp.center[i]
+        t = np.array([-rel[1], rel[0]]) if tp.kind[i] == ARC_CCW else np.array([rel[1], -rel[0]])
+    t = t / max(float(np.hypot(*t)), 1e-300)
+    entry = np.asarray(info["entry_xy"], float)
+    return tuple(entry * scale), tuple(seam * scale), tuple(t), str(info.get("entry", "plunge"))
+
+
 def _group_spots(spots, near: float) -> list[list[int]]:
     """Groups of spots chained by distances <= ``near``; tightest groups first.
 
@@ -146,6 +171,7 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
     from matplotlib.collections import LineCollection
     from matplotlib.figure import Figure
     from matplotlib.lines import Line2D
+    from matplotlib.patches import Circle
     from mpl_toolkits.axes_grid1.anchored_artists import AnchoredSizeBar
 
     units = check_option("units", units, UNITS)
@@ -214,6 +240,23 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
             d = toolpath.tool_diameter * (1.0 if toolpath.units == "mm" else MM_PER_INCH) * k
             legend.append(Line2D([], [], color=_COLORS["tool"], lw=1.6,
                                  label=f"tool center, {_fmt(d)} {u} tool, {toolpath.side}"))
+        marks = _start_marks(toolpath, k)
+        if marks is not None:
+            (ex, ey), (sx, sy), (tx, ty), entry = marks
+            ax.plot([ex], [ey], "v", ms=11, color="#6a1b9a", zorder=8, gid="entry")
+            hc, hr = toolpath.info.get("helix_center"), toolpath.info.get("helix_radius") or 0.0
+            if hc is not None and hr > 0:
+                sc = (1.0 if toolpath.units == "mm" else MM_PER_INCH) * k
+                ax.add_patch(Circle((hc[0] * sc, hc[1] * sc), hr * sc, fill=False, ec="#6a1b9a", lw=1.2,
+                                    ls=(0, (2, 2)), zorder=8, gid="helix"))
+            legend.append(Line2D([], [], marker="v", ls="", ms=9, color="#6a1b9a", label=f"entry: {entry}"))
+            arrow = 0.06 * size * k
+            ann = ax.annotate("", (sx + tx * arrow, sy + ty * arrow), xytext=(sx, sy), zorder=8,
+                              arrowprops=dict(arrowstyle="-|>", color="#6a1b9a", lw=2.2, mutation_scale=18))
+            ann.arrow_patch.set_gid("direction")
+            ax.plot([sx], [sy], "s", ms=8, mfc="white", mec="#6a1b9a", mew=2, zorder=8, gid="start")
+            legend.append(Line2D([], [], marker="s", ls="", ms=8, mfc="white", mec="#6a1b9a", mew=2,
+                                 label="start of the cut, arrow: direction"))
 
     # tight spots: every one circled; nearby ones share a label; the tightest
     # (lowest allowed feed) groups are labelled first

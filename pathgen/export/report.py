@@ -21,7 +21,7 @@ from .._options import UNITS, check_option
 from ..errors import ExportError
 from ._atomic import atomic_paths
 
-__all__ = ["write_report", "report_paths_for", "report_json"]
+__all__ = ["write_report", "report_paths_for", "report_json", "toolpath_section", "toolpath_text"]
 
 
 def report_paths_for(program_path) -> tuple[Path, Path]:
@@ -74,7 +74,65 @@ def _plain(value, where: str):
     raise ExportError(f"report field {where} holds a value of type {type(value).__name__}, which JSON cannot store")
 
 
-def report_json(report, *, units: str = "mm") -> str:
+def toolpath_section(tp) -> dict:
+    """The program's entry, leads, heights and measured clearance, in the
+    toolpath's units (the ``toolpath`` field of the report; docs/report.md)."""
+    info = tp.info
+    c = info.get("clearance")
+    return {
+        "units": tp.units,
+        "side": tp.side,
+        "tool_diameter": float(tp.tool_diameter),
+        "entry": info.get("entry"),
+        "entry_asked": info.get("entry_asked"),
+        "entry_at": list(info["entry_xy"]) if "entry_xy" in info else None,
+        "start_at": list(info["seam"]) if "seam" in info else None,
+        "ramp_angle": info.get("ramp_angle"),
+        "helix_radius": info.get("helix_radius"),
+        "lead": info.get("lead"),
+        "lead_asked": info.get("lead_asked"),
+        "lead_in_length": info.get("lead_in_length"),
+        "lead_out_length": info.get("lead_out_length"),
+        "overlap": info.get("overlap"),
+        "safe_height": info.get("safe_height"),
+        "retract_height": info.get("retract_height"),
+        "stock_top": info.get("stock_top"),
+        "passes": info.get("passes"),
+        "depth": info.get("depth"),
+        "clearance": None if not c else {k: c[k] for k in ("min", "margin", "tool_radius", "x", "y", "z",
+                                                             "move", "role")},
+        "deviation": float(tp.deviation),
+        "tolerance": float(tp.tolerance),
+        "notes": list(info.get("notes", ())),
+    }
+
+
+def toolpath_text(tp) -> str:
+    """The toolpath section as a few lines for people."""
+    t = toolpath_section(tp)
+    u = t["units"]
+
+    def g(v):
+        return "-" if v is None else f"{float(v):.6g}"
+
+    lines = [f"program: entry {t['entry']}"
+             + (f" at {g(t['ramp_angle'])} deg" if t["entry"] in ("ramp", "helix") else "")
+             + (f", helix radius {g(t['helix_radius'])} {u}" if t["entry"] == "helix" else "")
+             + f"; lead {t['lead']} in {g(t['lead_in_length'])} {u}, out {g(t['lead_out_length'])} {u}"
+             + f"; overlap {g(t['overlap'])} {u}",
+             f"heights: safe {g(t['safe_height'])} {u}, retract {g(t['retract_height'])} {u}, "
+             f"stock top {g(t['stock_top'])} {u}; {t['passes']} passes to depth {g(t['depth'])} {u}"]
+    c = t["clearance"]
+    if c:
+        lines.append(f"smallest clearance of the tool center to the part: {g(c['min'])} {u} (tool radius "
+                     f"{g(c['tool_radius'])} {u}) at ({g(c['x'])}, {g(c['y'])}, {g(c['z'])}), {c['role']} move")
+    else:
+        lines.append("clearance: not checked (cutting on the line)")
+    lines += [f"note: {n}" for n in t["notes"]]
+    return "\n".join(lines) + "\n"
+
+
+def report_json(report, *, units: str = "mm", toolpath=None) -> str:
     """The report as JSON text: sorted keys, indent 2, ends with a newline.
 
     >>> class R:
@@ -91,11 +149,13 @@ def report_json(report, *, units: str = "mm") -> str:
     data = report.to_dict() if units == "mm" else report.to_dict(units=units)
     if not isinstance(data, dict):
         raise ExportError(f"report.to_dict() gave a {type(data).__name__}, not a dict")
+    if toolpath is not None:
+        data = {**data, "toolpath": toolpath_section(toolpath)}
     return json.dumps(_plain(data, ""), allow_nan=False, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
 
 
 def write_report(report, path, *, units: str = "mm", force: bool = False,
-                 program: dict | None = None) -> tuple[Path, Path]:
+                 program: dict | None = None, toolpath=None) -> tuple[Path, Path]:
     """Write ``report`` as JSON and text files, both or neither.
 
     Parameters
@@ -115,6 +175,9 @@ def write_report(report, path, *, units: str = "mm", force: bool = False,
         Facts about the program written beside the report (e.g. the cutter
         compensation at the control: ``word``, ``side``, ``register``,
         ``radius``): a ``program`` field in the JSON and a line in the text.
+    toolpath : Toolpath, optional
+        Adds the program's ``toolpath`` section (entry, leads, heights,
+        measured clearance) to both files.
 
     Returns
     -------
@@ -122,10 +185,12 @@ def write_report(report, path, *, units: str = "mm", force: bool = False,
     """
     units = check_option("units", units, UNITS)
     json_path, text_path = _paths(path)
-    text_json = report_json(report, units=units)
+    text_json = report_json(report, units=units, toolpath=toolpath)
     text = report.to_text() if units == "mm" else report.to_text(units=units)
     if not isinstance(text, str):
         raise ExportError(f"report.to_text() gave a {type(text).__name__}, not text")
+    if toolpath is not None:
+        text = text.rstrip("\n") + "\n" + toolpath_text(toolpath)
     if not text.endswith("\n"):
         text += "\n"
     if program:

@@ -32,6 +32,7 @@ import numpy as np
 from .._options import MM_PER_INCH, UNITS, check_option, check_positive, side_sign
 from ..errors import InputError
 from .arcfit import band_arcs
+from .entry import ENTRIES, arc_as_lines, helix_moves, move_length, ramp_route, take_length
 from .flatten import MOVES, _drop_tiny, approximate
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
@@ -262,10 +263,177 @@ def _lead(point, tangent, toward, length, kind, *, entering, max_radius):
     return (k, other, point, center) if entering else (k, point, other, center)
 
 
+def _fits(probe, moves2, z=-1.0):
+    """Smallest clearance of each 2-D move put at depth z."""
+    if not moves2:
+        return np.zeros(0)
+    k = np.array([m[0] for m in moves2], np.int8)
+    s = np.array([[m[1][0], m[1][1], z] for m in moves2])
+    e = np.array([[m[2][0], m[2][1], z] for m in moves2])
+    c = np.array([[m[3][0], m[3][1]] for m in moves2])
+    return probe.per_move(k, s, e, c)
+
+
+def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, pass_depth, overlap,
+                probe, r, tol, user_seam, units="mm"):
+    """Leads, seam and entry that keep clear of the part.
+
+    Leads start at ``lead_len`` and shrink (by a quarter at a time) until
+    their moves keep at least min(r - tol/2, the path's own clearance there)
+    from the contour; a closed cut without a seam given by the user tries
+    16 other seams (move starts evenly spaced along the path) when a lead
+    does not fit full size, and keeps the seam where the leads come out
+    largest; where no lead fits the tool enters or leaves straight on the
+    path.  A helix is placed through the lead-in's start where the room
+    allows r_helix + r <= clearance - tol (r_helix from 0.75 r down to
+    0.1 r); without room the entry falls back to a ramp.
+    """
+    notes = []
+    floor = max(0.05 * r, 4.0 * tol)
+    k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
+
+    def at(p):  # a point for the notes, in the program's units
+        return f"({p[0] * k:.4f}, {p[1] * k:.4f})"
+
+    def ln(v):  # a length for the notes
+        return f"{v * k:.4g} {units}"
+
+    def tool_side(t_dir):
+        nl = np.array([-t_dir[1], t_dir[0]]) * (1.0 if forward else -1.0)
+        return n_out * nl
+
+    def max_radius(ch, i, at_end):
+        if ch.kind[i] == LINE:
+            return np.inf
+        rr = float(np.hypot(*(ch.start[i] - ch.center[i])))
+        p = ch.end[i] if at_end else ch.start[i]
+        t_dir = _tangent_at(ch, i, at_end)
+        return 0.45 * rr if (ch.center[i] - p) @ tool_side(t_dir) > 0 else np.inf
+
+    def one_lead(point, t_dir, entering, max_r):
+        if lead == "none":
+            return [], 0.0
+        if probe is None:
+            return [_lead(point, t_dir, tool_side(t_dir), lead_len, lead, entering=entering, max_radius=max_r)], \
+                min(lead_len, max_r) if lead == "arc" else lead_len
+        need = min(r - 0.5 * tol, float(probe.distance(point)[0])) - 1e-6
+        sizes = lead_len * 0.75 ** np.arange(64)
+        sizes = sizes[sizes >= floor]
+        mv = [_lead(point, t_dir, tool_side(t_dir), float(L), lead, entering=entering, max_radius=np.inf)
+              for L in sizes]
+        ok = np.flatnonzero(_fits(probe, mv) >= need)
+        if len(ok):
+            return [mv[ok[0]]], float(sizes[ok[0]])
+        return [], 0.0
+
+    def leads_at(ch):
+        S = ch.start[0]
+        ov = take_length(ch, overlap, closed=True) if (closed and overlap > 0) else []
+        if ov:
+            oc = Chain(np.array([m[0] for m in ov], np.int8), np.array([m[1] for m in ov]),
+                       np.array([m[2] for m in ov]), np.array([m[3] for m in ov]),
+                       np.full(len(ov), np.nan), np.full(len(ov), np.nan))
+            E, Te, mo = oc.end[-1], _tangent_at(oc, len(oc) - 1, True), max_radius(oc, len(oc) - 1, True)
+        else:
+            E, Te, mo = ch.end[-1], _tangent_at(ch, len(ch) - 1, True), max_radius(ch, len(ch) - 1, True)
+        if entry == "ramp":
+            lin, lin_len = [], 0.0
+        else:
+            lin, lin_len = one_lead(S, _tangent_at(ch, 0, False), True, max_radius(ch, 0, False))
+        lout, lout_len = one_lead(E, Te, False, mo)
+        return lin, lin_len, lout, lout_len, ov
+
+    total = float(sum(move_length(int(k), a, b, c) for k, a, b, c in
+                      zip(chain.kind, chain.start, chain.end, chain.center)))
+    if closed and overlap > total:
+        raise InputError(f"overlap {ln(overlap)} is longer than the path itself ({ln(total)})")
+    if not closed and overlap > 0:
+        notes.append("overlap applies to closed cuts only; this open cut ends at its end")
+    lin, lin_len, lout, lout_len, ov = leads_at(chain)
+    full = lead == "none" or ((lin_len >= lead_len or entry == "ramp") and lout_len >= lead_len)
+    if not full and closed and not user_seam and probe is not None and len(chain) > 1:
+        lengths = np.array([move_length(int(k), a, b, c) for k, a, b, c in
+                            zip(chain.kind, chain.start, chain.end, chain.center)])
+        cum = np.concatenate([[0.0], np.cumsum(lengths)[:-1]])
+        starts = np.unique(np.searchsorted(cum, total * np.arange(1, 16) / 16.0))
+        best = (min(lin_len if entry != "ramp" else lout_len, lout_len), 0, chain, lin, lin_len, lout, lout_len, ov)
+        for j in starts:
+            if j <= 0 or j >= len(chain):
+                continue
+            ch = chain.take(np.roll(np.arange(len(chain)), -int(j)))
+            cand = leads_at(ch)
+            score = min(cand[1] if entry != "ramp" else cand[3], cand[3])
+            if score > best[0] + 1e-9:
+                best = (score, int(j), ch, *cand)
+                if score >= lead_len:
+                    break
+        if best[1] != 0:
+            S0, S1 = chain.start[0], best[2].start[0]
+            notes.append(f"the lead did not fit at the seam {at(S0)}; the cut starts at {at(S1)} instead")
+        _, _, chain, lin, lin_len, lout, lout_len, ov = best
+    S = chain.start[0]
+    if lead != "none":
+        if entry != "ramp" and lin_len < lead_len:
+            notes.append(f"lead-in shrunk to {ln(lin_len)} to fit at {at(S)}" if lin else
+                         f"no lead-in fits at {at(S)}: the tool enters straight onto the path")
+        if lout_len < lead_len:
+            E = lout[0][1] if lout else (ov[-1][2] if ov else chain.end[-1])
+            notes.append(f"lead-out shrunk to {ln(lout_len)} to fit at {at(E)}" if lout else
+                         f"no lead-out fits at {at(E)}: the tool leaves straight up from the path")
+    plan = {"chain": chain, "lead_in": lin, "lead_out": lout, "overlap": ov,
+            "lead_in_length": lin_len, "lead_out_length": lout_len,
+            "overlap_length": overlap if closed else 0.0, "entry": entry, "helix_radius": 0.0,
+            "helix_center": None, "helix_ccw": True, "ramp": [], "notes": notes}
+    if lin_len == 0.0 and lout_len == 0.0 and lead != "none":
+        plan["lead"] = "none"
+    else:
+        plan["lead"] = lead
+    E0 = lin[0][1] if lin else S
+    if entry == "helix":
+        found = _helix_place(E0, tool_side(_tangent_at(chain, 0, False)), probe, r, tol)
+        if found is None:
+            # the ramp replaces the lead-in too: what was said about it no longer holds
+            notes[:] = [n for n in notes if not n.startswith(("lead-in", "no lead-in"))]
+            notes.append(f"no room for a helix at {at(E0)}; the tool ramps down along the path instead")
+            plan["entry"] = "ramp"
+        else:
+            plan["helix_center"], plan["helix_radius"] = found
+            if closed:
+                x, y = chain.start[:, 0], chain.start[:, 1]
+                plan["helix_ccw"] = bool(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)) >= 0)
+    if plan["entry"] == "ramp":  # the ramp enters along the path: no lead-in
+        plan["lead_in"], plan["lead_in_length"] = [], 0.0
+        plan["ramp"] = ramp_route(chain, pass_depth / ramp, closed=closed)
+        E0 = plan["ramp"][0][1]
+    plan["entry_xy"] = np.asarray(E0, float)
+    return plan
+
+
+def _helix_place(point, away, probe, r, tol):
+    """(center, radius) of a helix through ``point`` with room around it, or None."""
+    point = np.asarray(point, float)
+    away = np.asarray(away, float) / max(float(np.hypot(*away)), 1e-300)
+    angles = np.radians([0, 30, -30, 60, -60, 90, -90, 120, -120, 150, -150, 180])
+    dirs = np.c_[away[0] * np.cos(angles) - away[1] * np.sin(angles),
+                 away[0] * np.sin(angles) + away[1] * np.cos(angles)]
+    rho = 0.75 * r
+    while rho >= 0.1 * r:
+        centers = point + rho * dirs
+        if probe is None:
+            return centers[0], rho
+        room = probe.distance(centers)
+        ok = np.flatnonzero(room >= rho + r + tol)
+        if len(ok):
+            return centers[ok[0]], rho
+        rho *= 0.8
+    return None
+
+
 def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "arcs",
                   direction: str = "climb", seam=None, lead: str = "arc", lead_length=None,
                   depth: float = 1.0, step_down=None, safe_height: float = 5.0,
-                  plunge_feed=None, units: str = "mm") -> Toolpath:
+                  plunge_feed=None, units: str = "mm", entry: str = "plunge", ramp_angle=None,
+                  retract_height=None, overlap: float = 0.0) -> Toolpath:
     """Tool-center toolpath for a contour: offset, direction, seam, leads, passes.
 
     Parameters
@@ -326,6 +494,15 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     check_option("units", units, UNITS)
     depth = check_positive("depth", depth)
     safe_height = check_positive("safe_height", safe_height)
+    check_option("entry", entry, ENTRIES)
+    retract = min(1.0, safe_height) if retract_height is None else check_positive("retract_height", retract_height)
+    if retract > safe_height:
+        raise InputError(f"retract height {retract:g} mm is above the safe height {safe_height:g} mm; "
+                         "the retract height is just above the stock, the safe height clears the clamps")
+    ramp_angle = math.radians(3.0) if ramp_angle is None else ramp_angle
+    if not (isinstance(ramp_angle, (int, float)) and 0 < ramp_angle <= math.radians(45)):
+        raise InputError(f"ramp angle must be above 0 and at most 45 degrees, got {math.degrees(ramp_angle)!r} degrees")
+    overlap = check_positive("overlap", overlap, allow_zero=True)
     step = depth if step_down is None else check_positive("step_down", step_down)
     feed = cut.feed
     plunge = 0.5 * feed if plunge_feed is None else check_positive("plunge_feed", plunge_feed)
@@ -372,80 +549,110 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     if len(chain) == 0:
         raise InputError("the toolpath is empty: nothing of the contour can be cut with this tool")
 
-    # leads on the tool side
+    # leads, entry, passes: every move below the stock top (z = 0) is
+    # checked against the part before the path is returned
     n_out = np.sign(d) if d != 0 else -orient  # tool side along the left normal
-    S, E = chain.start[0], chain.end[-1]
-    Ts, Te = _tangent_at(chain, 0, False), _tangent_at(chain, len(chain) - 1, True)
+    probe = None
+    if d != 0.0:
+        from .clearance import Probe
 
-    def tool_side(point, t_dir):
-        # left normal of the contour's own direction, times the tool side sign
-        nl = np.array([-t_dir[1], t_dir[0]]) * (1.0 if forward else -1.0)
-        return n_out * nl
-
-    def max_radius(i, at_end):
-        if chain.kind[i] == LINE:
-            return np.inf
-        rr = float(np.hypot(*(chain.start[i] - chain.center[i])))
-        p = chain.end[i] if at_end else chain.start[i]
-        toward_center = chain.center[i] - p
-        t_dir = _tangent_at(chain, i, at_end)
-        return 0.45 * rr if toward_center @ tool_side(p, t_dir) > 0 else np.inf
-
-    lead_in, lead_out = [], []
-    if lead != "none":
-        lead_in = [_lead(S, Ts, tool_side(S, Ts), lead_len, lead, entering=True,
-                         max_radius=max_radius(0, False))]
-        lead_out = [_lead(E, Te, tool_side(E, Te), lead_len, lead, entering=False,
-                          max_radius=max_radius(len(chain) - 1, True))]
-    L0 = lead_in[0][1] if lead_in else S
+        probe = Probe(contour, tool_radius=r, side=cut.side, tolerance=tol)
     n_pass = max(1, math.ceil(depth / step - 1e-9))
-    rows = []  # (kind, start3, end3, center2, feed)
+    plan = _plan_entry(chain, closed=contour.closed, forward=forward, n_out=n_out, lead=lead,
+                       lead_len=lead_len, entry=entry, ramp=math.tan(ramp_angle), pass_depth=depth / n_pass,
+                       overlap=overlap, probe=probe, r=r, tol=tol, user_seam=seam is not None, units=units)
+    chain = plan["chain"]
+    S = chain.start[0]
+    if moves == "lines":
+        for key in ("lead_in", "lead_out"):
+            plan[key] = [ln for m in plan[key] for ln in
+                         (arc_as_lines(*m, tol) if m[0] != LINE else [m])]
+    blocks = []  # (kind, start3, end3, center2, feed, role) column blocks
+    roles = []
 
-    def add(kind, s2, e2, c2, z0, z1, f):
-        rows.append((kind, (s2[0], s2[1], z0), (e2[0], e2[1], z1), (c2[0], c2[1]), f))
+    def add(kind, s2, e2, c2, z0, z1, f, role):
+        blocks.append((np.array([kind], np.int8), np.array([[s2[0], s2[1], z0]], float),
+                       np.array([[e2[0], e2[1], z1]], float), np.array([[c2[0], c2[1]]], float),
+                       np.array([f], float)))
+        roles.append((role, 1))
+
+    def add_flat(mv, z, f, role):  # 2-D moves at one z
+        for kind, a, b, c in mv:
+            add(kind, a, b, c, z, z, f, role)
+
+    def add_sloped(mv, z0, z1, f, role):  # 2-D moves descending linearly with length
+        lengths = np.array([move_length(*m) for m in mv])
+        cum = np.concatenate([[0.0], np.cumsum(lengths)])
+        total = max(cum[-1], 1e-300)
+        for (kind, a, b, c), c0, c1 in zip(mv, cum[:-1], cum[1:]):
+            za, zb = z0 + (z1 - z0) * c0 / total, z0 + (z1 - z0) * c1 / total
+            if moves == "lines" and kind != LINE:
+                for lk, la, lb, lc in arc_as_lines(kind, (a[0], a[1], za), (b[0], b[1], zb), c, tol):
+                    add(lk, la, lb, lc, la[2], lb[2], f, role)
+            else:
+                add(kind, a, b, c, za, zb, f, role)
 
     origin = np.zeros(2)  # the center column of moves that are not arcs
-    # the path opens at the lead-in start at safe height: where the machine
-    # stands before is not known here, so no traverse from an assumed origin
-    add(RAPID, L0, L0, origin, safe_height, safe_height, 0.0)
+    E0 = plan["entry_xy"]
+    # the path opens above the entry at safe height: where the machine stands
+    # before is not known here, so no traverse from an assumed origin; then
+    # down at rapid to the retract height, just above the stock
+    add(RAPID, E0, E0, origin, safe_height, safe_height, 0.0, "traverse")
+    add(RAPID, E0, E0, origin, safe_height, retract, 0.0, "traverse")
     ck, cs, ce, cc, cf = _chain_toolpath(chain, 0.0, feed)
-    blocks = []
+    last_xy, z_last = E0, retract
     for k in range(1, n_pass + 1):
-        z = -depth * k / n_pass
-        if k > 1:
-            add(RAPID, last_xy, last_xy, origin, z_prev, safe_height, 0.0)
-            add(RAPID, last_xy, L0, origin, safe_height, safe_height, 0.0)
-        add(LINE, L0, L0, origin, safe_height, z, plunge)
-        for kind, a, b, c in lead_in:
-            add(kind, a, b, c, z, z, feed)
-        blocks.append(len(rows))
-        rows.append(None)  # the chain goes here
-        for kind, a, b, c in lead_out:
-            add(kind, a, b, c, z, z, feed)
-        last_xy = lead_out[-1][2] if lead_out else E
-        z_prev = z
-    add(RAPID, last_xy, last_xy, origin, z_prev, safe_height, 0.0)
-
-    kinds, starts, ends, centers, feeds = [], [], [], [], []
-    for k, row in enumerate(rows):
-        if row is None:
-            z = -depth * (blocks.index(k) + 1) / n_pass
-            kinds.append(ck)
-            starts.append(np.column_stack([cs[:, :2], np.full(len(ck), z)]))
-            ends.append(np.column_stack([ce[:, :2], np.full(len(ck), z)]))
-            centers.append(cc)
-            feeds.append(cf)
+        z, z_prev = -depth * k / n_pass, -depth * (k - 1) / n_pass
+        if k > 1:  # up to the retract height, across, and in again
+            add(RAPID, last_xy, last_xy, origin, z_last, retract, 0.0, "retract")
+            add(RAPID, last_xy, E0, origin, retract, retract, 0.0, "link")
+        if plan["entry"] == "plunge":
+            add(LINE, E0, E0, origin, retract, z, plunge, "plunge")
         else:
-            kinds.append(np.array([row[0]], np.int8))
-            starts.append(np.array([row[1]]))
-            ends.append(np.array([row[2]]))
-            centers.append(np.array([row[3]]))
-            feeds.append(np.array([row[4]]))
-    kind = np.concatenate(kinds)
-    start = np.vstack(starts)
-    end = np.vstack(ends)
-    center = np.vstack(centers)
-    feed_arr = np.concatenate(feeds)
+            # at the plunge feed down to the previous pass's floor (cut
+            # already, or air above the stock), then down the ramp or helix
+            add(LINE, E0, E0, origin, retract, z_prev, plunge, "plunge")
+            if plan["entry"] == "ramp":
+                add_sloped(plan["ramp"], z_prev, z, feed, "ramp")
+            else:
+                hx, _ = helix_moves(E0, plan["helix_center"], ccw=plan["helix_ccw"], z0=z_prev, z1=z,
+                                    slope=math.tan(ramp_angle))
+                for kind, a, b, c in hx:
+                    parts = arc_as_lines(kind, a, b, c, tol) if moves == "lines" else [(kind, a, b, c)]
+                    for pk, pa, pb, pc in parts:
+                        add(pk, pa, pb, pc, pa[2], pb[2], feed, "helix")
+        add_flat(plan["lead_in"], z, feed, "lead-in")
+        zs = np.full((len(ck), 1), z)
+        blocks.append((ck, np.hstack([cs[:, :2], zs]), np.hstack([ce[:, :2], zs]), cc, cf))
+        roles.append(("contour", len(ck)))
+        add_sloped(plan["overlap"], z, z, feed, "overlap")
+        add_flat(plan["lead_out"], z, feed, "lead-out")
+        last_xy = blocks[-1][2][-1, :2]
+        z_last = z
+    add(RAPID, last_xy, last_xy, origin, z_last, safe_height, 0.0, "retract")
+
+    kind = np.concatenate([b[0] for b in blocks])
+    start = np.vstack([b[1] for b in blocks])
+    end = np.vstack([b[2] for b in blocks])
+    center = np.vstack([b[3] for b in blocks])
+    feed_arr = np.concatenate([b[4] for b in blocks])
+    role_of = np.repeat(np.arange(len(roles)), [n for _, n in roles])
+    # the check on the final moves: refuse rather than return a path that
+    # cuts into the part anywhere below the stock top
+    found = None
+    if probe is not None:
+        found = probe.measure(kind, start, end, center, stock_top=0.0)
+        if not found.ok:
+            i = int(found.move)
+            role = roles[int(role_of[i])][0]
+            x, y, zz = found.where
+            k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
+            raise InputError(
+                f"the {role} move {i} would cut {(r - found.min_clearance) * k:.4f} {units} into the part at "
+                f"({x * k:.4f}, {y * k:.4f}, {zz * k:.4f}) (tool radius {r * k:g} {units}, tolerance "
+                f"{tol * k:g} {units}); "
+                f"try --lead none, a smaller --lead-length, another --seam or --entry, or a smaller tool"
+            )
     # feed per block from the machine's limits (curvature, acceleration,
     # block rate), never above the programmed feed; and the planned time
     from ..checks.feed import feeds_for_moves
@@ -465,8 +672,27 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
         "safe_height": float(safe_height),
         "plunge_feed": float(plunge),
         "feed": float(feed),
-        "lead": lead,
+        "lead": plan["lead"],
+        "lead_asked": lead,
         "lead_length": float(lead_len),
+        "lead_in_length": float(plan["lead_in_length"]),
+        "lead_out_length": float(plan["lead_out_length"]),
+        "entry": plan["entry"],
+        "entry_asked": entry,
+        "entry_xy": (float(E0[0]), float(E0[1])),
+        "ramp_angle": float(math.degrees(ramp_angle)),
+        "helix_radius": float(plan["helix_radius"]),
+        "helix_center": None if plan["helix_center"] is None or plan["entry"] != "helix" else
+        (float(plan["helix_center"][0]), float(plan["helix_center"][1])),
+        "retract_height": float(retract),
+        "stock_top": 0.0,
+        "overlap": float(plan["overlap_length"]),
+        "clearance": None if found is None else {
+            "min": float(found.min_clearance), "margin": float(found.margin),
+            "tool_radius": float(r), "x": float(found.where[0]), "y": float(found.where[1]),
+            "z": float(found.where[2]), "move": int(found.move),
+            "role": roles[int(role_of[found.move])][0] if found.move >= 0 else None},
+        "notes": list(plan["notes"]),
         "seam": seam_xy,
         "trimmed": spots,
         "blocks": {
@@ -488,9 +714,16 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
 def _to_inch(path: Toolpath, meta: dict) -> Toolpath:
     f = 1.0 / MM_PER_INCH
     info = dict(meta["info"])
-    for key in ("offset", "depth", "step_down", "safe_height", "plunge_feed", "feed", "lead_length"):
+    for key in ("offset", "depth", "step_down", "safe_height", "plunge_feed", "feed", "lead_length",
+                "lead_in_length", "lead_out_length", "helix_radius", "retract_height", "overlap"):
         info[key] = info[key] * f
     info["seam"] = (info["seam"][0] * f, info["seam"][1] * f)
+    info["entry_xy"] = (info["entry_xy"][0] * f, info["entry_xy"][1] * f)
+    if info.get("helix_center") is not None:
+        info["helix_center"] = (info["helix_center"][0] * f, info["helix_center"][1] * f)
+    if info.get("clearance"):
+        info["clearance"] = {k: (v * f if k in ("min", "margin", "tool_radius", "x", "y", "z") else v)
+                             for k, v in info["clearance"].items()}
     info["trimmed"] = [{**s, **{k: s[k] * f for k in ("x", "y", "radius") if k in s}} for s in info["trimmed"]]
     meta = {**meta, "units": "inch", "info": info}
     for key in ("tool_diameter", "tolerance", "deviation"):

@@ -65,7 +65,7 @@ import numpy as np
 from .._options import check_positive, side_sign
 from ..errors import InputError
 
-__all__ = ["Clearance", "clearance"]
+__all__ = ["Clearance", "clearance", "Probe"]
 
 RAPID, LINE, ARC_CW, ARC_CCW = 0, 1, 2, 3
 _TWO_PI = 2.0 * math.pi
@@ -451,112 +451,168 @@ def clearance(kind, start, end, center, contour, *, tool_radius, side, tolerance
     >>> c.ok, c.gouges[0][0], c.min_clearance < -9.0
     (False, 0, True)
     """
-    from scipy.spatial import cKDTree
+    return Probe(contour, tool_radius=tool_radius, side=side, tolerance=tolerance).measure(
+        kind, start, end, center, stock_top=stock_top)
 
-    r = check_positive("tool_radius", tool_radius)
-    tol = check_positive("tolerance", tolerance)
-    sgn = side_sign(side)
-    if sgn == 0:
-        raise InputError("clearance applies to cuts beside the contour (side 'outside' or 'inside'), not 'on'")
-    stock_top = float(stock_top)
-    kind = np.asarray(kind).astype(np.int8).reshape(-1)
-    n = len(kind)
-    start = np.asarray(start, dtype=np.float64).reshape(n, 3)
-    end = np.asarray(end, dtype=np.float64).reshape(n, 3)
-    center = np.asarray(center, dtype=np.float64).reshape(n, 2)
-    if not (np.all(np.isfinite(start)) and np.all(np.isfinite(end)) and np.all(np.isfinite(center))):
-        raise InputError("clearance: a move holds a coordinate that is not finite")
-    waste = sgn * _orientation(contour)  # + : waste on the contour's left
 
-    chord_error = tol / 20.0
-    tv = _polyline(contour, chord_error, h_cap=max(0.5 * r, 2.0 * tol))
-    V = contour(tv)
-    edge_len = np.hypot(*np.diff(V, axis=0).T)
-    h_max = float(edge_len.max()) if len(edge_len) else 0.0
-    h_med = float(np.median(edge_len)) if len(edge_len) else 1.0
-    step = float(np.clip(h_med, tol, max(0.5 * r, tol)))
-    sub, checked = _prepare(kind, start, end, center, stock_top, step)
-    m = len(sub["owner"])
-    empty = np.zeros(0, np.int64)
-    if m == 0:
-        return Clearance(math.inf, math.inf, -1, (math.nan, math.nan, math.nan), r, tol,
-                         empty, np.zeros(0), 0)
-    D = r + max(4.0 * tol, 0.05 * r)  # beyond this, exact values are not needed
-    nv = len(V)
-    ne = nv - 1
-    tree = cKDTree(V)
-    k = int(np.clip(math.ceil(3.0 * math.sqrt(r * (h_med + step)) / max(h_med, 1e-12)) + 4, 8, 48))
-    k = min(k, nv)
-    best_d = np.empty(m)
-    best_f = np.empty(m)
-    best_e = np.empty(m, np.int64)
-    for c0 in range(0, m, _CHUNK):
-        ids = np.arange(c0, min(m, c0 + _CHUNK))
-        mid_x, mid_y, _ = _point_on(sub, ids, np.full(len(ids), 0.5))
-        dist_k, vert = tree.query(np.c_[mid_x, mid_y], k=k)
-        dist_k = dist_k.reshape(len(ids), k)
-        vert = vert.reshape(len(ids), k)
-        # edges touching each near vertex: j - 1 and j
-        cand = np.concatenate([vert - 1, vert], axis=1)
-        valid = (cand >= 0) & (cand < ne)
-        cand = np.where(valid, cand, np.clip(cand, 0, ne - 1))
-        grp = np.repeat(ids, 2 * k)
-        d, f = _pairs(sub, grp, cand.ravel(), V)
-        d = np.where(valid.ravel(), d, np.inf).reshape(len(ids), 2 * k)
-        bd, bf, be = _reduce_rows(d, f.reshape(len(ids), 2 * k), cand)
-        # certificate: every edge not examined has both ends beyond the k-th
-        # vertex, so it is at least dist_k[-1] - h_max/2 - len/2 from the sub-move
-        reach = dist_k[:, -1] - 0.5 * h_max - 0.5 * (sub["len"][ids] + 0.0)
-        need = np.minimum(bd, D)
-        redo = np.flatnonzero((k < nv) & (reach < need))
-        if len(redo):
-            radius = need[redo] + 0.5 * h_max + 0.5 * sub["len"][ids[redo]] + 1e-9
-            lists = tree.query_ball_point(np.c_[mid_x[redo], mid_y[redo]], radius)
-            counts = np.fromiter((len(x) for x in lists), np.int64, len(lists))
-            if counts.sum():
-                verts = np.concatenate([np.asarray(x, np.int64) for x in lists if len(x)])
-                g2 = np.repeat(redo, counts)
-                cand2 = np.concatenate([verts - 1, verts])
-                g2 = np.concatenate([g2, g2])
-                ok2 = (cand2 >= 0) & (cand2 < ne)
-                g2, cand2 = g2[ok2], cand2[ok2]
-                d2, f2 = _pairs(sub, ids[g2], cand2, V)
-                bd2, bf2, be2 = _reduce(g2, d2, f2, cand2, len(ids))
-                better = bd2 < bd
-                bd = np.where(better, bd2, bd)
-                bf = np.where(better, bf2, bf)
-                be = np.where(better, be2, be)
-        best_d[ids], best_f[ids], best_e[ids] = bd, bf, be
-    # exact distance to the curve at each sub-move's closest point, and its side
-    every = np.arange(m)
-    px, py, _ = _point_on(sub, every, best_f)
-    _, u = _pt_seg(px, py, V[best_e, 0], V[best_e, 1], V[best_e + 1, 0], V[best_e + 1, 1])
-    # near sub-moves: exact distance to the curve; far ones keep the polyline's
-    near = np.flatnonzero(best_d <= D + chord_error)
-    dist = best_d.copy()
-    te = tv[best_e] + (tv[best_e + 1] - tv[best_e]) * u
-    q, tg = contour(te), contour(te, 1)
-    left = np.sign(tg[:, 0] * (py - q[:, 1]) - tg[:, 1] * (px - q[:, 0]))
-    if len(near):
-        dist[near], best_f[near], left[near] = _refine(contour, tv, best_e[near], u[near], sub, near,
-                                                       best_f[near])
-    px, py, pz = _point_on(sub, every, best_f)
-    signed = np.where(left * waste < 0, -dist, dist)
-    # per move: the smallest signed clearance of its sub-moves
-    owner = sub["owner"]
-    per_move = np.full(n, np.inf)
-    np.minimum.at(per_move, owner, signed)
-    i = int(np.argmin(signed))
-    mc = float(signed[i])
-    bad = np.flatnonzero(per_move < r - tol)
-    return Clearance(
-        min_clearance=mc,
-        margin=mc - r,
-        move=int(owner[i]),
-        where=(float(px[i]), float(py[i]), float(pz[i])),
-        tool_radius=r,
-        tolerance=tol,
-        gouge_index=bad.astype(np.int64),
-        gouge_depth=r - per_move[bad],
-        checked=int(checked),
-    )
+class Probe:
+    """The contour prepared once for many clearance questions (the polyline
+    and its KD-tree): :meth:`measure` answers :func:`clearance` for moves,
+    :meth:`distance` gives the signed distance of points (+ on the waste
+    side).  Used by the toolpath builder to try leads and entries."""
+
+    def __init__(self, contour, *, tool_radius, side, tolerance):
+        from scipy.spatial import cKDTree
+
+        self.r = r = check_positive("tool_radius", tool_radius)
+        self.tol = tol = check_positive("tolerance", tolerance)
+        sgn = side_sign(side)
+        if sgn == 0:
+            raise InputError("clearance applies to cuts beside the contour (side 'outside' or 'inside'), not 'on'")
+        self.contour = contour
+        self.waste = sgn * _orientation(contour)  # + : waste on the contour's left
+        self.chord_error = tol / 20.0
+        self.tv = tv = _polyline(contour, self.chord_error, h_cap=max(0.5 * r, 2.0 * tol))
+        self.V = V = contour(tv)
+        edge_len = np.hypot(*np.diff(V, axis=0).T)
+        self.h_max = float(edge_len.max()) if len(edge_len) else 0.0
+        self.h_med = h_med = float(np.median(edge_len)) if len(edge_len) else 1.0
+        self.step = float(np.clip(h_med, tol, max(0.5 * r, tol)))
+        self.tree = cKDTree(V)
+
+    def distance(self, xy) -> np.ndarray:
+        """Signed distance (mm) of points (k, 2) to the contour: + on the waste side."""
+        xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
+        k = len(xy)
+        z = np.full((k, 1), -1.0)
+        pts = np.hstack([xy, z])
+        res = self._measure(np.full(k, LINE, np.int8), pts, pts, np.zeros((k, 2)), 0.0, per_move=True)
+        return res
+
+    def measure(self, kind, start, end, center, *, stock_top: float = 0.0) -> "Clearance":
+        """:func:`clearance` of these moves against the prepared contour."""
+        kind = np.asarray(kind).astype(np.int8).reshape(-1)
+        n = len(kind)
+        start = np.asarray(start, dtype=np.float64).reshape(n, 3)
+        end = np.asarray(end, dtype=np.float64).reshape(n, 3)
+        center = np.asarray(center, dtype=np.float64).reshape(n, 2)
+        if not (np.all(np.isfinite(start)) and np.all(np.isfinite(end)) and np.all(np.isfinite(center))):
+            raise InputError("clearance: a move holds a coordinate that is not finite")
+        return self._measure(kind, start, end, center, float(stock_top))
+
+    def per_move(self, kind, start, end, center, *, stock_top: float = 0.0) -> np.ndarray:
+        """Smallest signed clearance of each move (inf for moves above the stock top)."""
+        kind = np.asarray(kind).astype(np.int8).reshape(-1)
+        n = len(kind)
+        return self._measure(kind, np.asarray(start, float).reshape(n, 3), np.asarray(end, float).reshape(n, 3),
+                             np.asarray(center, float).reshape(n, 2), float(stock_top), per_move=True)
+
+    def _measure(self, kind, start, end, center, stock_top, per_move=False):
+        r, tol, V, tv, tree = self.r, self.tol, self.V, self.tv, self.tree
+        contour, chord_error, h_max, h_med, step = self.contour, self.chord_error, self.h_max, self.h_med, self.step
+        n = len(kind)
+        sub, checked = _prepare(kind, start, end, center, stock_top, step)
+        m = len(sub["owner"])
+        empty = np.zeros(0, np.int64)
+        if m == 0:
+            if per_move:
+                return np.full(n, np.inf)
+            return Clearance(math.inf, math.inf, -1, (math.nan, math.nan, math.nan), r, tol,
+                             empty, np.zeros(0), 0)
+        D = r + max(4.0 * tol, 0.05 * r)  # beyond this, exact values are not needed
+        nv = len(V)
+        ne = nv - 1
+        # a few nearest vertices settle most sub-moves; the rest are asked
+        # again with more, and then with a ball query
+        k_big = int(np.clip(math.ceil(3.0 * math.sqrt(r * (h_med + step)) / max(h_med, 1e-12)) + 4, 8, 48))
+        levels = sorted({min(8, nv), min(k_big, nv)})
+        best_d = np.empty(m)
+        best_f = np.empty(m)
+        best_e = np.empty(m, np.int64)
+
+        def examine(rows, ids, mid_x, mid_y, k):
+            dist_k, vert = tree.query(np.c_[mid_x[rows], mid_y[rows]], k=k)
+            dist_k = dist_k.reshape(len(rows), k)
+            vert = vert.reshape(len(rows), k)
+            # edges touching each near vertex: j - 1 and j
+            cand = np.concatenate([vert - 1, vert], axis=1)
+            valid = (cand >= 0) & (cand < ne)
+            cand = np.where(valid, cand, np.clip(cand, 0, ne - 1))
+            grp = np.repeat(ids[rows], 2 * k)
+            d, f = _pairs(sub, grp, cand.ravel(), V)
+            d = np.where(valid.ravel(), d, np.inf).reshape(len(rows), 2 * k)
+            bd, bf, be = _reduce_rows(d, f.reshape(len(rows), 2 * k), cand)
+            # certificate: every edge not examined has both ends beyond the k-th
+            # vertex, so it is at least dist_k[-1] - h_max/2 - len/2 from the sub-move
+            reach = dist_k[:, -1] - 0.5 * h_max - 0.5 * sub["len"][ids[rows]]
+            proven = (k >= nv) | (reach >= np.minimum(bd, D))
+            return bd, bf, be, proven
+
+        for c0 in range(0, m, _CHUNK):
+            ids = np.arange(c0, min(m, c0 + _CHUNK))
+            mid_x, mid_y, _ = _point_on(sub, ids, np.full(len(ids), 0.5))
+            bd = np.full(len(ids), np.inf)
+            bf = np.zeros(len(ids))
+            be = np.zeros(len(ids), np.int64)
+            rows = np.arange(len(ids))
+            for k in levels:
+                d_, f_, e_, proven = examine(rows, ids, mid_x, mid_y, k)
+                bd[rows], bf[rows], be[rows] = d_, f_, e_
+                rows = rows[~proven]
+                if not len(rows):
+                    break
+            need = np.minimum(bd, D)
+            redo = rows
+            if len(redo):
+                radius = need[redo] + 0.5 * h_max + 0.5 * sub["len"][ids[redo]] + 1e-9
+                lists = tree.query_ball_point(np.c_[mid_x[redo], mid_y[redo]], radius)
+                counts = np.fromiter((len(x) for x in lists), np.int64, len(lists))
+                if counts.sum():
+                    verts = np.concatenate([np.asarray(x, np.int64) for x in lists if len(x)])
+                    g2 = np.repeat(redo, counts)
+                    cand2 = np.concatenate([verts - 1, verts])
+                    g2 = np.concatenate([g2, g2])
+                    ok2 = (cand2 >= 0) & (cand2 < ne)
+                    g2, cand2 = g2[ok2], cand2[ok2]
+                    d2, f2 = _pairs(sub, ids[g2], cand2, V)
+                    bd2, bf2, be2 = _reduce(g2, d2, f2, cand2, len(ids))
+                    better = bd2 < bd
+                    bd = np.where(better, bd2, bd)
+                    bf = np.where(better, bf2, bf)
+                    be = np.where(better, be2, be)
+            best_d[ids], best_f[ids], best_e[ids] = bd, bf, be
+        # exact distance to the curve at each sub-move's closest point, and its side
+        every = np.arange(m)
+        px, py, _ = _point_on(sub, every, best_f)
+        _, u = _pt_seg(px, py, V[best_e, 0], V[best_e, 1], V[best_e + 1, 0], V[best_e + 1, 1])
+        # near sub-moves: exact distance to the curve; far ones keep the polyline's
+        near = np.flatnonzero(best_d <= D + chord_error)
+        dist = best_d.copy()
+        te = tv[best_e] + (tv[best_e + 1] - tv[best_e]) * u
+        q, tg = contour(te), contour(te, 1)
+        left = np.sign(tg[:, 0] * (py - q[:, 1]) - tg[:, 1] * (px - q[:, 0]))
+        if len(near):
+            dist[near], best_f[near], left[near] = _refine(contour, tv, best_e[near], u[near], sub, near,
+                                                           best_f[near])
+        px, py, pz = _point_on(sub, every, best_f)
+        signed = np.where(left * self.waste < 0, -dist, dist)
+        # per move: the smallest signed clearance of its sub-moves
+        owner = sub["owner"]
+        per = np.full(n, np.inf)
+        np.minimum.at(per, owner, signed)
+        if per_move:
+            return per
+        i = int(np.argmin(signed))
+        mc = float(signed[i])
+        bad = np.flatnonzero(per < r - tol)
+        return Clearance(
+            min_clearance=mc,
+            margin=mc - r,
+            move=int(owner[i]),
+            where=(float(px[i]), float(py[i]), float(pz[i])),
+            tool_radius=r,
+            tolerance=tol,
+            gouge_index=bad.astype(np.int64),
+            gouge_depth=r - per[bad],
+            checked=int(checked),
+        )

@@ -9,8 +9,10 @@ Iterating over a toolpath yields the immutable primitives
 Conventions
 -----------
 * Coordinates are (x, y, z) in the toolpath's ``units`` (mm unless said).
-* An arc lies in the XY plane at constant z (start z == end z); ``ccw`` is
-  True for counter-clockwise as seen from +Z (G3), False for clockwise (G2).
+* An arc turns in the XY plane; ``ccw`` is True for counter-clockwise as
+  seen from +Z (G3), False for clockwise (G2).  Its z is constant, except
+  in ramp and helix entries, where z changes linearly with the swept angle
+  (a helical move, G2/G3 with a Z word).
 * ``feed`` is in units per minute; a rapid has feed 0 (the machine's rapid).
 
 Move kinds (``Toolpath.kind``): ``RAPID = 0``, ``LINE = 1``, ``ARC_CW = 2``,
