@@ -640,14 +640,14 @@ def write_gcode(toolpath: Toolpath, path, *, force: bool = False, check=None, **
         The path written.  Nothing is written if any check fails.
     """
     unknown = set(options) - {"program_name", "source", "spindle_speed", "line_numbers", "single_feed", "decimals",
-                              "frame"}
+                              "frame", "notes"}
     if unknown:
         raise InputError(f"write_gcode got unknown option(s): {', '.join(sorted(unknown))}")
     p = Path(os.fspath(path))
     options.setdefault("program_name", p.stem)
     text = gcode_text(toolpath, **options)
     if check is not None:
-        notes = list(check(text))
+        notes = list(options.pop("notes", ())) + list(check(text))
         checked = text
         text = gcode_text(toolpath, notes=notes, **options)
         if _code(text) != _code(checked):  # pragma: no cover - the notes are comments only

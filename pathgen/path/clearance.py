@@ -108,6 +108,17 @@ def _orientation(contour) -> float:
     return 1.0 if shoelace >= 0 else -1.0
 
 
+def _inside(V, px, py) -> np.ndarray:
+    """True where points (px, py) lie inside the closed polygon V (k, 2),
+    by shapely's vectorized containment test (GEOS)."""
+    import shapely
+
+    ring = V if np.array_equal(V[0], V[-1]) else np.vstack([V, V[:1]])
+    poly = shapely.Polygon(ring)
+    shapely.prepare(poly)
+    return shapely.contains_xy(poly, np.asarray(px, float), np.asarray(py, float))
+
+
 def _polyline(contour, chord_error: float, h_cap: float, most: int = 3_000_000):
     """Parameters of polyline vertices: sagitta <= chord_error, spacing <= h_cap,
     every corner and both ends included.  Returns sorted t (ends included)."""
@@ -470,7 +481,8 @@ class Probe:
         if sgn == 0:
             raise InputError("clearance applies to cuts beside the contour (side 'outside' or 'inside'), not 'on'")
         self.contour = contour
-        self.waste = sgn * _orientation(contour)  # + : waste on the contour's left
+        self.orient = _orientation(contour)
+        self.waste = sgn * self.orient  # + : waste on the contour's left
         self.chord_error = tol / 20.0
         self.tv = tv = _polyline(contour, self.chord_error, h_cap=max(0.5 * r, 2.0 * tol))
         self.V = V = contour(tv)
@@ -595,6 +607,13 @@ class Probe:
             dist[near], best_f[near], left[near] = _refine(contour, tv, best_e[near], u[near], sub, near,
                                                            best_f[near])
         px, py, pz = _point_on(sub, every, best_f)
+        if contour.closed:
+            # the side of a closed contour is inside or outside it: the normal
+            # at the nearest point cannot tell it where that point is a corner
+            # (a tool center beyond a convex corner has no normal pointing at
+            # it), a point-in-polygon test on the polyline can
+            inside = _inside(V, px, py)
+            left = np.where(inside, 1.0, -1.0) * self.orient
         signed = np.where(left * self.waste < 0, -dist, dist)
         # per move: the smallest signed clearance of its sub-moves
         owner = sub["owner"]
