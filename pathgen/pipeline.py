@@ -26,7 +26,7 @@ from pathlib import Path
 from ._options import MM_PER_INCH, SIDES, UNITS, check_flag, check_option, check_positive
 from .errors import InputError, PathgenError
 
-__all__ = ["run", "Result", "MOVES", "LEADS", "contour_facts"]
+__all__ = ["run", "run_part", "Result", "MOVES", "LEADS", "contour_facts"]
 
 MOVES = ("arcs", "lines")
 LEADS = ("arc", "line", "none")
@@ -395,6 +395,15 @@ def run(
     else:
         source, path = "<array>", None
     _refuse_clobber(targets, path)
+    if path is not None and _is_part(path):  # a drawing, or several outlines: the part job
+        return run_part(path, closed=closed, end=end, param=param, units=units, smooth=smooth,
+                        corner_angle=corner_angle, layer=layer, machine=machine,
+                        tool_diameter=tool_diameter, feed=feed, accel=accel, side=side,
+                        tolerance=tolerance, moves=moves, depth=depth, step_down=step_down,
+                        safe_height=safe_height, seam=seam, lead=lead, direction=direction,
+                        plunge_feed=plunge_feed, spindle_speed=spindle_speed, one_feed=one_feed,
+                        line_numbers=line_numbers, allow_crossing=allow_crossing, gcode=gcode,
+                        dxf=dxf, report=report, plot=plot, force=force, progress=progress)
     from .points import clean_points, read_points
 
     if path is not None:
@@ -488,6 +497,23 @@ def run(
     notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]
     return Result(source, outline, contour, report=rep, toolpath=tp, facts=facts,
                   timings=timings, files=files, units=units, notes=tuple(notes))
+
+
+def _is_part(path) -> bool:
+    from .part import is_part_input
+
+    return is_part_input(path)
+
+
+def run_part(points, **options):
+    """The whole job on a part: every closed outline of a drawing or of a
+    text file of several outlines, nested (holes inside, outer outlines
+    outside), in one program with the holes first.  See
+    :func:`pathgen.partjob.run_part` for the options; :func:`run` hands part
+    files here by itself."""
+    from .partjob import run_part as _run_part
+
+    return _run_part(points, **options)
 
 
 # -- many files -----------------------------------------------------------------
