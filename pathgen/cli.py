@@ -108,6 +108,14 @@ def _number(text: str) -> float:
         raise argparse.ArgumentTypeError(f"expected a number, got {text!r}") from None
 
 
+def _keyed_side(text: str):
+    key, sep, side = text.partition("=")
+    if not sep or not key.strip() or side.strip() not in ("outside", "inside", "on"):
+        raise argparse.ArgumentTypeError(f"expected KEY=SIDE with SIDE outside, inside or on, got {text!r}")
+    key = key.strip()
+    return (int(key) if key.isdigit() else key), side.strip()
+
+
 def _angle(text: str):
     return "off" if text.strip().lower() == "off" else _number(text)
 
@@ -160,6 +168,19 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                    help="milling direction with a clockwise (M3) spindle (default: climb)")
     g.add_argument("--plunge-feed", type=_number, metavar="F",
                    help="feed of the plunge to depth per minute (default: half the cutting feed)")
+
+    g = p.add_argument_group("part (a drawing, or a text file of several outlines)")
+    g.add_argument("--join-gap", type=_number, metavar="G",
+                   help="DXF: join open lines, arcs and curves whose ends lie within G (default: 0.01 mm)")
+    g.add_argument("--outline-side", action="append", metavar="KEY=SIDE", type=_keyed_side,
+                   help="cut outline number KEY (or the outlines on layer KEY) outside, inside or on; "
+                        "repeat for more (default: from the nesting, holes inside)")
+    g.add_argument("--tabs", type=int, metavar="N", help="N tabs on each outer outline (through-cuts)")
+    g.add_argument("--tab-spacing", type=_number, metavar="L", help="about one tab per L of outer outline")
+    g.add_argument("--tab-width", type=_number, metavar="W",
+                   help="width of the bridge each tab leaves (default: the tool diameter, at least 3 mm)")
+    g.add_argument("--tab-height", type=_number, metavar="H",
+                   help="height of the tabs above the bottom of the cut (default: half the depth, at most 1 mm)")
 
     if program:
         g = p.add_argument_group("program")
@@ -292,6 +313,8 @@ def _run_options(a) -> dict:
         direction=a.direction, plunge_feed=a.plunge_feed,
         spindle_speed=getattr(a, "spindle_speed", None), one_feed=getattr(a, "one_feed", False),
         line_numbers=getattr(a, "line_numbers", False), allow_crossing=a.allow_crossing,
+        join_gap=a.join_gap, sides=dict(a.outline_side) if a.outline_side else None, tabs=a.tabs,
+        tab_spacing=a.tab_spacing, tab_width=a.tab_width, tab_height=a.tab_height,
     )
 
 

@@ -9,7 +9,9 @@ Reading
 * a text file of points holding several outlines, in either form:
 
   - **blocks**: the outlines one after another, separated by one or more
-    blank lines (comment lines starting with ``#`` do not separate);
+    blank lines (comment lines starting with ``#`` do not separate); every
+    block has at least 3 points, else the blank lines are ignored and the
+    file holds one outline, as before;
   - **outline column**: a header line naming the columns ``x``, ``y`` and
     ``outline`` (in any order, separated like the numbers); rows with the
     same outline number form one outline, in file order.
@@ -119,8 +121,8 @@ def text_outlines(path) -> tuple[list, list] | None:
         cur.append((n, s))
     if cur:
         blocks.append(cur)
-    if len(blocks) < 2:
-        return None
+    if len(blocks) < 2 or min(len(b) for b in blocks) < 3:
+        return None  # one outline with blank lines in it (a block too short to be an outline)
     out = []
     for b in blocks:
         rows = []

@@ -14,6 +14,8 @@ import os
 from dataclasses import dataclass, field
 from pathlib import Path
 
+import numpy as np
+
 from ._options import MM_PER_INCH, SIDES, UNITS, check_option, check_positive
 from .errors import InputError
 
@@ -66,6 +68,8 @@ class PartReport:
             row["kind"] = "outer" if r["level"] % 2 == 0 else "hole"
             if r["drawn"]:
                 row["drawn"] = dict(r["drawn"])
+            row["tabs"] = [{"x": t["x"] / k, "y": t["y"] / k, "s": t["s"] / k, "width": t["width"] / k,
+                            "height": t["height"] / k} for t in r.get("tabs", [])]
             row["check"] = r["report"].to_dict(units=units)
             out["outlines"].append(row)
         return out
@@ -85,6 +89,9 @@ class PartReport:
                          f"cut {r['side']}; length {rep.length / k:.4f} {u}, smallest radius {rtxt}, "
                          f"{len(rep.corners)} sharp corners, {len(rep.tight_spots)} tight spots, "
                          f"largest tool {btxt}")
+            for t in r.get("tabs", []):
+                lines.append(f"     tab {t['width'] / k:.4g} {u} wide, {t['height'] / k:.4g} {u} high, tool "
+                             f"center at ({t['x'] / k:.4f}, {t['y'] / k:.4f}) {u}")
         big = self.largest_tool_diameter
         lines.append(f"largest tool for the part: "
                      f"{'any' if big is None or not math.isfinite(big) else f'{big / k:.4f} {u}'}")
@@ -193,12 +200,74 @@ def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes
                      f"(more than the tolerance {tol:g} mm), even without leads; use a smaller tool")
 
 
+def _tab_options(tabs, spacing, width, height, scale, tool_mm, depth):
+    """Tab options in mm, checked; None when no tabs are asked for."""
+    if tabs is None and spacing is None:
+        if width is not None or height is not None:
+            raise InputError("tab width and height need tabs= (--tabs N) or tab_spacing= (--tab-spacing L)")
+        return None
+    if tabs is not None and spacing is not None:
+        raise InputError("give tabs= (--tabs N) or tab_spacing= (--tab-spacing L), not both")
+    if tabs is not None and (isinstance(tabs, bool) or not isinstance(tabs, int) or tabs < 1 or tabs > 100):
+        raise InputError(f"tabs must be a whole number from 1 to 100, got {tabs!r}")
+    if depth is None:
+        raise InputError("tabs hold a part cut through: give the depth (depth=, --depth)")
+    d = check_positive("depth", depth) * scale
+    tool = tool_mm or 0.0
+    w = max(3.0, tool) if width is None else check_positive("tab width", width) * scale
+    h = min(1.0, 0.5 * d) if height is None else check_positive("tab height", height) * scale
+    if h >= d:
+        raise InputError(f"tab height {h / scale:g} must be below the depth {d / scale:g}")
+    sp = None if spacing is None else check_positive("tab spacing", spacing) * scale
+    return {"count": tabs, "spacing": sp, "width": w, "height": h}
+
+
+def _with_tabs(tp, outline, contour, rep, opts, units):
+    """One outline's toolpath with tabs (see :mod:`pathgen.path.tabs`)."""
+    import numpy as np
+    from scipy.spatial import cKDTree
+
+    from .path.tabs import add_tabs, place_tabs
+
+    k = MM_PER_INCH if units == "inch" else 1.0  # toolpath units → mm
+    b = contour.breaks
+    per = np.maximum(1, np.ceil(np.diff(contour.arc_length(b)) / 0.02)).astype(int)  # samples 0.02 mm apart
+    t = np.concatenate([b[i] + (b[i + 1] - b[i]) * np.arange(n) / n for i, n in enumerate(per)])
+    tree = cKDTree(contour(t))
+
+    def edge_distance(p):
+        return tree.query(np.asarray(p) * k)[0] / k
+
+    if opts["count"] is not None:
+        count = opts["count"]
+    else:
+        count = max(1, round(contour.length / opts["spacing"]))
+    spots = [(s.x / k, s.y / k) for s in rep.tight_spots]
+    try:
+        tabs = place_tabs(tp, count=count, width=opts["width"] / k, edge_distance=edge_distance, spots=spots)
+    except InputError as exc:
+        raise InputError(f"{exc} (tab width {opts['width'] / k:g} {units}, tool {tp.tool_diameter:g} {units})") from None
+    out = add_tabs(tp, tabs, height=opts["height"] / k)
+    out.info["tabs"] = [dict(t, width=opts["width"] / k, points=tt["points"]) for t, tt in zip(out.info["tabs"], tabs)]
+    return out
+
+
+def _tabs_mm(tp, k):
+    """The tabs of a toolpath (info["tabs"]), in mm for the drawing and picture."""
+    f = 1.0 / k  # toolpath units → mm
+    h = tp.info.get("tab_height")
+    return [{"x": t["x"] * f, "y": t["y"] * f, "s": t["s"] * f, "width": t["width"] * f,
+             "height": h * f, "points": (np.asarray(t["points"]) * f).tolist()}
+            for t in tp.info.get("tabs", [])]
+
+
 def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None, closed=None,
              end: str = "not-a-knot", param: str = "chord", smooth=None, corner_angle=None,
              machine=None, tool_diameter=None, feed=None, accel=None, side=None, tolerance=None,
              moves: str = "arcs", depth=None, step_down=None, safe_height=None, seam=None,
              lead: str = "arc", direction: str = "climb", plunge_feed=None, spindle_speed=None,
              one_feed: bool = False, line_numbers: bool = False, allow_crossing: bool = False,
+             tabs=None, tab_spacing=None, tab_width=None, tab_height=None,
              gcode=None, dxf=None, report=None, plot=None, force: bool = False, progress=None):
     """Run the whole job on a part file: every closed outline, nested, in one program.
 
@@ -207,6 +276,12 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     overriding the nesting) and ``join_gap`` (DXF: open elements whose ends
     lie within it are joined, default 0.01 mm).  ``side`` and ``seam`` apply
     to single outlines and are refused here (use ``sides``).
+
+    Tabs (outer outlines cut outside, i.e. the cuts that free a part):
+    ``tabs`` (a count per outline) or ``tab_spacing`` (about one tab per
+    that length of path), ``tab_width`` (the bridge left, default the tool
+    diameter but at least 3 mm), ``tab_height`` (default half the depth,
+    at most 1 mm); lengths in ``units``.  See :mod:`pathgen.path.tabs`.
 
     Returns
     -------
@@ -286,6 +361,9 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
                 contours.append(timed("fit", fit_outline, o.outline, **fit_kw))
         except InputError as exc:
             raise InputError(f"outline {o.number} ({o.where}): {exc}") from None
+    tab_opts = _tab_options(tabs, tab_spacing, tab_width, tab_height, scale, tool_mm, depth)
+    if tab_opts and not makes_path:
+        tab_opts = None  # tabs belong to a program
     material = _material(outlines, contours) if makes_path else None
     lead_notes = []
     for o, s, c in zip(outlines, side_list, contours):
@@ -305,6 +383,8 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
                 if s != "on":
                     tp = timed("clearance", _clear_leads, tp, c, tool, cut, mach, kw, material, tol_mm,
                                o, lead_notes)
+                if tab_opts and s == "outside" and levels[len(paths)] % 2 == 0:
+                    tp = timed("tabs", _with_tabs, tp, o, c, rep, tab_opts, units)
         except InputError as exc:
             raise InputError(f"outline {o.number} ({o.where}, cut {s}): {exc}") from None
         reports.append(rep)
@@ -329,7 +409,9 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     rapid_mm = joined.info["rapid_length"] / k if joined is not None else 0.0
     rows = tuple({"number": o.number, "where": o.where, "layer": o.layer, "level": levels[i],
                   "side": side_list[i], "order": rank[i], "report": reports[i],
-                  "drawn": contours[i].info.get("drawn")} for i, o in enumerate(outlines))
+                  "drawn": contours[i].info.get("drawn"),
+                  "tabs": _tabs_mm(paths[i], k) if paths[i] is not None else []}
+                 for i, o in enumerate(outlines))
     prep = PartReport(rows, rapid_length=rapid_mm,
                       program_time=None if joined is None else float(joined.time))
     lengths = [r.length for r in reports]
@@ -371,13 +453,15 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
             from .export.part import write_part_dxf
 
             timed("dxf", write_part_dxf, tmp["dxf"], outlines, contours, rows,
-                  toolpaths=paths if makes_path else None, units=units, tolerance=tol_mm)
+                  toolpaths=paths if makes_path else None, units=units, tolerance=tol_mm,
+                  tabs=[t for r in rows for t in r["tabs"]])
             files["dxf"] = final["dxf"]
         if "plot" in tmp:
             from .export.part import plot_part
 
             timed("plot", plot_part, tmp["plot"], contours, rows,
-                  toolpaths=paths if makes_path else None, units=units)
+                  toolpaths=paths if makes_path else None, units=units,
+                  tabs=[t for r in rows for t in r["tabs"]])
             files["plot"] = final["plot"]
         stage.commit()
     notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]

@@ -268,6 +268,12 @@ def run(
     plot=None,
     force: bool = False,
     progress=None,
+    join_gap=None,
+    sides=None,
+    tabs=None,
+    tab_spacing=None,
+    tab_width=None,
+    tab_height=None,
 ) -> Result:
     """Run the whole job on a points file or an (n, 2) array.
 
@@ -329,6 +335,10 @@ def run(
         Overwrite existing files.
     progress : callable(str) or None
         Called with each stage's name as it starts (for long work).
+    join_gap, sides, tabs, tab_spacing, tab_width, tab_height
+        For parts (see :func:`run_part`): a drawing, a text file of several
+        outlines, or any closed outline file when tabs are asked for, is
+        run by :func:`run_part`, which returns a ``PartResult``.
 
     Returns
     -------
@@ -395,8 +405,11 @@ def run(
     else:
         source, path = "<array>", None
     _refuse_clobber(targets, path)
-    if path is not None and _is_part(path):  # a drawing, or several outlines: the part job
-        return run_part(path, closed=closed, end=end, param=param, units=units, smooth=smooth,
+    part_opts = {"join_gap": join_gap, "sides": sides, "tabs": tabs, "tab_spacing": tab_spacing,
+                 "tab_width": tab_width, "tab_height": tab_height}
+    wants_part = any(v is not None for v in part_opts.values())
+    if path is not None and (wants_part or _is_part(path)):  # a drawing, several outlines, tabs
+        return run_part(path, **part_opts, closed=closed, end=end, param=param, units=units, smooth=smooth,
                         corner_angle=corner_angle, layer=layer, machine=machine,
                         tool_diameter=tool_diameter, feed=feed, accel=accel, side=side,
                         tolerance=tolerance, moves=moves, depth=depth, step_down=step_down,

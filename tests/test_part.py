@@ -386,3 +386,126 @@ def test_part_program_same_bytes_twice(tmp_path):
     run(path, tool_diameter=TOOL, gcode=tmp_path / "b" / "p.nc", report=tmp_path / "b" / "p.json")
     for name in ("p.nc", "p.json", "p.txt"):
         assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes()
+
+
+# -- tabs (common practice: uncut bridges on flat stretches, the tool rises over them) -----------
+
+
+def _deep_xy_runs(prog, z):
+    """Runs of consecutive XY cutting moves at height z, as (k, 3) samples."""
+    runs, cur = [], []
+    for m in prog.moves:
+        if None in m.start:
+            continue
+        flat = m.g != 0 and abs(m.start[2] - z) < 1e-9 and abs(m.end[2] - z) < 1e-9 and \
+            (m.start[:2] != m.end[:2] or m.g in (2, 3))
+        if flat:
+            cur.append(m)
+        elif cur:
+            runs.append(cur)
+            cur = []
+    if cur:
+        runs.append(cur)
+    return runs
+
+
+def _move_length(m):
+    s = sample_move(m, 0.01)
+    return float(np.hypot(*np.diff(s[:, :2], axis=0).T).sum())
+
+
+@pytest.mark.parametrize("count, width, height", [(4, 5.0, 1.2), (3, 8.0, 0.5)])
+def test_tabs_depth_count_and_width_read_back(tmp_path, count, width, height):
+    depth = 3.0
+    path = plate_dxf(tmp_path / "plate.dxf")
+    res = run(path, tool_diameter=TOOL, depth=depth, step_down=1.0, tabs=count, tab_width=width,
+              tab_height=height, gcode=tmp_path / "p.nc", report=tmp_path / "p.json")
+    prog = read_gcode((tmp_path / "p.nc").read_text())
+    z_top = -(depth - height)
+    # the moves over the tabs: at depth − tab height, read back from the program
+    over = _deep_xy_runs(prog, round(z_top, 4))
+    deep_passes = sum(1 for z in (-1.0, -2.0, -3.0) if z < z_top)
+    assert len(over) == count * deep_passes
+    for run_moves in over:
+        # the tool center rises over the tab width plus the tool diameter, so the
+        # bridge left in the part is the tab width
+        assert sum(_move_length(m) for m in run_moves) == pytest.approx(width + TOOL, abs=2e-3)
+    lowest = min(min(m.start[2], m.end[2]) for m in prog.moves if None not in m.start)
+    assert lowest == pytest.approx(-depth, abs=1e-9)
+    # the tabs sit on the straight edges of the plate, away from the fillets
+    tabs = [t for row in res.report.rows for t in row["tabs"]]
+    assert len(tabs) == count
+    for t in tabs:
+        x, y = t["x"], t["y"]
+        on_bottom_top = (abs(y + TOOL / 2) < 0.02 or abs(y - H - TOOL / 2) < 0.02) and \
+            R_OUT + width / 2 <= x <= W - R_OUT - width / 2
+        on_sides = (abs(x + TOOL / 2) < 0.02 or abs(x - W - TOOL / 2) < 0.02) and \
+            R_OUT + width / 2 <= y <= H - R_OUT - width / 2
+        assert on_bottom_top or on_sides
+        # no cutting sample of a deep pass near the tab's middle goes below the tab top
+        for m in prog.moves:
+            if None in m.start or m.g == 0:
+                continue
+            s = sample_move(m, 0.05)
+            near = np.hypot(s[:, 0] - x, s[:, 1] - y) < (width + TOOL) / 2 - 0.01
+            assert (s[near, 2] >= z_top - 1e-4).all()
+    text = (tmp_path / "p.txt").read_text()
+    assert text.count(f"tab {width:g} mm wide, {height:g} mm high") == count
+
+
+def test_tab_options_checked(tmp_path):
+    path = plate_dxf(tmp_path / "plate.dxf")
+    with pytest.raises(InputError, match="tab height 3 must be below the depth 3"):
+        run(path, tool_diameter=TOOL, depth=3.0, tabs=2, tab_height=3.0, gcode=tmp_path / "x.nc")
+    with pytest.raises(InputError, match="tabs hold a part cut through: give the depth"):
+        run(path, tool_diameter=TOOL, tabs=2, gcode=tmp_path / "x.nc")
+    with pytest.raises(InputError, match=r"only \d+ tabs? of width 150 fit"):
+        run(path, tool_diameter=TOOL, depth=3.0, tabs=2, tab_width=150.0, gcode=tmp_path / "x.nc")
+    assert not (tmp_path / "x.nc").exists()
+
+
+def test_cli_part_with_tabs_drawing_and_picture(tmp_path):
+    from pathgen.cli import main
+    import io
+
+    path = plate_dxf(tmp_path / "plate.dxf")
+    out, err = io.StringIO(), io.StringIO()
+    status = main(["gcode", str(path), "-o", str(tmp_path / "p.nc"), "--tool-diameter", "6", "--depth", "3",
+                   "--tabs", "2", "--tab-width", "4", "--tab-height", "1"], out=out, err=err)
+    assert status == 0, err.getvalue()
+    assert "Verify every program" in out.getvalue() and "cut in this order" in out.getvalue()
+    status = main(["dxf", str(path), "-o", str(tmp_path / "p.dxf"), "--tool-diameter", "6", "--depth", "3",
+                   "--tabs", "2"], out=io.StringIO(), err=err)
+    assert status == 0, err.getvalue()
+    doc = ezdxf.readfile(tmp_path / "p.dxf")
+    auditor = doc.audit()
+    assert not auditor.has_errors
+    msp = doc.modelspace()
+    labels = sorted(t.dxf.text for t in msp.query("TEXT[layer=='LABELS']"))
+    assert len(labels) == 6 and "1 outside, cut 6" in labels
+    assert len(msp.query("LWPOLYLINE[layer=='TABS']")) == 2
+    # the outlines come back with their bulges: the outer area is exact (geometry, sources: dxf-bulge)
+    outer = [e for e in msp.query("LWPOLYLINE[layer=='CONTOUR']") if len(e) == 8][0]
+    from pathgen.drawing import _polyline_segments
+    segs = _polyline_segments(list(outer.get_points("xyb")), True, 1.0)
+    area = sum(s.area_term() for s in segs)
+    assert abs(area) == pytest.approx(W * H - (4 - math.pi) * R_OUT**2, abs=1e-9)
+    status = main(["plot", str(path), "-o", str(tmp_path / "p.png"), "--tool-diameter", "6", "--depth", "3",
+                   "--tabs", "2"], out=io.StringIO(), err=err)
+    assert status == 0 and (tmp_path / "p.png").stat().st_size > 10_000
+
+
+def test_cli_bad_part_one_line_exit_2(tmp_path):
+    from pathgen.cli import main
+    import io
+
+    doc, msp = _new()
+    msp.add_line((0, 0), (30, 0))
+    msp.add_line((30, 0), (30, 20))
+    doc.saveas(tmp_path / "open.dxf")
+    err = io.StringIO()
+    status = main(["gcode", str(tmp_path / "open.dxf"), "-o", str(tmp_path / "o.nc"), "--tool-diameter", "6"],
+                  out=io.StringIO(), err=err)
+    assert status == 2
+    assert err.getvalue().count("\n") == 1 and "does not close" in err.getvalue()
+    assert not (tmp_path / "o.nc").exists()

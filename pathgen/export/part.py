@@ -3,8 +3,8 @@
 DXF layers (R2010, ``$INSUNITS`` set): ``CONTOUR`` the outlines (drawn
 lines and arcs as LWPOLYLINE with bulges, fitted outlines as arcs within
 the tolerance), ``TOOLPATH`` the tool-center path of the final pass,
-``LABELS`` one TEXT per outline "N side, cut K", ``TABS`` the tabs (a
-line across the path at each tab, when there are tabs).
+``LABELS`` one TEXT per outline "N side, cut K", ``TABS`` the stretch of
+the tool-center path that rises over each tab.
 """
 
 from __future__ import annotations
@@ -86,8 +86,7 @@ def write_part_dxf(path, outlines, contours, rows, *, toolpaths=None, units="mm"
         size = max(2.5 * k, 0.02 * math.sqrt(abs(c.area)) * k)
         msp.add_text(label(row), height=size, dxfattribs={"layer": "LABELS", "insert": (x, y + size)})
     for t in tabs or ():
-        (x0, y0), (x1, y1) = t["across"]
-        msp.add_line((x0 * k, y0 * k), (x1 * k, y1 * k), dxfattribs={"layer": "TABS"})
+        msp.add_lwpolyline([(x * k, y * k) for x, y in t["points"]], dxfattribs={"layer": "TABS"})
     doc.classes.add_required_classes(doc.dxfversion)
     doc.classes.classes = dict(sorted(doc.classes.classes.items()))
     p = Path(os.fspath(path))
@@ -127,9 +126,9 @@ def plot_part(path, contours, rows, *, toolpaths=None, units="mm", tabs=None, fo
             ax.annotate(label(row), (x, y), xytext=(0, 6), textcoords="offset points", ha="center",
                         fontsize=9, color="darkgreen")
         for j, t in enumerate(tabs or ()):
-            (x0, y0), (x1, y1) = t["across"]
-            ax.plot([x0 * k, x1 * k], [y0 * k, y1 * k], color="magenta", lw=3,
-                    label="tab" if j == 0 else None)
+            q = np.asarray(t["points"]) * k
+            ax.plot(q[:, 0], q[:, 1], color="magenta", lw=4, solid_capstyle="butt",
+                    label="tab (tool rises)" if j == 0 else None)
         ax.set_aspect("equal")
         ax.set_xlabel(f"x ({units})")
         ax.set_ylabel(f"y ({units})")
