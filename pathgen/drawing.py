@@ -183,8 +183,8 @@ def bulge_arc(p0, p1, bulge: float) -> Segment:
     """The arc segment a polyline vertex with ``bulge`` starts (sources: dxf-bulge).
 
     >>> s = bulge_arc((1, 0), (0, 1), math.tan(math.pi / 8))
-    >>> [round(v, 12) for v in s.center], round(s.radius, 12), round(math.degrees(s.sweep), 9)
-    [0.0, 0.0], 1.0, 90.0
+    >>> [round(v, 12) + 0.0 for v in s.center], round(s.radius, 12), round(math.degrees(s.sweep), 9)
+    ([0.0, 0.0], 1.0, 90.0)
     """
     (x0, y0), (x1, y1) = p0, p1
     c = math.hypot(x1 - x0, y1 - y0)

@@ -171,10 +171,12 @@ def _by_column(content, header_line, head, name):
     return out, [f"read {len(out)} outline{'s' if len(out) != 1 else ''} from {name} by its outline column"]
 
 
-def is_part_input(path) -> bool:
+def is_part_input(path, layer=None) -> bool:
     """True when ``path`` holds a part rather than one outline of points:
-    a DXF with drawn entities (lines, arcs, circles, bulged or several
-    polylines, ellipses, splines), or a text file with several outlines."""
+    a DXF with drawn entities (lines, arcs, circles, ellipses, splines,
+    polylines with bulges) or two or more closed polylines (on ``layer``
+    when given), or a text file with several outlines.  Open polylines
+    without bulges and POINT entities stay outlines of points."""
     path = os.fspath(path)
     if path.lower().endswith(".dxf"):
         try:
@@ -183,20 +185,22 @@ def is_part_input(path) -> bool:
             msp = ezdxf.readfile(path).modelspace()
         except Exception:
             return False  # the points reader explains
-        polylines = 0
+        closed = 0
         for e in msp:
+            if layer is not None and e.dxf.get("layer", "0") != layer:
+                continue
             kind = e.dxftype()
             if kind in ("CIRCLE", "ARC", "LINE", "ELLIPSE", "SPLINE"):
                 return True
             if kind == "LWPOLYLINE":
-                polylines += 1
                 if any(b != 0 for *_, b in e.get_points("xyb")):
                     return True
-            elif kind == "POLYLINE":
-                polylines += 1
+                closed += bool(e.closed)
+            elif kind == "POLYLINE" and e.is_2d_polyline:
                 if any(v.dxf.get("bulge", 0.0) != 0 for v in e.vertices):
                     return True
-        return polylines > 1
+                closed += bool(e.is_closed)
+        return closed > 1
     try:
         return text_outlines(path) is not None
     except InputError:

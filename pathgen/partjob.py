@@ -383,8 +383,16 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
                 if s != "on":
                     tp = timed("clearance", _clear_leads, tp, c, tool, cut, mach, kw, material, tol_mm,
                                o, lead_notes)
-                if tab_opts and s == "outside" and levels[len(paths)] % 2 == 0:
-                    tp = timed("tabs", _with_tabs, tp, o, c, rep, tab_opts, units)
+                level = levels[len(paths)]
+                if tab_opts and s == "outside" and level % 2 == 0:
+                    try:
+                        tp = timed("tabs", _with_tabs, tp, o, c, rep, tab_opts, units)
+                    except InputError as exc:
+                        if level == 0:
+                            raise
+                        # an island inside a hole: a loose piece, noted, not a reason to stop
+                        lead_notes.append(f"outline {o.number} ({o.where}): no tabs: {exc}; "
+                                          "this piece comes loose when the cut goes through")
         except InputError as exc:
             raise InputError(f"outline {o.number} ({o.where}, cut {s}): {exc}") from None
         reports.append(rep)

@@ -408,7 +408,7 @@ def run(
     part_opts = {"join_gap": join_gap, "sides": sides, "tabs": tabs, "tab_spacing": tab_spacing,
                  "tab_width": tab_width, "tab_height": tab_height}
     wants_part = any(v is not None for v in part_opts.values())
-    if path is not None and (wants_part or _is_part(path)):  # a drawing, several outlines, tabs
+    if path is not None and (wants_part or _is_part(path, layer)):  # a drawing, several outlines, tabs
         return run_part(path, **part_opts, closed=closed, end=end, param=param, units=units, smooth=smooth,
                         corner_angle=corner_angle, layer=layer, machine=machine,
                         tool_diameter=tool_diameter, feed=feed, accel=accel, side=side,
@@ -512,10 +512,10 @@ def run(
                   timings=timings, files=files, units=units, notes=tuple(notes))
 
 
-def _is_part(path) -> bool:
+def _is_part(path, layer=None) -> bool:
     from .part import is_part_input
 
-    return is_part_input(path)
+    return is_part_input(path, layer)
 
 
 def run_part(points, **options):
