@@ -144,8 +144,14 @@ def _sides(outlines, levels, sides) -> list[str]:
     number or a layer name to a side."""
     out = []
     given = dict(sides or {})
+    numbers = {o.number for o in outlines}
+    layers = {o.layer for o in outlines}
     for key, v in given.items():
         check_option(f"side of {key}", v, SIDES)
+        num = int(key) if isinstance(key, int) or (isinstance(key, str) and key.isdigit()) else None
+        if num not in numbers and key not in layers:
+            raise InputError(f"sides: no outline numbered or on layer {key!r} (outlines 1-{len(outlines)}; "
+                             f"layers {', '.join(repr(x) for x in sorted(layers) if x)})")
     for o, lev in zip(outlines, levels):
         s = given.get(o.number, given.get(str(o.number), given.get(o.layer)))
         out.append(s if s is not None else ("outside" if lev % 2 == 0 else "inside"))

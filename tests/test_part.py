@@ -509,3 +509,56 @@ def test_cli_bad_part_one_line_exit_2(tmp_path):
     assert status == 2
     assert err.getvalue().count("\n") == 1 and "does not close" in err.getvalue()
     assert not (tmp_path / "o.nc").exists()
+
+
+def test_sides_set_per_layer_or_outline(tmp_path):
+    path = plate_dxf(tmp_path / "plate.dxf")
+    res = run(path, tool_diameter=TOOL, sides={"HOLES": "on", 1: "on"})
+    by_layer = {o.layer: s for o, s in zip(res.outlines, res.sides)}
+    assert by_layer == {"OUTER": "on", "HOLES": "on", "SLOT": "inside"}
+    with pytest.raises(InputError, match="side of HOLES='middle' is not one of"):
+        run(path, sides={"HOLES": "middle"})
+    with pytest.raises(InputError, match=r"sides: no outline numbered or on layer 'HOLE' \(outlines 1-6; "
+                                         r"layers 'HOLES', 'OUTER', 'SLOT'\)"):
+        run(path, sides={"HOLE": "on"})
+    with pytest.raises(InputError, match="applies to one outline"):
+        run(path, side="inside")
+
+
+def test_inch_part_program_in_inches_holes_first(tmp_path):
+    # the plate drawn in inches (every length / 25.4), read with --units inch
+    doc, msp = _new()
+    doc.units = ezdxf.units.IN
+    k = 1 / 25.4
+    rounded_rect(msp, W * k, H * k, R_OUT * k)
+    for x, y in HOLES:
+        msp.add_circle((x * k, y * k), R_HOLE * k)
+    doc.saveas(tmp_path / "inch.dxf")
+    res = run(tmp_path / "inch.dxf", units="inch", tool_diameter=TOOL * k, depth=0.1, step_down=0.05,
+              tabs=2, gcode=tmp_path / "inch.nc")
+    prog = read_gcode((tmp_path / "inch.nc").read_text())
+    assert prog.units == "inch"
+    # each hole's tool-center arcs have radius (R_hole - r) in inches (sources: nistir-6556, G2/G3 I J)
+    hole_arcs = [m for m in prog.moves if m.g in (2, 3) and None not in m.start and m.start[2] < 0
+                 and min(math.dist(m.center, (x * k, y * k)) for x, y in HOLES) < 1e-3]
+    assert hole_arcs
+    for m in hole_arcs:
+        assert math.dist(m.start[:2], m.center) == pytest.approx((R_HOLE - TOOL / 2) * k, abs=2e-5)
+    # the outer outline is cut last: the last cutting move lies outside the plate
+    last = [m for m in prog.moves if m.g != 0 and None not in m.start and m.start[2] < 0][-1]
+    outer, _ = plate_polygons()
+    assert not outer.contains(shapely.Point(last.end[0] / k, last.end[1] / k))
+    assert res.report.to_dict(units="inch")["rapid_length"] == pytest.approx(res.report.rapid_length * k)
+
+
+def test_batch_runs_part_files(tmp_path):
+    from pathgen.pipeline import run_batch
+
+    src = tmp_path / "in"
+    src.mkdir()
+    plate_dxf(src / "plate.dxf")
+    plate_csv(src / "plate_pts.csv", step=0.25)
+    rows = run_batch(src, tmp_path / "out", jobs=1, tool_diameter=TOOL)
+    assert [r["status"] for r in rows] == ["ok", "ok"]
+    assert rows[0]["min_radius"] == pytest.approx(R_HOLE, abs=1e-3)
+    assert all(r["blocks"] > 6 * 3 for r in rows)  # six outlines, each a plunge, a lead in, moves, a lead out
