@@ -73,6 +73,8 @@ class Segment:
     points : curves only, (n, 2) samples from ``start`` to ``end``.
     mids : curves only, (n - 1, 2) the drawn curve halfway (in its own
         parameter) between consecutive samples: where the fit is measured.
+    seam_turn : closed curves only, the drawn curve's turn where it ends on
+        its start (radians; 0 for a smooth loop).
     """
 
     kind: str
@@ -83,12 +85,13 @@ class Segment:
     sweep: float = 0.0
     points: np.ndarray | None = None
     mids: np.ndarray | None = None
+    seam_turn: float = 0.0
 
     def reversed(self) -> "Segment":
         if self.points is None:
             return replace(self, start=self.end, end=self.start, sweep=-self.sweep)
         return replace(self, start=self.end, end=self.start, points=self.points[::-1].copy(),
-                       mids=self.mids[::-1].copy())
+                       mids=self.mids[::-1].copy(), seam_turn=-self.seam_turn)
 
     @property
     def length(self) -> float:
@@ -225,9 +228,11 @@ def _polyline_segments(xyb, closed: bool, scale: float) -> list:
 def _curve_points(entity, kind: str, scale: float, distance: float):
     """Samples of an ELLIPSE or SPLINE (mm) with chords within ``distance``,
     the drawn curve's points halfway (in its own parameter) between them,
-    and whether the entity is closed."""
+    whether the entity is closed, and its turn at the seam (closed: the
+    angle between its end and start tangents, from ezdxf's derivatives)."""
     m = sum(1 for _ in entity.flattening(distance / scale, segments=8))
     n = max(16, 2 * m)
+    turn = 0.0
     if kind == "ELLIPSE":
         ce = entity.construction_tool()
         span = (ce.end_param - ce.start_param) % (2 * math.pi)
@@ -240,9 +245,12 @@ def _curve_points(entity, kind: str, scale: float, distance: float):
         t = np.linspace(0.0, bs.max_t, 2 * n + 1)
         pts = np.array([(v.x, v.y) for v in bs.points(t)], float)
         closed = bool(entity.closed) or math.dist(pts[0], pts[-1]) <= SNAP / scale
+        if closed:
+            a, b = bs.derivative(bs.max_t, 1)[1], bs.derivative(0.0, 1)[1]
+            turn = math.atan2(a.x * b.y - a.y * b.x, a.x * b.x + a.y * b.y)
     if closed:
         pts[-1] = pts[0]
-    return pts[0::2] * scale, pts[1::2] * scale, closed
+    return pts[0::2] * scale, pts[1::2] * scale, closed, turn
 
 
 def _read_entities(msp, name, layers, scale, tolerance, gap):
@@ -297,8 +305,8 @@ def _read_entities(msp, name, layers, scale, tolerance, gap):
             if math.dist(s, t) > SNAP:
                 pieces.append(([Segment("line", s, t)], where, lay))
         else:  # ELLIPSE, SPLINE
-            pts, mids, closed = _curve_points(e, kind, scale, CURVE_SHARE * tolerance)
-            seg = Segment("curve", tuple(pts[0]), tuple(pts[-1]), points=pts, mids=mids)
+            pts, mids, closed, turn = _curve_points(e, kind, scale, CURVE_SHARE * tolerance)
+            seg = Segment("curve", tuple(pts[0]), tuple(pts[-1]), points=pts, mids=mids, seam_turn=turn)
             (closed_shapes if closed else pieces).append(([seg], where, lay))
     return closed_shapes, pieces, seen_layers
 
@@ -474,7 +482,8 @@ def shape_contour(shape: Shape, *, tolerance: float = 0.01, radius_error: float 
     coefs, steps, kinds, first_piece = [], [], [], []
     curve_dev = 0.0
     segs = shape.segments
-    if len(segs) == 1 and segs[0].kind == "curve":
+    if len(segs) == 1 and segs[0].kind == "curve" and abs(segs[0].seam_turn) <= CORNER_ANGLE:
+        # a smooth closed curve: one periodic spline (C2 across the seam)
         c = fit(segs[0].points[:-1], closed=True)
         dev = _curve_distance(c, segs[0].mids)
         c.info["drawn"] = {"lines": 0, "arcs": 0, "curves": 1, "arc_radius_error": 0.0,
@@ -507,6 +516,8 @@ def shape_contour(shape: Shape, *, tolerance: float = 0.01, radius_error: float 
         _, t_end = segs[i - 1].tangents()
         t_start, _ = segs[i].tangents()
         turn = math.atan2(t_end[0] * t_start[1] - t_end[1] * t_start[0], float(t_end @ t_start))
+        if n == 1 and segs[0].kind == "curve":
+            turn = segs[0].seam_turn  # the drawn curve's own turn (its samples only estimate it)
         if abs(turn) > CORNER_ANGLE and not (n == 1 and segs[0].kind == "arc"):
             corners.append(first_piece[i])
     points = coef[3]

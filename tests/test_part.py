@@ -224,6 +224,7 @@ def test_ellipse_sampled_within_a_share_of_tolerance(tmp_path):
     doc.saveas(tmp_path / "e.dxf")
     (s,), _, _ = read_drawing(tmp_path / "e.dxf", tolerance=0.01)
     c = shape_contour(s, tolerance=0.01)
+    assert c.corners == ()  # a smooth loop: one periodic spline
     assert c.info["drawn"]["curve_distance"] <= 0.1 * 0.01
     assert c.area == pytest.approx(math.pi * 18.0, abs=0.01 * c.length)
     t = np.linspace(*c.domain, 20000, endpoint=False)
@@ -562,3 +563,37 @@ def test_batch_runs_part_files(tmp_path):
     assert [r["status"] for r in rows] == ["ok", "ok"]
     assert rows[0]["min_radius"] == pytest.approx(R_HOLE, abs=1e-3)
     assert all(r["blocks"] > 6 * 3 for r in rows)  # six outlines, each a plunge, a lead in, moves, a lead out
+
+
+def test_spline_and_polyline_entities(tmp_path):
+    # a closed SPLINE loop (about 30 × 20) and a 2-D POLYLINE with bulges
+    # (a 40 × 10 slot: two lines and two semicircles, b = 1)
+    doc, msp = _new()
+    a = np.linspace(0, 2 * np.pi, 13)
+    fit = np.c_[15 * np.cos(a) + 100, 10 * np.sin(a)]
+    fit[-1] = fit[0]  # ends on its start
+    msp.add_spline([(x, y) for x, y in fit]).closed = True
+    msp.add_polyline2d([(0, 0), (40, 0), (40, 10), (0, 10)], close=True, format="xy")
+    pl = list(msp.query("POLYLINE"))[0]
+    for v, b in zip(pl.vertices, (0.0, 1.0, 0.0, 1.0)):
+        v.dxf.bulge = b
+    doc.saveas(tmp_path / "sp.dxf")
+    shapes, steps, _ = read_drawing(tmp_path / "sp.dxf", tolerance=0.01)
+    slot = [s for s in shapes if "POLYLINE" in s.where][0]
+    # the slot: area 40·10 + π·5², perimeter 80 + 10π (geometry)
+    assert slot.area == pytest.approx(400 + 25 * math.pi, abs=1e-9)
+    c = shape_contour(slot)
+    assert c.length == pytest.approx(80 + 10 * math.pi, abs=1e-6) and c.corners == ()
+    # the spline: the fitted contour within a tenth of the tolerance of ezdxf's own
+    # evaluation of the drawn B-spline (an outside evaluator), densely sampled
+    spline = [s for s in shapes if "SPLINE" in s.where][0]
+    cs = shape_contour(spline, tolerance=0.01)
+    bs = list(msp.query("SPLINE"))[0].construction_tool()
+    truth = np.array([(v.x, v.y) for v in bs.points(np.linspace(0, bs.max_t, 5000))])
+    from scipy.spatial import cKDTree
+    t = np.linspace(*cs.domain, 400_000, endpoint=False)
+    d, _ = cKDTree(cs(t)).query(truth)
+    assert d.max() <= 0.1 * 0.01
+    assert cs.info["drawn"]["curve_distance"] <= 0.1 * 0.01
+    # its ends meet at an angle (ezdxf's derivatives: 30.3°): a sharp corner, kept
+    assert len(cs.corners) == 1

@@ -93,7 +93,6 @@ def intrusion(path: Toolpath, material, *, step: float = 0.05) -> tuple[float, t
     (depth, (x, y)) of the deepest sample, or (0, None) when clear.
     """
     import shapely
-    from scipy.spatial import cKDTree
 
     k = MM_PER_INCH if path.units == "inch" else 1.0
     r = 0.5 * path.tool_diameter * k
@@ -121,8 +120,7 @@ def intrusion(path: Toolpath, material, *, step: float = 0.05) -> tuple[float, t
     if not pts:
         return 0.0, None
     p = np.vstack(pts)
-    edge = shapely.segmentize(material.boundary, 0.01)
-    tree = cKDTree(shapely.get_coordinates(edge))
+    tree = material_tree(material)
     d, _ = tree.query(p)
     d = np.sqrt(np.maximum(d * d - 0.005**2, 0.0))
     shapely.prepare(material)
@@ -132,3 +130,20 @@ def intrusion(path: Toolpath, material, *, step: float = 0.05) -> tuple[float, t
     if depth[i] <= 0:
         return 0.0, None
     return float(depth[i]), (float(p[i, 0]), float(p[i, 1]))
+
+
+_TREES: dict = {}
+
+
+def material_tree(material):
+    """KD-tree of the material's boundary sampled every 0.01 mm (kept for
+    the last material asked, so the outlines of one part share it)."""
+    import shapely
+    from scipy.spatial import cKDTree
+
+    key = id(material)
+    if key not in _TREES:
+        _TREES.clear()
+        edge = shapely.segmentize(material.boundary, 0.01)
+        _TREES[key] = (material, cKDTree(shapely.get_coordinates(edge)))
+    return _TREES[key][1]
