@@ -597,3 +597,22 @@ def test_spline_and_polyline_entities(tmp_path):
     assert cs.info["drawn"]["curve_distance"] <= 0.1 * 0.01
     # its ends meet at an angle (ezdxf's derivatives: 30.3°): a sharp corner, kept
     assert len(cs.corners) == 1
+
+
+def test_long_straight_sides_written_as_lines_not_huge_arcs(tmp_path):
+    # a 220 mm square with R5 corners: its 210 mm sides were fitted as arcs of
+    # radius 1.49e6 mm and the program was refused; now a line where a line fits
+    doc, msp = _new()
+    rounded_rect(msp, 220.0, 220.0, 5.0)
+    doc.saveas(tmp_path / "sq.dxf")
+    run(tmp_path / "sq.dxf", tool_diameter=TOOL, gcode=tmp_path / "sq.nc")
+    prog = read_gcode((tmp_path / "sq.nc").read_text())
+    radii = [math.dist(m.start[:2], m.center) for m in prog.moves if m.g in (2, 3) and None not in m.start]
+    assert max(radii) < 1e6
+    outer = shapely.Polygon(np.asarray(shape_contour(read_drawing(tmp_path / "sq.dxf")[0][0]).points))
+    cuts = [m for m in prog.moves if m.g == 1 and None not in m.start and m.start[2] < 0
+            and math.dist(m.start[:2], m.end[:2]) > 100]
+    assert len(cuts) >= 1  # at least one side is one straight move
+    for m in cuts:
+        d = shapely.distance(outer.exterior, shapely.points(sample_move(m, 1.0)[:, :2]))
+        assert np.abs(d - TOOL / 2).max() <= 0.01 + 1e-4
