@@ -29,6 +29,7 @@ class PartReport:
     rows: tuple  # dicts: number, where, layer, level, side, order, report, drawn
     rapid_length: float = 0.0  # mm
     program_time: float | None = None  # s
+    steps: tuple = ()  # what reading did, plain sentences
 
     @property
     def reports(self):
@@ -62,6 +63,7 @@ class PartReport:
             "largest_tool_diameter": None if big is None or not math.isfinite(big) else big / k,
             "tool_cannot_reach": self.tool_cannot_reach,
             "program_time": self.program_time,
+            "steps": list(self.steps),
         }
         for r in sorted(self.rows, key=lambda r: r["order"]):
             row = {key: r[key] for key in ("number", "where", "layer", "level", "side", "order")}
@@ -77,8 +79,9 @@ class PartReport:
     def to_text(self, *, units: str = "mm") -> str:
         k = MM_PER_INCH if units == "inch" else 1.0
         u = units
-        lines = [f"Part of {len(self.rows)} outline{'s' if len(self.rows) != 1 else ''}, cut in this order "
-                 "(holes and inner features first):"]
+        lines = [f"input: {s}" for s in self.steps]
+        lines.append(f"Part of {len(self.rows)} outline{'s' if len(self.rows) != 1 else ''}, cut in this order "
+                     "(holes and inner features first):")
         for r in sorted(self.rows, key=lambda r: r["order"]):
             rep = r["report"]
             rmin = rep.min_radius
@@ -427,7 +430,7 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
                   "tabs": _tabs_mm(paths[i], k) if paths[i] is not None else []}
                  for i, o in enumerate(outlines))
     prep = PartReport(rows, rapid_length=rapid_mm,
-                      program_time=None if joined is None else float(joined.time))
+                      program_time=None if joined is None else float(joined.time), steps=tuple(steps))
     lengths = [r.length for r in reports]
     radii = [r.min_radius.radius for r in reports if r.min_radius is not None]
     facts = {"points": int(sum(len(c.points) for c in contours)), "closed": True,
