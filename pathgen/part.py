@@ -38,6 +38,7 @@ from __future__ import annotations
 
 import math
 import os
+import re
 from dataclasses import dataclass, field
 
 import numpy as np
@@ -72,6 +73,20 @@ class PartOutline:
         return np.asarray(self.outline.points)
 
 
+#: a blank line followed by a line holding data (not a comment)
+_BLANK_BETWEEN = re.compile(r"\n[ \t]*\n(?:[ \t]*(?:#[^\n]*)?\n)*[ \t]*[^\s#]")
+
+
+def _head_lines(text: str):
+    """The lines of ``text`` one at a time, without splitting all of it."""
+    pos = 0
+    while pos <= len(text):
+        nl = text.find("\n", pos)
+        nl = len(text) if nl < 0 else nl
+        yield text[pos:nl]
+        pos = nl + 1
+
+
 def _split_fields(line: str) -> list[str]:
     for sep in (";", "\t", ","):
         if sep in line:
@@ -97,11 +112,19 @@ def text_outlines(path) -> tuple[list, list] | None:
         text = raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         return None  # the single-outline reader explains
-    lines = text.replace("\r\n", "\n").replace("\r", "\n").split("\n")
+    if "\r" in text:
+        text = text.replace("\r\n", "\n").replace("\r", "\n")
+    # fast answer for the usual file of one outline: no outline column in the
+    # first content line and no blank line between content lines
+    first_text = next((ln.split("#", 1)[0].strip() for ln in _head_lines(text)
+                       if ln.split("#", 1)[0].strip()), None)
+    if first_text is None:
+        return None
+    if "outline" not in first_text.lower() and not _BLANK_BETWEEN.search(text, text.find(first_text)):
+        return None
+    lines = text.split("\n")
     content = [(i + 1, ln.split("#", 1)[0].strip()) for i, ln in enumerate(lines)]
     first = next(((n, s) for n, s in content if s), None)
-    if first is None:
-        return None
     head = [t.lower() for t in _split_fields(first[1])]
     if "outline" in head:
         return _by_column(content, first[0], head, name)
@@ -175,8 +198,8 @@ def is_part_input(path, layer=None) -> bool:
     """True when ``path`` holds a part rather than one outline of points:
     a DXF with drawn entities (lines, arcs, circles, ellipses, splines,
     polylines with bulges) or two or more closed polylines (on ``layer``
-    when given), or a text file with several outlines.  Open polylines
-    without bulges and POINT entities stay outlines of points."""
+    when it holds any), or a text file with several outlines.  Open
+    polylines without bulges and POINT entities stay outlines of points."""
     path = os.fspath(path)
     if path.lower().endswith(".dxf"):
         try:
@@ -185,26 +208,38 @@ def is_part_input(path, layer=None) -> bool:
             msp = ezdxf.readfile(path).modelspace()
         except Exception:
             return False  # the points reader explains
-        closed = 0
-        for e in msp:
-            if layer is not None and e.dxf.get("layer", "0") != layer:
-                continue
-            kind = e.dxftype()
-            if kind in ("CIRCLE", "ARC", "LINE", "ELLIPSE", "SPLINE"):
-                return True
-            if kind == "LWPOLYLINE":
-                if any(b != 0 for *_, b in e.get_points("xyb")):
-                    return True
-                closed += bool(e.closed)
-            elif kind == "POLYLINE" and e.is_2d_polyline:
-                if any(v.dxf.get("bulge", 0.0) != 0 for v in e.vertices):
-                    return True
-                closed += bool(e.is_closed)
-        return closed > 1
+        verdict = _drawing_kind(msp, layer)
+        if verdict is None and layer is not None:
+            verdict = _drawing_kind(msp, None)  # nothing on that layer: the part reader lists the layers
+        return bool(verdict)
     try:
         return text_outlines(path) is not None
     except InputError:
         return True  # the part reader names the bad line
+
+
+def _drawing_kind(msp, layer):
+    """True (a part), False (outlines of points) or None (nothing on ``layer``)."""
+    closed = seen = 0
+    for e in msp:
+        if layer is not None and e.dxf.get("layer", "0") != layer:
+            continue
+        kind = e.dxftype()
+        if kind in ("CIRCLE", "ARC", "LINE", "ELLIPSE", "SPLINE"):
+            return True
+        if kind == "LWPOLYLINE":
+            seen += 1
+            if any(b != 0 for *_, b in e.get_points("xyb")):
+                return True
+            closed += bool(e.closed)
+        elif kind == "POLYLINE" and e.is_2d_polyline:
+            seen += 1
+            if any(v.dxf.get("bulge", 0.0) != 0 for v in e.vertices):
+                return True
+            closed += bool(e.is_closed)
+        elif kind in ("POINT", "POLYLINE"):
+            seen += 1
+    return None if not seen else closed > 1
 
 
 def read_part(path, *, units: str = "mm", layers=None, tolerance: float = 0.01, gap=None):
