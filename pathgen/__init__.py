@@ -44,6 +44,7 @@ _LAZY = {
     "write_report": "pathgen.export.report",
     "plot": "pathgen.export.plot",
     "run": "pathgen.pipeline",
+    "run_part": "pathgen.pipeline",
 }
 
 __all__ = ["__version__", "PathgenError", "InputError", "ExportError", *_LAZY]

@@ -121,6 +121,14 @@ def _smooth(text: str):
         raise argparse.ArgumentTypeError(f"expected auto, off or a distance, got {text!r}") from None
 
 
+def _keyed_side(text: str):
+    key, sep, side = text.partition("=")
+    if not sep or not key.strip() or side.strip() not in ("outside", "inside", "on"):
+        raise argparse.ArgumentTypeError(f"expected KEY=SIDE with SIDE outside, inside or on, got {text!r}")
+    key = key.strip()
+    return (int(key) if key.isdigit() else key), side.strip()
+
+
 def _angle(text: str):
     return "off" if text.strip().lower() == "off" else _number(text)
 
@@ -194,6 +202,19 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                         "(default: 1 mm, 0.04 in, or the safe height if lower)")
     g.add_argument("--overlap", type=_number, metavar="L",
                    help="go on past the start of a closed cut by L before the lead-out (default: 0)")
+
+    g = p.add_argument_group("part (a drawing, or a text file of several outlines)")
+    g.add_argument("--join-gap", type=_number, metavar="G",
+                   help="DXF: join open lines, arcs and curves whose ends lie within G (default: 0.01 mm)")
+    g.add_argument("--outline-side", action="append", metavar="KEY=SIDE", type=_keyed_side,
+                   help="cut outline number KEY (or the outlines on layer KEY) outside, inside or on; "
+                        "repeat for more (default: from the nesting, holes inside)")
+    g.add_argument("--tabs", type=int, metavar="N", help="N tabs on each outer outline (through-cuts)")
+    g.add_argument("--tab-spacing", type=_number, metavar="L", help="about one tab per L of outer outline")
+    g.add_argument("--tab-width", type=_number, metavar="W",
+                   help="width of the bridge each tab leaves (default: the tool diameter, at least 3 mm)")
+    g.add_argument("--tab-height", type=_number, metavar="H",
+                   help="height of the tabs above the bottom of the cut (default: half the depth, at most 1 mm)")
 
     if program:
         g = p.add_argument_group("program")
@@ -348,6 +369,8 @@ def _run_options(a) -> dict:
         one_feed=getattr(a, "one_feed", False),
         line_numbers=getattr(a, "line_numbers", False), allow_crossing=a.allow_crossing,
         compensation=getattr(a, "compensation", "computed"),
+        join_gap=a.join_gap, sides=dict(a.outline_side) if a.outline_side else None, tabs=a.tabs,
+        tab_spacing=a.tab_spacing, tab_width=a.tab_width, tab_height=a.tab_height,
     )
 
 

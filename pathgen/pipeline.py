@@ -27,7 +27,7 @@ from pathlib import Path
 from ._options import MM_PER_INCH, SIDES, UNITS, check_flag, check_option, check_positive
 from .errors import InputError, PathgenError
 
-__all__ = ["run", "verify", "Result", "MOVES", "LEADS", "contour_facts"]
+__all__ = ["run", "run_part", "verify", "Result", "MOVES", "LEADS", "contour_facts"]
 
 MOVES = ("arcs", "lines")
 #: Who offsets the tool: pathgen (the tool-center path) or the control (G41/G42).
@@ -330,6 +330,12 @@ def run(
     force: bool = False,
     progress=None,
     make_path: bool = False,
+    join_gap=None,
+    sides=None,
+    tabs=None,
+    tab_spacing=None,
+    tab_width=None,
+    tab_height=None,
 ) -> Result:
     """Run the whole job on a points file or an (n, 2) array.
 
@@ -423,6 +429,10 @@ def run(
     make_path : bool
         Make the toolpath even when no program, drawing or picture asks
         for it (:func:`verify` compares a program with it).
+    join_gap, sides, tabs, tab_spacing, tab_width, tab_height
+        For parts (see :func:`run_part`): a drawing, a text file of several
+        outlines, or any closed outline file when tabs are asked for, is
+        run by :func:`run_part`, which returns a ``PartResult``.
 
     Returns
     -------
@@ -513,6 +523,18 @@ def run(
     else:
         source, path = "<array>", None
     _refuse_clobber(targets, path)
+    part_opts = {"join_gap": join_gap, "sides": sides, "tabs": tabs, "tab_spacing": tab_spacing,
+                 "tab_width": tab_width, "tab_height": tab_height}
+    wants_part = any(v is not None for v in part_opts.values())
+    if path is not None and (wants_part or _is_part(path, layer)):  # a drawing, several outlines, tabs
+        return run_part(path, **part_opts, closed=closed, end=end, param=param, units=units, smooth=smooth,
+                        corner_angle=corner_angle, layer=layer, machine=machine,
+                        tool_diameter=tool_diameter, feed=feed, accel=accel, side=side,
+                        tolerance=tolerance, moves=moves, depth=depth, step_down=step_down,
+                        safe_height=safe_height, seam=seam, lead=lead, direction=direction,
+                        plunge_feed=plunge_feed, spindle_speed=spindle_speed, one_feed=one_feed,
+                        line_numbers=line_numbers, allow_crossing=allow_crossing, gcode=gcode,
+                        dxf=dxf, report=report, plot=plot, force=force, progress=progress)
     from .points import clean_points, read_points
 
     if path is not None:
@@ -767,6 +789,23 @@ def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
         return header_lines(facts, tp.units)
 
     return check
+
+
+def _is_part(path, layer=None) -> bool:
+    from .part import is_part_input
+
+    return is_part_input(path, layer)
+
+
+def run_part(points, **options):
+    """The whole job on a part: every closed outline of a drawing or of a
+    text file of several outlines, nested (holes inside, outer outlines
+    outside), in one program with the holes first.  See
+    :func:`pathgen.partjob.run_part` for the options; :func:`run` hands part
+    files here by itself."""
+    from .partjob import run_part as _run_part
+
+    return _run_part(points, **options)
 
 
 # -- many files -----------------------------------------------------------------

@@ -57,6 +57,10 @@ _CAP = 0.75 * np.pi
 _SAMPLE_SAG = 0.01
 #: moves are accepted at this fraction of the tolerance (as in flatten)
 _TARGET = 0.99
+#: mm: an arc of larger radius is tried as a line (a 208 mm straight side
+#: between fillets was written as an arc of radius 1.49e6 mm, beyond what
+#: the program writer accepts)
+R_LINE = 1e5
 #: rad: a biarc with a bigger kink (a near-line written as a line) is not taken
 _KINK = 1e-10
 #: candidate ends, as fractions of the reach, and curvatures, as fractions
@@ -254,9 +258,11 @@ def _pairs(band, S, i0, ends, km_top, rl, rh):
     K, J = K.ravel(), J.ravel()
     keep = np.isfinite(K)
     K, J = K[keep], J[keep]
-    # an arc whose radius is huge against its chord is a line (R >= 1e4 chord)
+    # an arc whose radius is huge against its chord is a line (R >= 1e4 chord),
+    # and so is one of radius beyond R_LINE (its center would lie beyond the
+    # coordinates a program can hold); kept only where the line is feasible
     chord = np.linalg.norm(band.X[J] - S, axis=1)
-    near_line = (K != 0) & (np.abs(K) * chord <= 1.02e-4)
+    near_line = (K != 0) & ((np.abs(K) * chord <= 1.02e-4) | (np.abs(K) * R_LINE < 1.0))
     K = np.where(near_line, 0.0, K)
     col = J - i0 - 1
     lo_c, hi_c = rl[0, col], rh[0, col]
@@ -473,7 +479,7 @@ def _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end):
         col = n - 1 - i0 - 1
         if col < 0 or rl[0, col] <= kk <= rh[0, col]:
             chord = np.hypot(*w)
-            if abs(kk) * chord <= 1.02e-4:
+            if abs(kk) * chord <= 1.02e-4 or abs(kk) * R_LINE < 1.0:
                 kk = 0.0
             E, TE, C = _arc_end(S[None], T[None], np.array([kk]), X[-1:])
             piece = _prim(np.array([kk]), S[None], X[-1:], C, np.array([t[i0]]), np.array([t[-1]]))
@@ -483,7 +489,7 @@ def _close(contour, d, tol, band, S, T, i0, aa, bb, rl, rh, free_end):
     # a single move when it already ends along the curve's tangent
     w = X[-1] - S
     kk = 2.0 * _dot(w, _left(T)) / max(_dot(w, w), 1e-300)
-    if abs(kk) * np.hypot(*w) <= 1.02e-4:
+    if abs(kk) * np.hypot(*w) <= 1.02e-4 or abs(kk) * R_LINE < 1.0:
         kk = 0.0  # radius huge against the chord (a straight window): a line
     E, TE, C = _arc_end(S[None], T[None], np.array([kk]), X[-1:])
     col = n - 1 - i0 - 1

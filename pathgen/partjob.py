@@ -1,0 +1,487 @@
+"""The whole job on a part of several outlines: read → nest → per outline
+fit, check and toolpath → one program, one report, one drawing, one picture.
+
+:func:`run_part` calls the same stages as :func:`pathgen.pipeline.run` for
+each outline; :func:`pathgen.pipeline.run` hands a part file (a drawing, or
+a text file of several outlines) to it.  See :mod:`pathgen.part` for the
+reading, nesting and order rules.
+"""
+
+from __future__ import annotations
+
+import math
+import os
+from dataclasses import dataclass, field
+from pathlib import Path
+
+import numpy as np
+
+from ._options import MM_PER_INCH, SIDES, UNITS, check_option, check_positive
+from .errors import InputError
+
+__all__ = ["run_part", "PartResult", "PartReport"]
+
+
+@dataclass(frozen=True, eq=False)
+class PartReport:
+    """The checks of every outline, in cutting order, and the part's totals."""
+
+    rows: tuple  # dicts: number, where, layer, level, side, order, report, drawn
+    rapid_length: float = 0.0  # mm
+    program_time: float | None = None  # s
+    steps: tuple = ()  # what reading did, plain sentences
+
+    @property
+    def reports(self):
+        return [r["report"] for r in self.rows]
+
+    @property
+    def tight_spots(self) -> tuple:
+        return tuple(s for r in self.reports for s in r.tight_spots)
+
+    @property
+    def tool_cannot_reach(self) -> bool:
+        return any(r.tool_cannot_reach for r in self.reports)
+
+    @property
+    def cycle_time(self) -> float:
+        return float(sum(r.cycle_time for r in self.reports))
+
+    @property
+    def largest_tool_diameter(self):
+        vals = [r.largest_tool_diameter for r in self.reports if r.largest_tool_diameter is not None]
+        return min(vals) if vals else None
+
+    def to_dict(self, *, units: str = "mm") -> dict:
+        k = MM_PER_INCH if units == "inch" else 1.0
+        big = self.largest_tool_diameter
+        out = {
+            "units": units,
+            "outlines": [],
+            "outline_count": len(self.rows),
+            "rapid_length": self.rapid_length / k,
+            "largest_tool_diameter": None if big is None or not math.isfinite(big) else big / k,
+            "tool_cannot_reach": self.tool_cannot_reach,
+            "program_time": self.program_time,
+            "steps": list(self.steps),
+        }
+        for r in sorted(self.rows, key=lambda r: r["order"]):
+            row = {key: r[key] for key in ("number", "where", "layer", "level", "side", "order")}
+            row["kind"] = "outer" if r["level"] % 2 == 0 else "hole"
+            if r["drawn"]:
+                row["drawn"] = dict(r["drawn"])
+            row["tabs"] = [{"x": t["x"] / k, "y": t["y"] / k, "s": t["s"] / k, "width": t["width"] / k,
+                            "height": t["height"] / k} for t in r.get("tabs", [])]
+            row["check"] = r["report"].to_dict(units=units)
+            out["outlines"].append(row)
+        return out
+
+    def to_text(self, *, units: str = "mm") -> str:
+        k = MM_PER_INCH if units == "inch" else 1.0
+        u = units
+        lines = [f"input: {s}" for s in self.steps]
+        lines.append(f"Part of {len(self.rows)} outline{'s' if len(self.rows) != 1 else ''}, cut in this order "
+                     "(holes and inner features first):")
+        for r in sorted(self.rows, key=lambda r: r["order"]):
+            rep = r["report"]
+            rmin = rep.min_radius
+            rtxt = "straight" if rmin is None else f"{rmin.radius / k:.4f} {u}"
+            big = rep.largest_tool_diameter
+            btxt = "any" if big is None or not math.isfinite(big) else f"{big / k:.4f} {u}"
+            lines.append(f"  {r['order']}. outline {r['number']} ({r['where']}): level {r['level']}, "
+                         f"cut {r['side']}; length {rep.length / k:.4f} {u}, smallest radius {rtxt}, "
+                         f"{len(rep.corners)} sharp corners, {len(rep.tight_spots)} tight spots, "
+                         f"largest tool {btxt}")
+            for t in r.get("tabs", []):
+                lines.append(f"     tab {t['width'] / k:.4g} {u} wide, {t['height'] / k:.4g} {u} high, tool "
+                             f"center at ({t['x'] / k:.4f}, {t['y'] / k:.4f}) {u}")
+        big = self.largest_tool_diameter
+        lines.append(f"largest tool for the part: "
+                     f"{'any' if big is None or not math.isfinite(big) else f'{big / k:.4f} {u}'}")
+        lines.append(f"rapid travel between outlines: {self.rapid_length / k:.4f} {u}")
+        for r in sorted(self.rows, key=lambda r: r["order"]):
+            lines.append("")
+            lines.append(f"outline {r['number']} ({r['side']}):")
+            lines.extend("  " + ln for ln in r["report"].to_text(units=units).rstrip("\n").splitlines())
+        return "\n".join(lines) + "\n"
+
+
+@dataclass(frozen=True, eq=False)
+class PartResult:
+    """What :func:`run_part` made; the fields :class:`pathgen.pipeline.Result`
+    has (``report`` is a :class:`PartReport`, ``toolpath`` the joined
+    program) plus the part's outlines, levels, sides, order, contours,
+    reports and per-outline toolpaths (in input order)."""
+
+    source: str
+    outlines: tuple
+    levels: tuple
+    sides: tuple
+    order: tuple
+    contours: tuple
+    reports: tuple
+    toolpaths: tuple
+    report: PartReport
+    toolpath: object = None
+    files: dict = field(default_factory=dict)
+    facts: dict = field(default_factory=dict)
+    timings: dict = field(default_factory=dict)
+    units: str = "mm"
+    notes: tuple = ()
+
+    @property
+    def outline(self):
+        return self.outlines
+
+    @property
+    def tool_cannot_reach(self) -> bool:
+        return self.report.tool_cannot_reach
+
+    @property
+    def status(self) -> int:
+        return 1 if self.tool_cannot_reach else 0
+
+
+def _sides(outlines, levels, sides) -> list[str]:
+    """Side per outline: from nesting, unless ``sides`` maps an outline
+    number or a layer name to a side."""
+    out = []
+    given = dict(sides or {})
+    numbers = {o.number for o in outlines}
+    layers = {o.layer for o in outlines}
+    for key, v in given.items():
+        check_option(f"side of {key}", v, SIDES)
+        num = int(key) if isinstance(key, int) or (isinstance(key, str) and key.isdigit()) else None
+        if num not in numbers and key not in layers:
+            raise InputError(f"sides: no outline numbered or on layer {key!r} (outlines 1-{len(outlines)}; "
+                             f"layers {', '.join(repr(x) for x in sorted(layers) if x)})")
+    for o, lev in zip(outlines, levels):
+        s = given.get(o.number, given.get(str(o.number), given.get(o.layer)))
+        out.append(s if s is not None else ("outside" if lev % 2 == 0 else "inside"))
+    return out
+
+
+def _material(outlines, contours):
+    """The part's material (shapely, mm): outlines by the even-odd rule
+    (an outer outline's inside, less its holes, plus their islands); drawn
+    outlines within 1e-4 mm of the drawing, fitted ones 16 samples a piece."""
+    import numpy as np
+    import shapely
+
+    m = None
+    for o, c in zip(outlines, contours):
+        if o.shape is not None:
+            p = shapely.Polygon(o.polygon_points(1e-4))
+        else:
+            b = c.breaks
+            t = (b[:-1, None] + np.diff(b)[:, None] * (np.arange(16) / 16)).ravel()
+            p = shapely.Polygon(c(t))
+        m = p if m is None else m.symmetric_difference(p)
+    return m
+
+
+def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes):
+    """The toolpath, with its leads shortened (halved, then none) while its
+    tool disc would enter the part's material by more than the tolerance
+    (a long lead-in in a narrow slot crosses to the far side); measured on
+    the exact geometry.  Raises when even without leads it would."""
+    from .path.build import make_toolpath
+    from .path.join import intrusion
+
+    depth, at = intrusion(tp, material)
+    if depth <= tol + 1e-9:
+        return tp
+    first = (depth, at)
+    length = tp.info["lead_length"] * (MM_PER_INCH if tp.units == "inch" else 1.0)
+    tries = [dict(kw, lead_length=length / 2 ** k) for k in (1, 2, 3)] + [dict(kw, lead="none")]
+    for k2 in tries:
+        if kw.get("lead") == "none" and k2.get("lead") != "none":
+            continue
+        tp = make_toolpath(contour, tool, cut, mach, **k2)
+        depth, at = intrusion(tp, material)
+        if depth <= tol + 1e-9:
+            what = "no lead" if k2.get("lead") == "none" else f"a {k2['lead_length']:.4g} mm lead"
+            notes.append(f"outline {outline.number} ({outline.where}): the {length:.4g} mm lead would cut "
+                         f"{first[0]:.4g} mm into the part near ({first[1][0]:.4f}, {first[1][1]:.4f}) mm; "
+                         f"cut with {what} instead")
+            return tp
+    raise InputError(f"the tool would cut {depth:.4g} mm into the part near ({at[0]:.4f}, {at[1]:.4f}) mm "
+                     f"(more than the tolerance {tol:g} mm), even without leads; use a smaller tool")
+
+
+def _tab_options(tabs, spacing, width, height, scale, tool_mm, depth):
+    """Tab options in mm, checked; None when no tabs are asked for."""
+    if tabs is None and spacing is None:
+        if width is not None or height is not None:
+            raise InputError("tab width and height need tabs= (--tabs N) or tab_spacing= (--tab-spacing L)")
+        return None
+    if tabs is not None and spacing is not None:
+        raise InputError("give tabs= (--tabs N) or tab_spacing= (--tab-spacing L), not both")
+    if tabs is not None and (isinstance(tabs, bool) or not isinstance(tabs, int) or tabs < 1 or tabs > 100):
+        raise InputError(f"tabs must be a whole number from 1 to 100, got {tabs!r}")
+    if depth is None:
+        raise InputError("tabs hold a part cut through: give the depth (depth=, --depth)")
+    d = check_positive("depth", depth) * scale
+    tool = tool_mm or 0.0
+    w = max(3.0, tool) if width is None else check_positive("tab width", width) * scale
+    h = min(1.0, 0.5 * d) if height is None else check_positive("tab height", height) * scale
+    if h >= d:
+        raise InputError(f"tab height {h / scale:g} must be below the depth {d / scale:g}")
+    sp = None if spacing is None else check_positive("tab spacing", spacing) * scale
+    return {"count": tabs, "spacing": sp, "width": w, "height": h}
+
+
+def _with_tabs(tp, outline, contour, rep, opts, units):
+    """One outline's toolpath with tabs (see :mod:`pathgen.path.tabs`)."""
+    import numpy as np
+    from scipy.spatial import cKDTree
+
+    from .path.tabs import add_tabs, place_tabs
+
+    k = MM_PER_INCH if units == "inch" else 1.0  # toolpath units → mm
+    b = contour.breaks
+    per = np.maximum(1, np.ceil(np.diff(contour.arc_length(b)) / 0.02)).astype(int)  # samples 0.02 mm apart
+    t = np.concatenate([b[i] + (b[i + 1] - b[i]) * np.arange(n) / n for i, n in enumerate(per)])
+    tree = cKDTree(contour(t))
+
+    def edge_distance(p):
+        return tree.query(np.asarray(p) * k)[0] / k
+
+    if opts["count"] is not None:
+        count = opts["count"]
+    else:
+        count = max(1, round(contour.length / opts["spacing"]))
+    spots = [(s.x / k, s.y / k) for s in rep.tight_spots]
+    try:
+        tabs = place_tabs(tp, count=count, width=opts["width"] / k, edge_distance=edge_distance, spots=spots)
+    except InputError as exc:
+        raise InputError(f"{exc} (tab width {opts['width'] / k:g} {units}, tool {tp.tool_diameter:g} {units})") from None
+    out = add_tabs(tp, tabs, height=opts["height"] / k)
+    out.info["tabs"] = [dict(t, width=opts["width"] / k, points=tt["points"]) for t, tt in zip(out.info["tabs"], tabs)]
+    return out
+
+
+def _tabs_mm(tp, k):
+    """The tabs of a toolpath (info["tabs"]), in mm for the drawing and picture."""
+    f = 1.0 / k  # toolpath units → mm
+    h = tp.info.get("tab_height")
+    return [{"x": t["x"] * f, "y": t["y"] * f, "s": t["s"] * f, "width": t["width"] * f,
+             "height": h * f, "points": (np.asarray(t["points"]) * f).tolist()}
+            for t in tp.info.get("tabs", [])]
+
+
+def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None, closed=None,
+             end: str = "not-a-knot", param: str = "chord", smooth=None, corner_angle=None,
+             machine=None, tool_diameter=None, feed=None, accel=None, side=None, tolerance=None,
+             moves: str = "arcs", depth=None, step_down=None, safe_height=None, seam=None,
+             lead: str = "arc", direction: str = "climb", plunge_feed=None, spindle_speed=None,
+             one_feed: bool = False, line_numbers: bool = False, allow_crossing: bool = False,
+             tabs=None, tab_spacing=None, tab_width=None, tab_height=None,
+             gcode=None, dxf=None, report=None, plot=None, force: bool = False, progress=None):
+    """Run the whole job on a part file: every closed outline, nested, in one program.
+
+    Options are those of :func:`pathgen.pipeline.run` (lengths in ``units``)
+    plus ``sides`` ({outline number or layer name: "outside"/"inside"/"on"},
+    overriding the nesting) and ``join_gap`` (DXF: open elements whose ends
+    lie within it are joined, default 0.01 mm).  ``side`` and ``seam`` apply
+    to single outlines and are refused here (use ``sides``).
+
+    Tabs (outer outlines cut outside, i.e. the cuts that free a part):
+    ``tabs`` (a count per outline) or ``tab_spacing`` (about one tab per
+    that length of path), ``tab_width`` (the bridge left, default the tool
+    diameter but at least 3 mm), ``tab_height`` (default half the depth,
+    at most 1 mm); lengths in ``units``.  See :mod:`pathgen.path.tabs`.
+
+    Returns
+    -------
+    PartResult
+    """
+    import time
+
+    from .pipeline import DEFAULT_TOLERANCE, _check_targets, _check_work, _length, _refuse_clobber
+
+    check_option("units", units, UNITS)
+    if closed is False:
+        raise InputError("a part's outlines are closed; closed=False (--open) applies to one outline")
+    if seam is not None:
+        raise InputError("seam applies to one outline; a part's outlines each start at their flattest stretch")
+    if side not in (None, "outside"):
+        raise InputError(f"side={side!r} applies to one outline; a part's sides come from the nesting "
+                         "(holes inside, outer outlines outside): set them per outline or layer with sides=")
+    scale = MM_PER_INCH if units == "inch" else 1.0
+    tol_mm = DEFAULT_TOLERANCE if tolerance is None else check_positive("tolerance", tolerance) * scale
+    tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
+    gap_mm = None if join_gap is None else check_positive("join gap", join_gap) * scale
+    from .checks.machine import Cut, Machine, Tool, load_machine
+
+    overrides = {"max_accel": _length("accel", accel, scale)}
+    if isinstance(machine, Machine):
+        mach = load_machine(None, **{**machine.__dict__, **{k: v for k, v in overrides.items() if v}})
+    else:
+        mach = load_machine(machine, **overrides)
+    tool = Tool(tool_mm if tool_mm is not None else 0.0)
+    feed_mm = None if feed is None else check_positive("feed", feed) * scale
+    targets = _check_targets({"gcode": gcode, "dxf": dxf, "report": report, "plot": plot}, force)
+    if "report" in targets:
+        targets.update(_check_targets({"report_text": targets["report"].with_suffix(".txt")}, force))
+    path = Path(points)
+    source = str(points)
+    _refuse_clobber(targets, path)
+    timings = {}
+    note = progress or (lambda stage: None)
+
+    def timed(stage, fn, *a, **kw):
+        note(stage)
+        t0 = time.perf_counter()
+        value = fn(*a, **kw)
+        timings[stage] = timings.get(stage, 0.0) + time.perf_counter() - t0
+        return value
+
+    from .part import cut_order, nest, read_part
+
+    outlines, steps, warnings = timed("read", read_part, path, units=units, layers=layer,
+                                      tolerance=tol_mm, gap=gap_mm)
+    import numpy as np
+
+    allpts = np.vstack([o.polygon_points(0.01) for o in outlines])
+    _check_work(allpts, tol_mm, tool_mm, _length("depth", depth, scale),
+                _length("step down", step_down, scale), units)
+    levels = timed("nest", nest, outlines)
+    side_list = _sides(outlines, levels, sides)
+    makes_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
+    if "gcode" in targets and tool_mm is None and any(s != "on" for s in side_list):
+        raise InputError("a program cutting a part needs the tool diameter (tool_diameter=, --tool-diameter)")
+
+    from .checks.report import check
+    from .drawing import shape_contour
+    from .outline import fit_outline
+
+    fit_kw = {"end": end, "param": param, "smooth": _length("smooth", smooth, scale)}
+    if corner_angle == "off":
+        fit_kw["corner_angle"] = None
+    elif corner_angle is not None:
+        fit_kw["corner_angle"] = check_positive("corner angle", corner_angle)
+    contours, reports, paths = [], [], []
+    for o, s in zip(outlines, side_list):
+        try:
+            if o.shape is not None:
+                contours.append(timed("fit", shape_contour, o.shape, tolerance=tol_mm))
+            else:
+                contours.append(timed("fit", fit_outline, o.outline, **fit_kw))
+        except InputError as exc:
+            raise InputError(f"outline {o.number} ({o.where}): {exc}") from None
+    tab_opts = _tab_options(tabs, tab_spacing, tab_width, tab_height, scale, tool_mm, depth)
+    if tab_opts and not makes_path:
+        tab_opts = None  # tabs belong to a program
+    material = _material(outlines, contours) if makes_path else None
+    lead_notes = []
+    for o, s, c in zip(outlines, side_list, contours):
+        try:
+            cut = Cut(side=s, tolerance=tol_mm, **({"feed": feed_mm} if feed_mm else {}))
+            rep = timed("check", check, c, mach, tool, cut)
+            tp = None
+            if makes_path:
+                from .path.build import make_toolpath
+
+                kw = {"moves": moves, "lead": lead, "units": units, "direction": direction}
+                for name, value in (("depth", depth), ("step_down", step_down),
+                                    ("safe_height", safe_height), ("plunge_feed", plunge_feed)):
+                    if value is not None:
+                        kw[name] = _length(name.replace("_", " "), value, scale)
+                tp = timed("toolpath", make_toolpath, c, tool, cut, mach, **kw)
+                if s != "on":
+                    tp = timed("clearance", _clear_leads, tp, c, tool, cut, mach, kw, material, tol_mm,
+                               o, lead_notes)
+                level = levels[len(paths)]
+                if tab_opts and s == "outside" and level % 2 == 0:
+                    try:
+                        tp = timed("tabs", _with_tabs, tp, o, c, rep, tab_opts, units)
+                    except InputError as exc:
+                        if level == 0:
+                            raise
+                        # an island inside a hole: a loose piece, noted, not a reason to stop
+                        lead_notes.append(f"outline {o.number} ({o.where}): no tabs: {exc}; "
+                                          "this piece comes loose when the cut goes through")
+        except InputError as exc:
+            raise InputError(f"outline {o.number} ({o.where}, cut {s}): {exc}") from None
+        reports.append(rep)
+        paths.append(tp)
+
+    # -- order and one program -------------------------------------------------------
+    k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
+    if makes_path:
+        starts = [tp.end[0, :2] / k for tp in paths]
+        ends = [tp.end[-1, :2] / k for tp in paths]
+    else:
+        starts = ends = [c(np.array([c.domain[0]]))[0] for c in contours]
+    order = cut_order(outlines, levels, starts, ends)
+    rank = {i: n + 1 for n, i in enumerate(order)}
+    joined = None
+    if makes_path:
+        from .path.join import join_toolpaths
+
+        desc = [{"number": outlines[i].number, "side": side_list[i], "level": levels[i], "order": rank[i]}
+                for i in order]
+        joined = join_toolpaths([paths[i] for i in order], rapid_feed=mach.rapid_feed, outlines=desc)
+    rapid_mm = joined.info["rapid_length"] / k if joined is not None else 0.0
+    rows = tuple({"number": o.number, "where": o.where, "layer": o.layer, "level": levels[i],
+                  "side": side_list[i], "order": rank[i], "report": reports[i],
+                  "drawn": contours[i].info.get("drawn"),
+                  "tabs": _tabs_mm(paths[i], k) if paths[i] is not None else []}
+                 for i, o in enumerate(outlines))
+    prep = PartReport(rows, rapid_length=rapid_mm,
+                      program_time=None if joined is None else float(joined.time), steps=tuple(steps))
+    lengths = [r.length for r in reports]
+    radii = [r.min_radius.radius for r in reports if r.min_radius is not None]
+    facts = {"points": int(sum(len(c.points) for c in contours)), "closed": True,
+             "pieces": int(sum(c.pieces for c in contours)), "corners": int(sum(len(c.corners) for c in contours)),
+             "outlines": len(outlines), "length": float(sum(lengths)),
+             "min_radius": float(min(radii)) if radii else math.inf}
+
+    # -- write ----------------------------------------------------------------------------
+    import warnings as _w
+
+    from .export._atomic import Staging, clean_stale
+
+    files = {}
+    notes = list(warnings) + [s for s in steps if "bridged" in s] + lead_notes
+    for folder in sorted({str(p.parent) for p in targets.values()}):
+        clean_stale(folder)
+    with _w.catch_warnings(record=True) as caught, Staging(force=force) as stage:
+        _w.simplefilter("always")
+        final = dict(targets)
+        tmp = {kk: stage.path(v, suffix=".report.json" if kk == "report" else None)
+               for kk, v in final.items() if kk != "report_text"}
+        if "report" in tmp:
+            stage.path(final["report_text"], suffix=".report.txt")
+        if "gcode" in tmp:
+            from .export.gcode import write_gcode
+
+            timed("gcode", write_gcode, joined, tmp["gcode"], force=True, source=path.name,
+                  program_name=Path(final["gcode"]).stem, spindle_speed=spindle_speed,
+                  single_feed=one_feed, line_numbers=line_numbers)
+            files["gcode"] = final["gcode"]
+        if "report" in tmp:
+            from .export.report import write_report
+
+            timed("report", write_report, prep, tmp["report"], units=units, force=True)
+            files["report"], files["report_text"] = final["report"], final["report_text"]
+        if "dxf" in tmp:
+            from .export.part import write_part_dxf
+
+            timed("dxf", write_part_dxf, tmp["dxf"], outlines, contours, rows,
+                  toolpaths=paths if makes_path else None, units=units, tolerance=tol_mm,
+                  tabs=[t for r in rows for t in r["tabs"]])
+            files["dxf"] = final["dxf"]
+        if "plot" in tmp:
+            from .export.part import plot_part
+
+            timed("plot", plot_part, tmp["plot"], contours, rows,
+                  toolpaths=paths if makes_path else None, units=units,
+                  tabs=[t for r in rows for t in r["tabs"]])
+            files["plot"] = final["plot"]
+        stage.commit()
+    notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]
+    return PartResult(source, tuple(outlines), tuple(levels), tuple(side_list), tuple(order),
+                      tuple(contours), tuple(reports), tuple(paths), prep, toolpath=joined,
+                      files=files, facts=facts, timings=timings, units=units, notes=tuple(notes))
