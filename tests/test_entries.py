@@ -80,8 +80,8 @@ CASES = {
     "slot": (stadium(6, 34, 120), 4.0, "inside"),
     "pocket": (stadium(10, 40, 120), 6.0, "inside"),
     "keyhole": (keyhole(240), 3.0, "inside"),
-    "gear-inside": (gear(360), 3.0, "inside"),
-    "gear-outside": (gear(360), 3.0, "outside"),
+    "gear-inside": (gear(240), 3.0, "inside"),
+    "gear-outside": (gear(240), 3.0, "outside"),
     "tight-hole": (circle(3.3, 60), 6.0, "inside"),
 }
 ENTRIES = ("plunge", "ramp", "helix")
