@@ -527,6 +527,14 @@ def run(
                  "tab_width": tab_width, "tab_height": tab_height}
     wants_part = any(v is not None for v in part_opts.values())
     if path is not None and (wants_part or _is_part(path, layer)):  # a drawing, several outlines, tabs
+        given = [name for name, value, default in (
+            ("entry", entry, "plunge"), ("ramp angle", ramp_angle, None), ("lead length", lead_length, None),
+            ("retract height", retract_height, None), ("overlap", overlap, None),
+            ("compensation", compensation, "computed"), ("flutes", flutes, None), ("chip load", chip_load, None))
+            if value != default]
+        if given:
+            raise InputError(f"{source}: a part of several outlines takes no {', '.join(given)} yet: "
+                             "run its outlines one at a time for these options")
         return run_part(path, **part_opts, closed=closed, end=end, param=param, units=units, smooth=smooth,
                         corner_angle=corner_angle, layer=layer, machine=machine,
                         tool_diameter=tool_diameter, feed=feed, accel=accel, side=side,
