@@ -356,7 +356,9 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     from .drawing import shape_contour
     from .outline import fit_outline
 
-    fit_kw = {"end": end, "param": param, "smooth": _length("smooth", smooth, scale)}
+    # points files: "auto" (the default) smooths each outline to its own noise
+    smooth_kw = smooth if smooth is None or isinstance(smooth, str) else _length("smooth", smooth, scale)
+    fit_kw = {"end": end, "param": param, "smooth": smooth_kw}
     if corner_angle == "off":
         fit_kw["corner_angle"] = None
     elif corner_angle is not None:
