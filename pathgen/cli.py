@@ -146,8 +146,9 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                    help="end condition of an open outline (default: not-a-knot)")
     g.add_argument("--param", choices=("chord", "centripetal", "uniform"), default="chord",
                    help="how the spline parameter advances between points (default: chord)")
-    g.add_argument("--units", choices=("mm", "inch"), default="mm",
-                   help="units of the points and of every length option (default: mm)")
+    g.add_argument("--units", choices=("mm", "inch"),
+                   help="units of the points and of every length option (default: a drawing's own units, "
+                        "else mm)")
     g.add_argument("--smooth", type=_smooth, default="auto", metavar="auto|off|TOL",
                    help="auto: smooth to the points' measured noise when it would fake curvature, "
                         "else fit exactly (default); off: fit the points exactly; TOL: smooth, "
@@ -332,7 +333,7 @@ def _report_json(result) -> str:
     import json
 
     rep = result.report
-    payload = {"source": result.source, "contour": _finite_or_null(result.facts)}
+    payload = {"source": result.source, "contour": _finite_or_null(_in_units(result.facts, result.units))}
     if rep is not None:
         payload["report"] = rep.to_dict(units=result.units)
     if getattr(result, "program", None):
@@ -342,6 +343,22 @@ def _report_json(result) -> str:
     if result.files:
         payload["files"] = {k: str(v) for k, v in result.files.items()}
     return json.dumps(payload, indent=2, sort_keys=True, allow_nan=False, default=_json_default)
+
+
+def _in_units(facts: dict, units: str) -> dict:
+    """The contour's facts (mm inside) in the job's units, as the report's."""
+    if units != "inch":
+        return {**facts, "units": "mm"}
+    k = 1.0 / 25.4
+    out = dict(facts, units="inch")
+    for key in ("length", "min_radius", "min_radius_s"):
+        if out.get(key) is not None:
+            out[key] = out[key] * k
+    if out.get("min_radius_at") is not None:
+        out["min_radius_at"] = [v * k for v in out["min_radius_at"]]
+    if out.get("points") is not None and not isinstance(out["points"], int):
+        out["points"] = [[x * k, y * k] for x, y in out["points"]]
+    return out
 
 
 def _json_default(o):

@@ -195,6 +195,24 @@ def _profile_tables(machine):
     return Frame(), {}
 
 
+def _job_units(points, units):
+    """The job's units: a drawing's declared units ($INSUNITS) unless given;
+    given units that disagree with the drawing's are an error naming both."""
+    if units is not None:
+        check_option("units", units, UNITS)
+    declared = None
+    if isinstance(points, (str, os.PathLike)) and str(points).lower().endswith(".dxf") and Path(points).is_file():
+        from .points import drawing_units
+
+        declared = drawing_units(points)
+    if units is None:
+        return declared or "mm"
+    if declared is not None and declared != units:
+        raise InputError(f"{Path(points).name}: the drawing declares its units as {declared} ($INSUNITS) but "
+                         f"units {units} were given; give --units {declared} or leave --units out")
+    return units
+
+
 def _refuse_crossing(outline, side, allow_crossing, scale, units) -> list[str]:
     """A closed outline that crosses itself is not cut (unless asked, on the
     line); returns the notes to pass on."""
@@ -293,7 +311,7 @@ def run(
     closed=None,
     end: str = "not-a-knot",
     param: str = "chord",
-    units: str = "mm",
+    units=None,
     smooth="auto",
     corner_angle=None,
     layer=None,
@@ -438,7 +456,7 @@ def run(
     -------
     Result
     """
-    check_option("units", units, UNITS)
+    units = _job_units(points, units)
     closed = check_flag("closed", closed)
     check_option("side", side, SIDES)
     check_option("moves", moves, MOVES)

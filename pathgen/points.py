@@ -379,6 +379,31 @@ def _read_dxf(path: str, name: str, layer):
     return pts, closed, steps, warnings, {1: "inch", 4: "mm"}.get(insunits)
 
 
+def drawing_units(path) -> str | None:
+    """The units a DXF drawing declares in its header ($INSUNITS: 1 inch,
+    4 mm), or None when it declares none of these.
+
+    Read from the text of the HEADER section (group code 9 names the
+    variable, group code 70 holds its value; DXF reference), without loading
+    the drawing: the reader that follows loads it once.
+    """
+    try:
+        with open(os.fspath(path), "rb") as fh:
+            head = fh.read(1 << 20)
+    except OSError:
+        return None  # the reader says what is wrong, with the file's name
+    lines = [ln.strip() for ln in head.split(b"\n", 40000)[:40000]]
+    for i, ln in enumerate(lines[:-3]):
+        if ln == b"$INSUNITS" and lines[i + 1] == b"70":
+            try:
+                return {1: "inch", 4: "mm"}.get(int(lines[i + 2]))
+            except ValueError:
+                return None
+        if ln == b"ENDSEC":
+            break
+    return None
+
+
 def read_points(path, *, units: str = "mm", layer=None, closed=None) -> Outline:
     """Read outline points from a text file or a DXF drawing.
 

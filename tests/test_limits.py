@@ -83,3 +83,27 @@ def test_default_tolerance_is_one_length_in_mm_and_inch(tmp_path):
     inch = run(pts / 25.4, closed=True, units="inch", tool_diameter=6 / 25.4, gcode=tmp_path / "in.nc")
     assert mm.toolpath.tolerance == pytest.approx(0.01)
     assert inch.toolpath.tolerance == pytest.approx(0.01 / 25.4)
+
+
+def test_a_drawings_units_win_and_a_disagreeing_units_option_is_an_error(tmp_path):
+    # a 4 x 3 inch rectangle drawn in an inch drawing ($INSUNITS = 1, DXF
+    # reference via ezdxf's documented doc.units): read as inch without
+    # --units; --units mm is an error naming both
+    import ezdxf
+
+    doc = ezdxf.new("R2010")
+    doc.units = ezdxf.units.IN
+    doc.modelspace().add_lwpolyline([(0, 0), (4, 0), (4, 3), (0, 3)], close=True)
+    p = tmp_path / "plate.dxf"
+    doc.saveas(p)
+    status, out, err = call("check", p, "--json")
+    assert status == 0, err
+    import json
+
+    data = json.loads(out)
+    assert data["contour"]["units"] == "inch" and data["contour"]["length"] == pytest.approx(14.0)
+    assert data["report"]["length"] == pytest.approx(14.0)  # the report in the job's units too
+    status, out, err = call("check", p, "--units", "mm")
+    assert status == 2 and "declares its units as inch" in err and "units mm" in err
+    status, out, err = call("check", p, "--units", "inch", "--quiet")
+    assert status == 0
