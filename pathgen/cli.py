@@ -312,11 +312,12 @@ def _summary_lines(result) -> list[str]:
         from .verify.check import summary_lines
 
         lines += summary_lines(result.program, tp.units if tp is not None else result.units)
-        comp = tp.info.get("compensation")
-        if comp:
-            lines.append(f"cutter compensation at the control: {comp['word']} D{comp['register']} (tool "
-                         f"{'left' if comp['word'] == 'G41' else 'right'} of travel); the program follows the "
-                         f"part line: set D{comp['register']} to the tool radius {comp['radius']:.4f} {tp.units}")
+    comp = tp.info.get("compensation") if tp is not None else None
+    if comp:
+        lines.append(f"cutter compensation at the control: {comp['word']} D{comp['register']} (tool "
+                     f"{'left' if comp['word'] == 'G41' else 'right'} of travel); the program follows the "
+                     f"part line: set D{comp['register']} to the tool radius {comp['radius']:.4f} {tp.units}; "
+                     "pathgen did not replay it (the control applies the offset)")
     for kind_, p in result.files.items():
         lines.append(f"wrote {kind_}: {p}")
     return lines

@@ -119,7 +119,8 @@ def test_comments_numbers_and_percent_lines():
 
 @pytest.mark.parametrize("text, match", [
     (PRE + "G0 X0 Y0 Z0\nG41 G1 X1 F100\nM2\n", r"line 3: G41 is not one pathgen reads"),
-    (PRE + "T1 M6\nM2\n", r"line 2: word T1 is not one pathgen reads"),
+    (PRE + "G18\nM2\n", r"line 2: G18 is not one pathgen reads"),  # another plane
+    (PRE + "G0 X0 Y0 Z0\nG2 X2 Y0 R1 F100\nM2\n", r"line 3: word R1 is not one pathgen reads"),
     (PRE + "G0 X0 Y0 Z0\nG2 X10 Y0 R5 F100\nM2\n", r"line 3: word R5 .*radius-format arcs are not read"),
     ("G0 X1 Y1 Z1\nG21 G90\nM2\n", r"line 1: motion before the units are set"),
     (PRE + "G0 X0 Y0 Z0\nG21 G0 X2\nG20\nM2\n", r"line 4: the units change"),
@@ -222,3 +223,16 @@ def test_plain_blocks_and_general_blocks_read_the_same(rng):
         for col in ("kind", "start", "end", "center", "feed", "line"):
             np.testing.assert_array_equal(getattr(a, col), getattr(b, col))
         assert a.problems == b.problems == ()
+
+
+def test_a_framed_program_reads_with_its_frame_words():
+    # the frame's words (NISTIR 6556: T and M6 tool change, G43 H length
+    # offset, G54 work offset, M4 spindle, M7/M8/M9 coolant, G28 return home;
+    # the O line common practice, from memory) move nothing: the moves are
+    # those of the same program without them
+    body = "G0 Z5\nG0 X10 Y0\nG1 Z-1 F300\nG2 X-10 Y0 I-10 J0 F900\nG0 Z5\n"
+    plain = read_gcode(PRE + body + "M2\n")
+    framed = read_gcode("%\nO1201\n" + PRE + "T4 M6\nG43 H4\nG54\nS9000 M4\nM8\n" + body + "M9\nM5\nG28\nM30\n%\n")
+    assert np.array_equal(plain.kind, framed.kind)
+    np.testing.assert_array_equal(plain.end, framed.end)
+    np.testing.assert_array_equal(plain.center, framed.center)

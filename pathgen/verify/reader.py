@@ -77,7 +77,9 @@ _WORD = re.compile(r"([A-Za-z])[ \t]*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)
 _NUM = r"(-?\d+(?:\.\d+)?)"
 _FAST = re.compile(rf"(?:N\d{{1,5}} )?G([0-3])(?: X{_NUM})?(?: Y{_NUM})?(?: Z{_NUM})?(?: I{_NUM})?(?: J{_NUM})?"
                    rf"(?: F(\d+(?:\.\d+)?))?")
-_G_KNOWN = {0, 1, 2, 3, 17, 20, 21, 28, 40, 41, 42, 43, 49, 54, 55, 56, 57, 58, 59, 90, 91, 94}
+# G41/G42 are not read: the control offsets such a program by a register
+# pathgen cannot see, so its tool path cannot be replayed here
+_G_KNOWN = {0, 1, 2, 3, 17, 20, 21, 28, 40, 43, 49, 54, 55, 56, 57, 58, 59, 90, 91, 94}
 _M_KNOWN = {2, 3, 4, 5, 6, 7, 8, 9, 30}
 # T tool, H length-offset register (G43), D radius register (G41/G42): read,
 # they move nothing; an O word (program number) stands alone on its line
@@ -285,7 +287,7 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
                 g = int(v) if v == int(v) else None
                 if g not in _G_KNOWN:
                     _fail(source, lineno, f"G{num} is not one pathgen reads (G0 G1 G2 G3 G17 G20 G21 G28 "
-                                          "G40 G41 G42 G43 G49 G54-G59 G90 G91 G94)")
+                                          "G40 G43 G49 G54-G59 G90 G91 G94)")
                 gs.append(g)
             elif letter == "M":
                 m = int(v) if v == int(v) else None
