@@ -209,6 +209,46 @@ def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes
                      f"(more than the tolerance {tol:g} mm), even without leads; use a smaller tool")
 
 
+def _replay_part(material, tool_mm: float, tol_mm: float):
+    """The check run on a part program's text before it is put in place:
+    read back under the word and arc rules (pathgen.verify.reader), and
+    every flat move below the stock top swept against the part's material
+    (pathgen.path.join.intrusion).  The deviation from each outline's
+    tool-center curve is measured on the moves before formatting only."""
+    import numpy as np
+
+    from .errors import InternalCheckError
+    from .path.join import intrusion
+    from .path.model import Toolpath
+    from .verify.reader import read_gcode
+
+    def check(text):
+        try:
+            prog = read_gcode(text, source="<program>", strict=True)
+        except InputError as exc:
+            raise InternalCheckError(f"internal check failed: the part program does not read back: {exc}") from None
+        known = np.isfinite(prog.start).all(axis=1) & np.isfinite(prog.end).all(axis=1)
+        flat = known & (prog.kind != 0) & (np.abs(prog.start[:, 2] - prog.end[:, 2]) <= 1e-9) & (prog.end[:, 2] < 0)
+        worst, where, moves = 0.0, None, 0
+        for z in np.unique(np.round(prog.end[flat, 2], 6)):
+            sel = flat & (np.abs(prog.end[:, 2] - z) <= 1e-6)
+            moves += int(sel.sum())
+            level = Toolpath(prog.kind[sel], prog.start[sel], prog.end[sel], prog.center[sel], prog.feed[sel],
+                             units="mm", tool_diameter=float(tool_mm))
+            depth, at = intrusion(level, material)
+            if depth > worst:
+                worst, where = depth, at
+        if worst > tol_mm:
+            raise InternalCheckError(
+                f"internal check failed: the written part program cuts {worst:.6g} mm into the part near "
+                f"({where[0]:.4f}, {where[1]:.4f}) mm (tolerance {tol_mm:g} mm); nothing was written")
+        return [f"replayed from this text: {moves} cutting blocks below the stock top read back, none enters "
+                f"the part by more than the tolerance (deepest {max(worst, 0.0):.6g} mm)",
+                "deviation from each outline: measured on the moves before they were written (not replayed)"]
+
+    return check
+
+
 def _tab_options(tabs, spacing, width, height, scale, tool_mm, depth):
     """Tab options in mm, checked; None when no tabs are asked for."""
     if tabs is None and spacing is None:
@@ -461,7 +501,8 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
 
             timed("gcode", write_gcode, joined, tmp["gcode"], force=True, source=path.name,
                   program_name=Path(final["gcode"]).stem, spindle_speed=spindle_speed,
-                  single_feed=one_feed, line_numbers=line_numbers)
+                  single_feed=one_feed, line_numbers=line_numbers,
+                  check=_replay_part(material, tool_mm, tol_mm) if material is not None else None)
             files["gcode"] = final["gcode"]
         if "report" in tmp:
             from .export.report import write_report

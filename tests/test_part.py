@@ -616,3 +616,14 @@ def test_long_straight_sides_written_as_lines_not_huge_arcs(tmp_path):
     for m in cuts:
         d = shapely.distance(outer.exterior, shapely.points(sample_move(m, 1.0)[:, :2]))
         assert np.abs(d - TOOL / 2).max() <= 0.01 + 1e-4
+
+
+def test_part_program_is_replayed_from_its_text(tmp_path):
+    # the written part program is read back (pathgen's reader) and its moves
+    # swept against the part before it is put in place; the header says so
+    out = tmp_path / "plate.nc"
+    run(plate_dxf(tmp_path / "plate.dxf"), tool_diameter=TOOL, depth=2.0, gcode=out)
+    head = [ln for ln in out.read_text().splitlines() if ln.startswith("(")]
+    said = [ln for ln in head if ln.startswith("(replayed from this text:")]
+    assert len(said) == 1 and "none enters the part by more than the tolerance" in said[0]
+    assert all(len(ln) <= 256 for ln in head)
