@@ -693,6 +693,11 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
             "z": float(found.where[2]), "move": int(found.move),
             "role": roles[int(role_of[found.move])][0] if found.move >= 0 else None},
         "notes": list(plan["notes"]),
+        # which moves follow the tool-center curve (the cut and the overlap):
+        # a replay measures those for deviation; entries, leads and links it
+        # checks for clearance only
+        "along_curve": np.isin(role_of, [i for i, (role, _) in enumerate(roles)
+                                         if role in ("contour", "overlap")]),
         "seam": seam_xy,
         "trimmed": spots,
         "blocks": {

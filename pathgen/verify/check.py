@@ -39,11 +39,16 @@ class Moves:
     start: np.ndarray
     end: np.ndarray
     center: np.ndarray
+    along: np.ndarray | None = None  # (k,) bool: the moves that follow the curve, when known
 
     @classmethod
     def from_toolpath(cls, tp) -> "Moves":
         f = _MM_PER_INCH if tp.units == "inch" else 1.0
-        return cls(np.asarray(tp.kind), tp.start * f, tp.end * f, tp.center * f)
+        along = tp.info.get("along_curve") if isinstance(tp.info, dict) else None
+        if along is not None and len(along) != len(tp.kind):
+            along = None
+        return cls(np.asarray(tp.kind), tp.start * f, tp.end * f, tp.center * f,
+                   None if along is None else np.asarray(along, bool))
 
 
 def _num(v, digits=6) -> str:

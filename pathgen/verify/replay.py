@@ -373,13 +373,32 @@ def _in_plane(kind, start, end):
 
 
 def _along(kind, start, end, q, qj, qtree, capture):
-    """Indices of cutting moves in the plane whose both ends lie within ``capture`` of q."""
-    idx = np.flatnonzero(_in_plane(kind, start, end))
+    """Indices of cutting moves in the plane, at one depth, whose both ends
+    lie within ``capture`` of q.  Moves that descend (ramp and helix
+    entries) are entries, checked for clearance, not for deviation: a helix
+    in a hole barely larger than the tool runs close to q without following
+    it (a ramp along the path is recut at depth, and measured there)."""
+    flat = np.abs(np.asarray(end)[:, 2] - np.asarray(start)[:, 2]) <= 1e-9
+    idx = np.flatnonzero(_in_plane(kind, start, end) & flat)
     if not len(idx):
         return idx
     ends, _ = _polyline_distance(np.vstack([start[idx, :2], end[idx, :2]]), q, qj, qtree)
     near = (ends[: len(idx)] <= capture) & (ends[len(idx):] <= capture)
     return idx[near]
+
+
+def _matching(kind, start, end, expected, chosen, match: float = 1e-3):
+    """Indices of the program's moves in the plane whose start and end (x, y,
+    z) lie within ``match`` mm of those of one of the ``chosen`` expected
+    moves (rounding to 4 decimals moves a point by 1e-4 mm at most)."""
+    from scipy.spatial import cKDTree
+
+    idx = np.flatnonzero(_in_plane(kind, start, end) & np.isfinite(start).all(axis=1))
+    if not len(idx) or not len(chosen):
+        return idx[:0]
+    keys = np.hstack([np.asarray(expected.start)[chosen], np.asarray(expected.end)[chosen]])
+    dist, _ = cKDTree(keys).query(np.hstack([start[idx], end[idx]]))
+    return idx[dist <= match]
 
 
 def replay_deviation(program, contour, d: float, *, tol: float, expected=None, capture=None) -> dict:
@@ -414,7 +433,13 @@ def replay_deviation(program, contour, d: float, *, tol: float, expected=None, c
         capture = min(max(5.0 * tol, 0.02), 0.3)
     q, qj = tool_center_polyline(contour, d, tol)
     qtree = cKDTree(q)
-    along = _along(kind, start, end, q, qj, qtree, capture)
+    ex_along = getattr(expected, "along", None) if expected is not None else None
+    if ex_along is not None:
+        # the moves the expected path says follow the curve, found in the
+        # program by their end points (the written numbers are rounded)
+        along = _matching(kind, start, end, expected, np.flatnonzero(ex_along))
+    else:
+        along = _along(kind, start, end, q, qj, qtree, capture)
     out = {"file_to_curve": 0.0, "curve_to_file": 0.0, "worst_line": None, "gap_at": None,
            "moves": int(len(along)), "levels": []}
     lines = getattr(program, "line", None)
@@ -427,7 +452,10 @@ def replay_deviation(program, contour, d: float, *, tol: float, expected=None, c
     # curve -> file, per cutting depth, on the stretches the expected path covers
     ex = program if expected is None else expected
     ekind = np.asarray(ex.kind)
-    e_along = _along(ekind, ex.start, ex.end, q, qj, qtree, capture)
+    if ex_along is not None:
+        e_along = np.flatnonzero(np.asarray(ex_along) & _in_plane(ekind, ex.start, ex.end))
+    else:
+        e_along = _along(ekind, ex.start, ex.end, q, qj, qtree, capture)
     if len(e_along):
         emoves = _Moves(ekind[e_along], ex.start[e_along], ex.end[e_along], ex.center[e_along])
         edist, _ = emoves.distance(q)
