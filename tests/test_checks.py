@@ -461,3 +461,22 @@ def test_inflections_of_a_dense_rounded_cam(monkeypatch):
     # every sign change would be listed
     monkeypatch.setattr(reach, "WIGGLE_BOW", 0.0)
     assert len(check(c, FAST, Tool(0.0), Cut(side="on")).inflections) > 100
+
+
+def test_spots_the_tool_cannot_reach_have_no_feed_in_the_outputs():
+    # a feed of 0 read as a setting; where the tool cannot reach it cannot
+    # cut at all (tool-radius rule; sources: tool-radius-rule): the text
+    # says so and the JSON has no feed there
+    import json
+
+    from pathgen.pipeline import run
+
+    from pathlib import Path
+
+    res = run(Path(__file__).resolve().parent.parent / "samples" / "plate.csv", tool_diameter=6)  # two sharp inside corners
+    reach = [t for t in res.report.tight_spots if t.reason == "reach"]
+    assert len(reach) == 2
+    assert res.report.to_text().count("cannot cut") >= 2
+    data = res.report.to_dict()
+    assert all(s["allowed_feed"] is None for s in data["tight_spots"] if s["reason"] == "reach")
+    json.dumps(data, allow_nan=False)

@@ -231,7 +231,7 @@ def test_tight_spots_from_a_stand_in_report(tmp_path):
     circles = msp.query("CIRCLE[layer=='TIGHT-SPOTS']")
     texts = [t.dxf.text for t in msp.query("TEXT[layer=='TIGHT-SPOTS']")]
     assert sorted((round(c.dxf.center.x, 9), round(c.dxf.center.y, 9)) for c in circles) == [(-40, 0), (40, 0)]
-    assert texts == ["1 accel R15.6 F850 mm/min", "2 reach R1.2 F0 mm/min"]
+    assert texts == ["1 accel R15.6 F850 mm/min", "2 reach R1.2 cannot cut"]  # no feed where the tool cannot reach
 
 
 def test_tight_spots_from_the_real_check(tmp_path):

@@ -561,7 +561,9 @@ def _to_dict(rep: CheckReport, units: str) -> dict:
             {"reason": t.reason, "text": t.text, "x": _num(t.x, k), "y": _num(t.y, k),
              "s": _num(t.s, k), "start_s": _num(t.start_s, k), "end_s": _num(t.end_s, k),
              "length": _num(t.length, k), "min_radius": _num(t.min_radius, k),
-             "path_radius": _num(t.path_radius, k), "allowed_feed": _num(t.allowed_feed, k),
+             "path_radius": _num(t.path_radius, k),
+             # no feed where the tool cannot reach: it cannot cut there at all
+             "allowed_feed": None if t.reason == "reach" else _num(t.allowed_feed, k),
              "material_left": _num(t.material_left, k), "note": t.note}
             for t in rep.tight_spots
         ],
@@ -644,6 +646,11 @@ def _g(value, k: float = 1.0, digits: int = 4) -> str:
     return text
 
 
+def _feed_text(t, k: float) -> str:
+    """The feed column: "cannot cut" where the tool cannot reach (not a feed of 0)."""
+    return "cannot cut" if t.reason == "reach" else _g(t.allowed_feed, k)
+
+
 def _to_text(rep: CheckReport, units: str) -> str:
     k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
     u = "in" if units == "inch" else "mm"
@@ -686,12 +693,12 @@ def _to_text(rep: CheckReport, units: str) -> str:
     if rep.tight_spots:
         lines.append(
             f"  {'reason':<18} {'x':>10} {'y':>10} {'s':>10} {'length':>9} {'radius':>9} "
-            f"{'feed':>9} {'material':>9}"
+            f"{'feed':>10} {'material':>9}"
         )
         for t in rep.tight_spots:
             lines.append(
                 f"  {t.text:<18} {_g(t.x, k, 6):>10} {_g(t.y, k, 6):>10} {_g(t.s, k, 6):>10} "
-                f"{_g(t.length, k):>9} {_g(t.min_radius, k):>9} {_g(t.allowed_feed, k):>9} "
+                f"{_g(t.length, k):>9} {_g(t.min_radius, k):>9} {_feed_text(t, k):>10} "
                 f"{_g(t.material_left, k):>9}"
             )
         lines.append(f"  (lengths and radii in {u}, feed in {u}/min)")

@@ -334,7 +334,8 @@ def _build(contour, points, toolpath, arcs, report, units):
     for i, (x, y, radius, feed, reason, _) in enumerate(spots, start=1):
         x, y = x * rk, y * rk
         msp.add_circle((x, y), mark, dxfattribs={"layer": "TIGHT-SPOTS"})
-        label = f"{i} {reason} R{_short(radius * rk)} F{_short(feed * rk)} {fu}"
+        ftext = "cannot cut" if reason == "reach" or not feed > 0 else f"F{_short(feed * rk)} {fu}"
+        label = f"{i} {reason} R{_short(radius * rk)} {ftext}"
         msp.add_text(label, height=height, dxfattribs={"layer": "TIGHT-SPOTS", "insert": (x + mark, y + mark)})
     msp.add_text(
         f"pathgen drawing, units {units}. {CAUTION}",
