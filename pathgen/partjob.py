@@ -483,19 +483,13 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     # -- write ----------------------------------------------------------------------------
     import warnings as _w
 
-    from .export._atomic import Staging, clean_stale
+    from .export._atomic import staged_outputs
 
     files = {}
     notes = list(warnings) + [s for s in steps if "bridged" in s] + lead_notes
-    for folder in sorted({str(p.parent) for p in targets.values()}):
-        clean_stale(folder)
-    with _w.catch_warnings(record=True) as caught, Staging(force=force) as stage:
+    final = dict(targets)
+    with _w.catch_warnings(record=True) as caught, staged_outputs(final, force=force) as (stage, tmp):
         _w.simplefilter("always")
-        final = dict(targets)
-        tmp = {kk: stage.path(v, suffix=".report.json" if kk == "report" else None)
-               for kk, v in final.items() if kk != "report_text"}
-        if "report" in tmp:
-            stage.path(final["report_text"], suffix=".report.txt")
         if "gcode" in tmp:
             from .export.gcode import write_gcode
 

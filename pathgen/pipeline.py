@@ -660,22 +660,16 @@ def run(
         plan["total"] = plan["points"] + plan["approximation"] + plan["rounding"]
 
     # -- write -----------------------------------------------------------------
-    from .export._atomic import Staging, clean_stale
+    from .export._atomic import staged_outputs
 
     files = {}
     replayed = {}
     notes = list(getattr(outline, "warnings", ())) + early_notes
-    for folder in sorted({str(p.parent) for p in targets.values()}):
-        clean_stale(folder)
+    final = dict(targets)
     # every output is written under a temporary name first; they appear
     # together once all are written, and a failure leaves none of them
-    with warnings.catch_warnings(record=True) as caught, Staging(force=force) as stage:
+    with warnings.catch_warnings(record=True) as caught, staged_outputs(final, force=force) as (stage, targets):
         warnings.simplefilter("always")
-        final = dict(targets)
-        targets = {k: stage.path(v, suffix=".report.json" if k == "report" else None)
-                   for k, v in final.items() if k != "report_text"}
-        if "report" in targets:
-            stage.path(final["report_text"], suffix=".report.txt")  # written beside the JSON
         if "gcode" in targets:
             from .export.gcode import write_gcode
 

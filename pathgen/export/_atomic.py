@@ -24,7 +24,7 @@ from typing import Iterator, Sequence
 
 from ..errors import ExportError
 
-__all__ = ["atomic_write", "atomic_paths", "check_target", "Staging", "clean_stale"]
+__all__ = ["atomic_write", "atomic_paths", "check_target", "Staging", "clean_stale", "staged_outputs"]
 
 #: Longest file name most file systems take (bytes).
 NAME_MAX = 255
@@ -231,6 +231,26 @@ class Staging:
             with contextlib.suppress(OSError):
                 tmp.unlink()
         return None
+
+
+@contextlib.contextmanager
+def staged_outputs(targets: dict, *, force: bool = False):
+    """A job's outputs, staged: yields ``(stage, temporary)``.
+
+    ``targets`` maps output kinds ("gcode", "report", "report_text", "dxf",
+    "plot") to final paths; ``temporary`` maps the same kinds (but
+    "report_text", which the report writer puts beside its JSON) to the
+    names to write.  Leftovers of killed runs in the target folders are
+    removed first; call ``stage.commit()`` when every file is written.
+    """
+    for folder in sorted({str(Path(p).parent) for p in targets.values()}):
+        clean_stale(folder)
+    with Staging(force=force) as stage:
+        temporary = {k: stage.path(v, suffix=".report.json" if k == "report" else None)
+                     for k, v in targets.items() if k != "report_text"}
+        if "report" in temporary:
+            stage.path(targets["report_text"], suffix=".report.txt")  # written beside the JSON
+        yield stage, temporary
 
 
 def atomic_write(path, data, *, force: bool = False) -> Path:

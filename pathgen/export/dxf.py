@@ -402,8 +402,15 @@ def _write(path, contour, points, toolpath, arcs, report, units, force) -> Path:
                      f"leave out the points or use arcs to make it smaller")
     for note in notes:
         warnings.warn(LargeDrawingWarning(note), stacklevel=3)
-    # ezdxf collects the required CLASS entries from a set, whose order
-    # changes with Python's hash seed: add them now and fix their order
+    return save_drawing(doc, path, force=force)
+
+
+def save_drawing(doc, path, *, force: bool = False) -> Path:
+    """Save an ezdxf document atomically, the same bytes for the same drawing.
+
+    ezdxf collects the required CLASS entries from a set, whose order
+    changes with Python's hash seed: they are added here and sorted.
+    """
     doc.classes.add_required_classes(doc.dxfversion)
     doc.classes.classes = dict(sorted(doc.classes.classes.items()))
     p = Path(os.fspath(path))

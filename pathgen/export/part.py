@@ -87,12 +87,9 @@ def write_part_dxf(path, outlines, contours, rows, *, toolpaths=None, units="mm"
         msp.add_text(label(row), height=size, dxfattribs={"layer": "LABELS", "insert": (x, y + size)})
     for t in tabs or ():
         msp.add_lwpolyline([(x * k, y * k) for x, y in t["points"]], dxfattribs={"layer": "TABS"})
-    doc.classes.add_required_classes(doc.dxfversion)
-    doc.classes.classes = dict(sorted(doc.classes.classes.items()))
-    p = Path(os.fspath(path))
-    with atomic_paths([p], force=force) as (tmp,):
-        doc.saveas(tmp)
-    return p
+    from .dxf import save_drawing
+
+    return save_drawing(doc, path, force=force)
 
 
 def plot_part(path, contours, rows, *, toolpaths=None, units="mm", tabs=None, force: bool = True) -> Path:
