@@ -429,7 +429,10 @@ def read_points(path, *, units: str = "mm", layer=None, closed=None) -> Outline:
         With the file name and line: ``"part.csv line 7: 'abc' is not a number"``.
     """
     check_option("units", units, UNITS)
-    path = os.fspath(path)
+    try:
+        path = os.fsdecode(os.fspath(path))
+    except TypeError:
+        raise InputError(f"path must be a file name (str or path-like), got {type(path).__name__} {path!r}") from None
     name = os.path.basename(path)
     if not os.path.isfile(path):
         raise InputError(f"{name}: no such file ({path})")

@@ -55,3 +55,29 @@ def test_coordinates_out_of_range_are_refused(scale):
     # machine either way
     with pytest.raises(InputError, match="out of range"):
         fit(_circle() * scale, closed=True)
+
+
+@pytest.mark.parametrize("path", [5, 3.0, None, ["a.csv"]])
+def test_read_points_wants_a_file_name(path):
+    from pathgen import read_points
+
+    with pytest.raises(InputError, match="path must be a file name"):
+        read_points(path)
+
+
+def test_read_points_takes_bytes_paths(tmp_path):
+    from pathgen import read_points
+
+    p = tmp_path / "sq.csv"
+    p.write_text("x,y\n0,0\n10,0\n10,10\n0,10\n")
+    assert len(read_points(bytes(p))) == 4
+
+
+@pytest.mark.parametrize("kw, says", [({"tool": 6.0}, "tool must be a pathgen Tool"),
+                                      ({"cut": "outside"}, "cut must be a pathgen Cut"),
+                                      ({"machine": {}}, "machine must be a pathgen Machine")])
+def test_make_toolpath_wants_its_objects(kw, says):
+    from pathgen import make_toolpath
+
+    with pytest.raises(InputError, match=says):
+        make_toolpath(fit(_circle(), closed=True), **kw)

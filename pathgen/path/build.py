@@ -488,6 +488,10 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     tool = Tool() if tool is None else tool
     cut = Cut() if cut is None else cut
     machine = Machine() if machine is None else machine
+    for name, value, kind in (("tool", tool, Tool), ("cut", cut, Cut), ("machine", machine, Machine)):
+        if not isinstance(value, kind):
+            raise InputError(f"{name} must be a pathgen {kind.__name__} (e.g. pathgen.{kind.__name__}(...)), "
+                             f"got {type(value).__name__} {value!r}")
     check_option("moves", moves, MOVES)
     check_option("direction", direction, DIRECTIONS)
     check_option("lead", lead, LEADS)
