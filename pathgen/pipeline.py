@@ -677,7 +677,9 @@ def run(
                   source=Path(source).name, program_name=Path(final["gcode"]).stem,
                   spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers,
                   decimals=plan["decimals"], frame=frame,
-                  **({"notes": (_NOT_REPLAYED,)} if compensation == "machine" else
+                  notes=tuple(f"note: {n}" for n in feed_notes) + ((_NOT_REPLAYED,) if compensation == "machine"
+                                                                     else ()),
+                  **({} if compensation == "machine" else
                      {"check": _replay(contour, tp, tool_mm, side, tol_mm, plan, mach, replayed)}))
             files["gcode"] = final["gcode"]
         if "report" in targets:
@@ -694,7 +696,7 @@ def run(
                 "side": "left of travel" if comp["word"] == "G41" else "right of travel",
                 "radius": comp["radius"]}
             timed("report", write_report, stated, targets["report"], units=units, force=True, program=program,
-                  toolpath=tp)
+                  toolpath=tp, notes=feed_notes)
             files["report"], files["report_text"] = final["report"], final["report_text"]
         if "dxf" in targets:
             from .export.dxf import write_dxf

@@ -82,3 +82,30 @@ def _save(tmp_path):
     p = tmp_path / "c.csv"
     np.savetxt(p, circle(), delimiter=",", header="x,y", comments="")
     return p
+
+
+def test_header_and_report_state_the_same_program_figures(tmp_path):
+    # one figure, one value: blocks, cutting length, cycle time and the feed
+    # cap, as the program's header states them, are in the report beside it
+    import json
+
+    from pathgen._options import duration_text
+
+    out = tmp_path / "p.nc"
+    run(circle(), closed=True, tool_diameter=6, machine=ROUTER, feed=6000, depth=2, step_down=1,
+        gcode=out, report=tmp_path / "p.report.json")
+    text = out.read_text()
+    m = re.search(r"\(motion blocks: (\d+), cutting length: ([0-9.]+) mm, estimated cycle time: ([^)]*)\)", text)
+    assert m, text[:800]
+    data = json.loads((tmp_path / "p.report.json").read_text())
+    assert data["program"]["blocks"] == int(m.group(1))
+    assert data["toolpath"]["cutting_length"] == pytest.approx(float(m.group(2)), rel=1e-5)
+    assert duration_text(data["toolpath"]["cycle_time"]) == m.group(3)
+    assert data["toolpath"]["passes"] == 2
+    # the feed asked above the machine's highest: said in the header and the report
+    assert "capped to 4000 mm/min" in text
+    assert any("capped to 4000 mm/min" in n for n in data["notes"])
+    assert "capped to 4000 mm/min" in (tmp_path / "p.report.txt").read_text()
+    # and the program's motion blocks are what the header counts
+    motion = [ln for ln in text.splitlines() if re.match(r"(N\d+ )?G[0-3]\b", ln)]
+    assert len(motion) == int(m.group(1))

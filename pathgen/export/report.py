@@ -103,6 +103,9 @@ def toolpath_section(tp) -> dict:
                                                              "move", "role")},
         "deviation": float(tp.deviation),
         "tolerance": float(tp.tolerance),
+        # the figures the program's header states, from the same values
+        "cutting_length": float(tp.cutting_length),
+        "cycle_time": float(tp.time),
         "notes": list(info.get("notes", ())),
     }
 
@@ -155,7 +158,7 @@ def report_json(report, *, units: str = "mm", toolpath=None) -> str:
 
 
 def write_report(report, path, *, units: str = "mm", force: bool = False,
-                 program: dict | None = None, toolpath=None) -> tuple[Path, Path]:
+                 program: dict | None = None, toolpath=None, notes=()) -> tuple[Path, Path]:
     """Write ``report`` as JSON and text files, both or neither.
 
     Parameters
@@ -175,6 +178,10 @@ def write_report(report, path, *, units: str = "mm", force: bool = False,
         Facts about the program written beside the report (e.g. the cutter
         compensation at the control: ``word``, ``side``, ``register``,
         ``radius``): a ``program`` field in the JSON and a line in the text.
+    notes : sequence of str
+        The job's notes that belong with its figures (e.g. a feed capped to
+        the machine's highest): a ``notes`` field in the JSON, "note:" lines
+        in the text.
     toolpath : Toolpath, optional
         Adds the program's ``toolpath`` section (entry, leads, heights,
         measured clearance) to both files.
@@ -198,6 +205,11 @@ def write_report(report, path, *, units: str = "mm", force: bool = False,
         data["program"] = _plain(dict(program), "")
         text_json = json.dumps(data, allow_nan=False, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
         text += "program: " + ", ".join(f"{k} {v}" for k, v in sorted(program.items())) + "\n"
+    if notes:
+        data = json.loads(text_json)
+        data["notes"] = [str(n) for n in notes]
+        text_json = json.dumps(data, allow_nan=False, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
+        text += "".join(f"note: {n}\n" for n in notes)
     with atomic_paths([json_path, text_path], force=force) as (tmp_json, tmp_text):
         tmp_json.write_bytes(text_json.encode("utf-8"))
         tmp_text.write_bytes(text.encode("utf-8"))

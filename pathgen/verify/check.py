@@ -81,6 +81,7 @@ def _facts(program, contour, *, offset, tool_radius, side, tolerance, expected, 
     dev = replay_deviation(program, contour, offset, tol=tolerance, expected=expected)
     cl = _clearance(program, contour, tool_radius=tool_radius, side=side, tolerance=tolerance)
     facts = {
+        "blocks": int(len(program.kind)),  # motion blocks as written (the header's count)
         "deviation": dev["deviation"],
         "deviation_moves_to_curve": dev["file_to_curve"],
         "deviation_curve_to_moves": dev["curve_to_file"],
@@ -247,6 +248,7 @@ def program_dict(facts: dict, units: str) -> dict:
         return None if v is None else _u(float(v), units)
 
     out = {
+        "blocks": facts.get("blocks"),
         "deviation": u(facts["deviation"]),
         "deviation_moves_to_curve": u(facts["deviation_moves_to_curve"]),
         "deviation_curve_to_moves": u(facts["deviation_curve_to_moves"]),
