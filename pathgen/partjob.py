@@ -338,7 +338,7 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     """
     import time
 
-    from .pipeline import DEFAULT_TOLERANCE, _check_targets, _check_work, _length, _refuse_clobber
+    from .pipeline import DEFAULT_TOLERANCE, _check_targets, _check_work, _length, _refuse_clobber, stage_timer
 
     check_option("units", units, UNITS)
     if closed is False:
@@ -368,14 +368,7 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     source = str(points)
     _refuse_clobber(targets, path)
     timings = {}
-    note = progress or (lambda stage: None)
-
-    def timed(stage, fn, *a, **kw):
-        note(stage)
-        t0 = time.perf_counter()
-        value = fn(*a, **kw)
-        timings[stage] = timings.get(stage, 0.0) + time.perf_counter() - t0
-        return value
+    timed = stage_timer(progress, timings)
 
     from .part import cut_order, nest, read_part
 

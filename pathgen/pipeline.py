@@ -141,6 +141,22 @@ def contour_facts(contour, report=None, *, per_piece: int | None = None) -> dict
     return facts
 
 
+def stage_timer(progress, timings: dict):
+    """``timed(stage, fn, *args, **kw)``: call ``fn``, announcing the stage to
+    ``progress`` (callable(str) or None) and adding its seconds to
+    ``timings[stage]``."""
+    note = progress or (lambda stage: None)
+
+    def timed(stage, fn, *a, **kw):
+        note(stage)
+        t0 = time.perf_counter()
+        value = fn(*a, **kw)
+        timings[stage] = timings.get(stage, 0.0) + time.perf_counter() - t0
+        return value
+
+    return timed
+
+
 def _check_targets(targets: dict, force: bool) -> dict:
     """Resolve output paths; refuse existing files unless ``force``
     (all checked before anything is written)."""
@@ -521,14 +537,7 @@ def run(
         targets.update(_check_targets({"report_text": txt}, force))
 
     timings = {}
-    note = progress or (lambda stage: None)
-
-    def timed(stage, fn, *a, **kw):
-        note(stage)
-        t0 = time.perf_counter()
-        value = fn(*a, **kw)
-        timings[stage] = time.perf_counter() - t0
-        return value
+    timed = stage_timer(progress, timings)
 
     # -- read ----------------------------------------------------------------
     if isinstance(points, (str, os.PathLike)):

@@ -86,6 +86,18 @@ _M_KNOWN = {2, 3, 4, 5, 6, 7, 8, 9, 30}
 _LETTERS = set("GMXYZIJFSNTHDO")
 
 
+def _arc_rule(start, end, cx, cy, units, scale, lineno, problem) -> None:
+    """NISTIR 6556, center-format arcs: the start and end radius (mm here)
+    may differ by at most ARC_RULE (file units); a radius of 0 is no arc."""
+    r0 = math.hypot(start[0] - cx, start[1] - cy)
+    r1 = math.hypot(end[0] - cx, end[1] - cy)
+    if abs(r0 - r1) > ARC_RULE[units] * scale or r0 == 0.0:
+        f = 1.0 / scale
+        problem(lineno, "arc radius",
+                f"arc start radius {r0 * f:.6f} and end radius {r1 * f:.6f} {units} differ by "
+                f"{abs(r0 - r1) * f:.6f}, more than {ARC_RULE[units]} {units} (NISTIR 6556)")
+
+
 @dataclass(frozen=True)
 class Problem:
     """A rule the program breaks, at ``line`` (1-based) of the file."""
@@ -185,7 +197,6 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
     if raw_lines and raw_lines[-1] == "":
         raw_lines.pop()
     fast = _FAST.fullmatch
-    arc_rule = None
     for lineno, raw in enumerate(raw_lines, start=1):
         code = raw.rstrip("\r")
         m = fast(code) if (incremental is False and units is not None and not ended and len(code) <= _MAX_LINE) \
@@ -213,15 +224,7 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
                     if arc:
                         cx = start[0] + (float(i_) * scale if i_ is not None else 0.0)
                         cy = start[1] + (float(j_) * scale if j_ is not None else 0.0)
-                        r0 = math.hypot(start[0] - cx, start[1] - cy)
-                        r1 = math.hypot(end[0] - cx, end[1] - cy)
-                        if arc_rule is None:
-                            arc_rule = ARC_RULE[units] * scale
-                        if abs(r0 - r1) > arc_rule or r0 == 0.0:
-                            fs = 1.0 / scale
-                            problem(lineno, "arc radius",
-                                    f"arc start radius {r0 * fs:.6f} and end radius {r1 * fs:.6f} {units} differ by "
-                                    f"{abs(r0 - r1) * fs:.6f}, more than {ARC_RULE[units]} {units} (NISTIR 6556)")
+                        _arc_rule(start, end, cx, cy, units, scale, lineno, problem)
                         center = (cx, cy)
                 kinds.append(g)
                 starts.append(start)
@@ -362,14 +365,7 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
                         _fail(source, lineno, f"G{motion} without I or J (the arc's center)")
                     cx = start[0] + vals.get("I", 0.0) * scale
                     cy = start[1] + vals.get("J", 0.0) * scale
-                    r0 = math.hypot(start[0] - cx, start[1] - cy)
-                    r1 = math.hypot(end[0] - cx, end[1] - cy)
-                    rule = ARC_RULE[units] * scale
-                    if abs(r0 - r1) > rule or r0 == 0.0:
-                        f = 1.0 / scale
-                        problem(lineno, "arc radius",
-                                f"arc start radius {r0 * f:.6f} and end radius {r1 * f:.6f} {units} differ by "
-                                f"{abs(r0 - r1) * f:.6f}, more than {ARC_RULE[units]} {units} (NISTIR 6556)")
+                    _arc_rule(start, end, cx, cy, units, scale, lineno, problem)
                     center = (cx, cy)
                 elif has_ij:
                     _fail(source, lineno, "I or J on a move that is not an arc")
