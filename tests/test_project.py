@@ -133,7 +133,7 @@ def test_sources_are_cited_inside_the_project():
             for name in re.split(r"[,\s]+", group.strip(" ,.")):
                 if name and name not in listed:
                     unknown.append(f"{path.relative_to(ROOT)}: {name}")
-        if re.search(r"SOURCES(\.md)?\s*§|shared/", text) and path.name != "test_project.py":
+        if re.search(r"SOURCES(\.md)?\s*§|shared/|\bBRIEF\b|STYLE\.md", text) and path.name != "test_project.py":
             outside.append(str(path.relative_to(ROOT)))
     assert not unknown, unknown
     assert not outside, outside
