@@ -122,3 +122,47 @@ def test_every_example_in_the_guide_is_real_output(tmp_path, monkeypatch):
             last_output = None
     assert ran == len(commands)
     assert checked >= 5, "fewer outputs shown than the guide had"
+
+
+def _shown_messages(doc: str, after: str):
+    """The lines of the first plain block after the words ``after`` in a doc."""
+    text = (ROOT / "docs" / doc).read_text(encoding="utf-8")
+    block = re.search(r"^```\n(.*?)^```", text[text.index(after):], flags=re.S | re.M)
+    return block.group(1).splitlines()
+
+
+def test_error_lines_shown_in_the_docs_are_the_real_ones(tmp_path, monkeypatch):
+    # docs/cli.md and docs/input.md show what some bad inputs print: make
+    # those inputs and compare the printed line with the one shown
+    import ezdxf
+
+    from pathgen import read_points
+    from pathgen.errors import InputError
+
+    monkeypatch.chdir(tmp_path)
+    (tmp_path / "nan.csv").write_text("x,y\n0,0\n1.0,nan\n2,2\n")
+    (tmp_path / "part.csv").write_text("x,y\n0,0\n1,0\n1,1\n0,1\n2,2\nabc,3\n")
+    shutil.copy(ROOT / "samples" / "bracket.csv", tmp_path / "bracket.csv")
+    bracket = ["bracket.csv", "-o", "bracket.nc", "--tool-diameter", "6"]
+    assert main(["gcode"] + bracket, out=io.StringIO(), err=io.StringIO()) == 0
+
+    def printed(argv):
+        err = io.StringIO()
+        assert main(argv, out=io.StringIO(), err=err) == 2
+        return err.getvalue().strip()
+
+    cli = [printed(["check", "nan.csv"]), printed(["gcode"] + bracket), printed(["check", "bracket.csv", "--bogus"])]
+    assert _shown_messages("cli.md", "Error lines look like") == cli
+
+    doc = _shown_messages("input.md", "## Messages")
+    assert printed(["check", "part.csv"]) == f"pathgen check: error: {doc[0]}"
+    (tmp_path / "part.csv").write_text("0,0,0,0\n1,1\n")
+    assert printed(["check", "part.csv"]) == f"pathgen check: error: {doc[1]}"
+    drawing = ezdxf.new("R2010")
+    msp = drawing.modelspace()
+    msp.add_lwpolyline([(0, 0), (50, 0), (50, 30), (0, 30)], close=True, dxfattribs={"layer": "OUTER"})
+    msp.add_lwpolyline([(10, 10), (20, 10), (20, 20), (10, 20)], close=True, dxfattribs={"layer": "HOLE"})
+    drawing.saveas(tmp_path / "drawing.dxf")
+    with pytest.raises(InputError) as info:
+        read_points("drawing.dxf")  # one outline asked for, two drawn
+    assert str(info.value) == doc[2]
