@@ -30,6 +30,7 @@ import sys
 
 from ._options import CAUTION
 from ._version import __version__
+from .job import DEFAULT_CORNER_ANGLE
 
 __all__ = ["main", "CAUTION"]
 
@@ -153,7 +154,7 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                    help="auto: smooth to the points' measured noise when it would fake curvature, "
                         "else fit exactly (default); off: fit the points exactly; TOL: smooth, "
                         "keeping the contour within TOL of every point")
-    g.add_argument("--corner-angle", type=_angle, metavar="DEG",
+    g.add_argument("--corner-angle", type=_angle, metavar="DEG", default=DEFAULT_CORNER_ANGLE,
                    help="turning angle above which a point is a sharp corner (default: 40; off: no corners)")
     g.add_argument("--layer", metavar="NAME", help="DXF input: the layer that holds the outline")
     g.add_argument("--allow-crossing", action="store_true",

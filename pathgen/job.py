@@ -386,3 +386,23 @@ def load_job_machine(options: JobOptions):
     if isinstance(machine, Machine):
         return load_machine(None, **{**machine.__dict__, **{k: v for k, v in overrides.items() if v}})
     return load_machine(machine, **overrides)
+
+
+def job_options(points, options, kwargs: dict) -> JobOptions:
+    """The options of a job on ``points``: ``options`` as given (checked
+    against a drawing's declared units), or built from the user's keyword
+    options ``kwargs``; giving both is an error."""
+    if options is None:
+        return JobOptions.from_user(points, **kwargs)
+    if not isinstance(options, JobOptions):
+        raise InputError(f"options must be a JobOptions (JobOptions.from_user(...)), got {type(options).__name__}")
+    if kwargs:
+        raise InputError(f"give the options as a JobOptions or as keywords, not both (got {', '.join(sorted(kwargs))}"
+                         " beside options=)")
+    if not options.units_given:
+        declared, found = _job_units(points, None)
+        if found and declared != options.units:
+            raise InputError(f"{Path(points).name}: the drawing declares its units as {declared} ($INSUNITS) but "
+                             f"the options are in {options.units}; build them from the drawing "
+                             f"(JobOptions.from_user(path, ...)) or give units={declared!r}")
+    return options
