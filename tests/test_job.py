@@ -166,3 +166,14 @@ def test_corner_angle_none_means_no_corners_everywhere():
     assert len(run(PLATE, corner_angle="off").contour.corners) == 0
     assert len(fit_outline(read_points(PLATE), corner_angle=None).corners) == 0
     assert JobOptions.from_user(corner_angle=None) == JobOptions.from_user(corner_angle="off")
+
+
+def test_api_page_runs_as_written(tmp_path, monkeypatch):
+    # docs/api.md is a notebook session: every line runs and prints what the page says
+    import doctest
+
+    monkeypatch.chdir(tmp_path)  # the example writes cam.nc into the current folder
+    result = doctest.testfile(str(ROOT / "docs" / "api.md"), module_relative=False,
+                              optionflags=doctest.ELLIPSIS | doctest.NORMALIZE_WHITESPACE)
+    assert result.attempted >= 10 and result.failed == 0
+    assert (tmp_path / "cam.nc").is_file()
