@@ -5,9 +5,12 @@ command line is a thin layer over it.  Each stage is a pure function of
 the previous stage's value, and :class:`Result` keeps every value so a
 notebook can look at any of them.
 
-Lengths are mm inside.  With ``units="inch"`` the points *and every length
-option* (tool diameter, tolerance, depths, seam, smoothing) are read as
-inches and feeds as inch/min; they are converted to mm at this boundary.
+Lengths are mm inside.  The options travel as one checked
+:class:`pathgen.job.JobOptions` (lengths mm, angles radians), built once by
+the command line or by :func:`run` from its keywords: with
+``units="inch"`` the points *and every length option* (tool diameter,
+tolerance, depths, seam, smoothing) are read as inches and feeds as
+inch/min, and converted to mm there, once.
 
 Nothing is written unless asked for (``gcode=``, ``dxf=``, ``report=``,
 ``plot=``).  Before any file is written, every target is checked: an

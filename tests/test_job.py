@@ -177,3 +177,44 @@ def test_api_page_runs_as_written(tmp_path, monkeypatch):
                               optionflags=doctest.ELLIPSIS | doctest.NORMALIZE_WHITESPACE)
     assert result.attempted >= 10 and result.failed == 0
     assert (tmp_path / "cam.nc").is_file()
+
+
+def test_verify_takes_the_options_object_and_measures_an_inch_program_in_mm(tmp_path):
+    # the program pathgen wrote for an inch job, read back against the same
+    # options given either way: the same facts; its tolerance is the job's
+    # 0.01 mm (the default length in either unit)
+    from pathgen.pipeline import verify
+
+    kw = {"closed": True, "units": "inch", "tool_diameter": 0.25, "depth": 0.08}
+    run(cam() / IN, gcode=tmp_path / "p.nc", **kw)
+    a, _ = verify(tmp_path / "p.nc", cam() / IN, **kw)
+    b, res = verify(tmp_path / "p.nc", cam() / IN, JobOptions.from_user(**kw))
+    assert a == b
+    assert res.units == "inch" and a["status"] == 0
+    assert a["tolerance"] == pytest.approx(0.01, rel=1e-9)
+    with pytest.raises(InputError, match=r"verify writes no files \(gcode= was given\)"):
+        verify(tmp_path / "p.nc", cam() / IN, gcode=tmp_path / "q.nc", **kw)
+
+
+def test_the_command_line_builds_the_options_once(monkeypatch, tmp_path):
+    # the CLI checks and converts the options once, then hands the object on
+    import io
+
+    import pathgen.cli as cli
+
+    built = []
+    real = JobOptions.from_user
+
+    def counting(*a, **kw):
+        built.append(kw)
+        return real(*a, **kw)
+
+    monkeypatch.setattr(cli.JobOptions, "from_user", counting)
+    out, err = io.StringIO(), io.StringIO()
+    status = cli.main(["gcode", str(PLATE), "--tool-diameter", "3", "-o", str(tmp_path / "p.nc"), "--quiet"],
+                      out=out, err=err)
+    # exit 1: the plate's notch has sharp inside corners no round tool can cut
+    assert status == 1, err.getvalue()
+    assert (tmp_path / "p.nc").is_file()
+    assert len(built) == 1 and built[0]["tool_diameter"] == 3.0
+    assert built[0]["corner_angle"] == DEFAULT_CORNER_ANGLE  # the command line's default is the API's
