@@ -45,6 +45,7 @@ _LAZY = {
     "plot": "pathgen.export.plot",
     "run": "pathgen.pipeline",
     "run_part": "pathgen.pipeline",
+    "JobOptions": "pathgen.job",
 }
 
 __all__ = ["__version__", "PathgenError", "InputError", "ExportError", *_LAZY]

@@ -52,6 +52,15 @@ CAUTION_LINES = (
 CAUTION = " ".join(CAUTION_LINES)
 
 SIDES = ("outside", "inside", "on")
+#: The allowed values of a job's choice options (one list each; the
+#: options object, the pipeline and the command line use these).
+MOVES = ("arcs", "lines")
+LEADS = ("arc", "line", "none")
+#: Milling direction with a clockwise (M3) spindle.
+MILLING_DIRECTIONS = ("climb", "conventional")
+#: Who offsets the tool: pathgen (the tool-center path) or the control (G41/G42).
+COMPENSATIONS = ("computed", "machine")
+ENTRIES = ("plunge", "ramp", "helix")
 
 
 def side_sign(side: str) -> int:

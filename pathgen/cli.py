@@ -28,8 +28,9 @@ import math
 import os
 import sys
 
-from ._options import CAUTION
+from ._options import CAUTION, COMPENSATIONS, ENTRIES, LEADS, MILLING_DIRECTIONS, MOVES, SIDES, UNITS
 from ._version import __version__
+from .job import DEFAULT_CORNER_ANGLE, JobOptions
 
 __all__ = ["main", "CAUTION"]
 
@@ -146,14 +147,14 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                    help="end condition of an open outline (default: not-a-knot)")
     g.add_argument("--param", choices=("chord", "centripetal", "uniform"), default="chord",
                    help="how the spline parameter advances between points (default: chord)")
-    g.add_argument("--units", choices=("mm", "inch"),
+    g.add_argument("--units", choices=UNITS,
                    help="units of the points and of every length option (default: a drawing's own units, "
                         "else mm)")
     g.add_argument("--smooth", type=_smooth, default="auto", metavar="auto|off|TOL",
                    help="auto: smooth to the points' measured noise when it would fake curvature, "
                         "else fit exactly (default); off: fit the points exactly; TOL: smooth, "
                         "keeping the contour within TOL of every point")
-    g.add_argument("--corner-angle", type=_angle, metavar="DEG",
+    g.add_argument("--corner-angle", type=_angle, metavar="DEG", default=DEFAULT_CORNER_ANGLE,
                    help="turning angle above which a point is a sharp corner (default: 40; off: no corners)")
     g.add_argument("--layer", metavar="NAME", help="DXF input: the layer that holds the outline")
     g.add_argument("--allow-crossing", action="store_true",
@@ -163,7 +164,7 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
     g = p.add_argument_group("machine, tool and cut")
     g.add_argument("--machine", metavar="PROFILE.toml", help="machine profile (feed, acceleration, block rate)")
     g.add_argument("--tool-diameter", type=_number, metavar="D", help="cutter diameter")
-    g.add_argument("--side", choices=("outside", "inside", "on"), default="outside",
+    g.add_argument("--side", choices=SIDES, default="outside",
                    help="cut outside the outline, inside it (a pocket or hole) or on it (default: outside)")
     g.add_argument("--feed", type=_number, metavar="F",
                    help="programmed cutting feed per minute (default: from the chip load, else 1000 mm/min; "
@@ -177,7 +178,7 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
     g.add_argument("--tolerance", type=_number, metavar="E",
                    help="chord tolerance: largest distance of the moves from the curve "
                         "(default: 0.01 mm, 0.00039 inch)")
-    g.add_argument("--moves", choices=("arcs", "lines"), default="arcs",
+    g.add_argument("--moves", choices=MOVES, default="arcs",
                    help="write the path as arcs (G2/G3 and G1) or lines only (default: arcs)")
 
     g = p.add_argument_group("toolpath")
@@ -185,15 +186,15 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
     g.add_argument("--step-down", type=_number, metavar="DZ", help="depth of each pass")
     g.add_argument("--safe-height", type=_number, metavar="H", help="clearance height for rapid moves")
     g.add_argument("--seam", type=_pair, metavar="X,Y", help="start a closed cut nearest to this point")
-    g.add_argument("--lead", choices=("arc", "line", "none"), default="arc",
+    g.add_argument("--lead", choices=LEADS, default="arc",
                    help="lead-in and lead-out move (default: arc)")
-    g.add_argument("--direction", choices=("climb", "conventional"), default="climb",
+    g.add_argument("--direction", choices=MILLING_DIRECTIONS, default="climb",
                    help="milling direction with a clockwise (M3) spindle (default: climb)")
     g.add_argument("--plunge-feed", type=_number, metavar="F",
                    help="feed of the plunge to depth per minute (default: half the cutting feed)")
     g.add_argument("--lead-length", type=_number, metavar="L",
                    help="lead size: arc radius or line length (default: the tool diameter, shrunk to fit)")
-    g.add_argument("--entry", choices=("plunge", "ramp", "helix"), default="plunge",
+    g.add_argument("--entry", choices=ENTRIES, default="plunge",
                    help="how the tool goes down to each pass: straight, along the path, or a helix "
                         "(default: plunge)")
     g.add_argument("--ramp-angle", type=_number, metavar="DEG",
@@ -222,7 +223,7 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
         g.add_argument("--one-feed", action="store_true",
                        help="write one constant cutting feed instead of the planned feed per block")
         g.add_argument("--line-numbers", action="store_true", help="number the blocks (N words)")
-        g.add_argument("--compensation", choices=("computed", "machine"), default="computed",
+        g.add_argument("--compensation", choices=COMPENSATIONS, default="computed",
                        help="computed (default): the program is the tool-center path; machine: the program "
                             "follows the part line with G41/G42 and a D word, the control offsets it")
 
@@ -373,13 +374,13 @@ def _finite_or_null(record: dict) -> dict:
 
 # -- commands -------------------------------------------------------------------
 def _run_options(a) -> dict:
-    """Pipeline keyword arguments from parsed options."""
+    """The job's options as the user typed them (for :meth:`JobOptions.from_user`)."""
     return dict(
         closed=a.closed, end=a.end, param=a.param, units=a.units, smooth=a.smooth,
         corner_angle=a.corner_angle, layer=a.layer, machine=a.machine,
         tool_diameter=a.tool_diameter, feed=a.feed, accel=a.accel, side=a.side,
         tolerance=a.tolerance, moves=a.moves, depth=a.depth, step_down=a.step_down,
-        safe_height=a.safe_height, seam=a.seam, lead=a.lead, force=a.force,
+        safe_height=a.safe_height, seam=a.seam, lead=a.lead,
         direction=a.direction, plunge_feed=a.plunge_feed,
         lead_length=a.lead_length, entry=a.entry, ramp_angle=a.ramp_angle,
         retract_height=a.retract_height, overlap=a.overlap,
@@ -431,16 +432,17 @@ def _emit(result, a, *, caution: str, out=sys.stdout, err=sys.stderr) -> int:
 def _cmd_job(a, out, err) -> int:
     from .pipeline import run
 
-    opts = _run_options(a)
+    opts = JobOptions.from_user(a.points, **_run_options(a))
+    files = {}
     if a.command == "gcode":
         target = _output(a, ".nc")
-        opts["gcode"] = target
-        opts["report"] = str(_report_path(target))
+        files["gcode"] = target
+        files["report"] = str(_report_path(target))
     elif a.command == "dxf":
-        opts["dxf"] = _output(a, ".dxf")
+        files["dxf"] = _output(a, ".dxf")
     elif a.command == "plot":
-        opts["plot"] = _output(a, ".png")
-    result = run(a.points, progress=_stage_notes(a, err), **opts)
+        files["plot"] = _output(a, ".png")
+    result = run(a.points, opts, force=a.force, progress=_stage_notes(a, err), **files)
     caution = {"gcode": "always", "check": "text"}.get(a.command, "")
     try:
         status = _emit(result, a, caution=caution, out=out, err=err)
@@ -573,7 +575,7 @@ def _cmd_batch(a, out, err) -> int:
 
         raise InputError(f"{a.directory}: no points files (.csv .txt .xy .dxf) in this folder")
     rows = run_batch(a.directory, a.output, jobs=a.jobs, files=files,
-                     progress=_progress_bar(err, a.quiet), **_run_options(a))
+                     progress=_progress_bar(err, a.quiet), force=a.force, **_run_options(a))
     return _emit_rows(rows, a, out, err)
 
 
@@ -584,7 +586,7 @@ def _cmd_demo(a, out, err) -> int:
     for key in ("machine", "tool_diameter"):  # demo defaults unless given
         if opts[key] is None:
             del opts[key]
-    rows = run_demo(a.directory, progress=_progress_bar(err, a.quiet), **opts)
+    rows = run_demo(a.directory, progress=_progress_bar(err, a.quiet), force=a.force, **opts)
     footer = (f"Wrote the samples, router.toml and every output into {a.directory}/ "
               "(the hook's 2 mm slot is too tight for the demo's 6 mm tool, on purpose).")
     return _emit_rows(rows, a, out, err, footer)
@@ -648,10 +650,7 @@ def _cmd_verify(a, out, err) -> int:
     from .pipeline import verify
     from .verify.check import program_dict
 
-    opts = _run_options(a)
-    for key in ("spindle_speed", "one_feed", "line_numbers", "force"):
-        opts.pop(key, None)
-    facts, result = verify(a.program, a.points, **opts)
+    facts, result = verify(a.program, a.points, JobOptions.from_user(a.points, **_run_options(a)))
     if not a.quiet:
         for note in result.notes:
             err.write(f"pathgen verify: note: {' '.join(note.split())}\n")

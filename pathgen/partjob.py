@@ -16,7 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ._options import MM_PER_INCH, SIDES, UNITS, check_option, check_positive
+from ._options import MM_PER_INCH, SIDES, check_option
 from .errors import InputError
 
 __all__ = ["run_part", "PartResult", "PartReport"]
@@ -250,7 +250,11 @@ def _replay_part(material, tool_mm: float, tol_mm: float):
 
 
 def _tab_options(tabs, spacing, width, height, scale, tool_mm, depth):
-    """Tab options in mm, checked; None when no tabs are asked for."""
+    """Tab options in mm, checked; None when no tabs are asked for.
+
+    ``spacing``, ``width``, ``height`` and ``depth`` are mm (checked by
+    :class:`pathgen.job.JobOptions`); ``scale`` (mm per user unit) is for
+    the messages."""
     if tabs is None and spacing is None:
         if width is not None or height is not None:
             raise InputError("tab width and height need tabs= (--tabs N) or tab_spacing= (--tab-spacing L)")
@@ -261,13 +265,13 @@ def _tab_options(tabs, spacing, width, height, scale, tool_mm, depth):
         raise InputError(f"tabs must be a whole number from 1 to 100, got {tabs!r}")
     if depth is None:
         raise InputError("tabs hold a part cut through: give the depth (depth=, --depth)")
-    d = check_positive("depth", depth) * scale
+    d = depth
     tool = tool_mm or 0.0
-    w = max(3.0, tool) if width is None else check_positive("tab width", width) * scale
-    h = min(1.0, 0.5 * d) if height is None else check_positive("tab height", height) * scale
+    w = max(3.0, tool) if width is None else width
+    h = min(1.0, 0.5 * d) if height is None else height
     if h >= d:
         raise InputError(f"tab height {h / scale:g} must be below the depth {d / scale:g}")
-    sp = None if spacing is None else check_positive("tab spacing", spacing) * scale
+    sp = spacing
     return {"count": tabs, "spacing": sp, "width": w, "height": h}
 
 
@@ -310,17 +314,15 @@ def _tabs_mm(tp, k):
             for t in tp.info.get("tabs", [])]
 
 
-def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None, closed=None,
-             end: str = "not-a-knot", param: str = "chord", smooth=None, corner_angle=None,
-             machine=None, tool_diameter=None, feed=None, accel=None, side=None, tolerance=None,
-             moves: str = "arcs", depth=None, step_down=None, safe_height=None, seam=None,
-             lead: str = "arc", direction: str = "climb", plunge_feed=None, spindle_speed=None,
-             one_feed: bool = False, line_numbers: bool = False, allow_crossing: bool = False,
-             tabs=None, tab_spacing=None, tab_width=None, tab_height=None,
-             gcode=None, dxf=None, report=None, plot=None, force: bool = False, progress=None):
+def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, force: bool = False,
+             progress=None, **kwargs):
     """Run the whole job on a part file: every closed outline, nested, in one program.
 
-    Options are those of :func:`pathgen.pipeline.run` (lengths in ``units``)
+    Options are those of :func:`pathgen.pipeline.run` (a
+    :class:`pathgen.job.JobOptions`, or keywords with lengths in ``units``;
+    called directly with keywords, ``smooth`` defaults to None, exact
+    interpolation, as it always has here; :func:`pathgen.pipeline.run`
+    passes its "auto")
     plus ``sides`` ({outline number or layer name: "outside"/"inside"/"on"},
     overriding the nesting) and ``join_gap`` (DXF: open elements whose ends
     lie within it are joined, default 0.01 mm).  ``side`` and ``seam`` apply
@@ -338,49 +340,57 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     """
     import time
 
-    from .pipeline import DEFAULT_TOLERANCE, _check_targets, _check_work, _length, _refuse_clobber, stage_timer
+    from .job import job_options, load_job_machine
+    from .pipeline import _check_targets, _check_work, _refuse_clobber, stage_timer
 
-    check_option("units", units, UNITS)
-    if closed is False:
+    if options is None:
+        kwargs.setdefault("smooth", None)
+    opts = job_options(points, options, kwargs)
+    units = opts.units
+    if opts.closed is False:
         raise InputError("a part's outlines are closed; closed=False (--open) applies to one outline")
-    if seam is not None:
+    if opts.seam is not None:
         raise InputError("seam applies to one outline; a part's outlines each start at their flattest stretch")
-    if side not in (None, "outside"):
-        raise InputError(f"side={side!r} applies to one outline; a part's sides come from the nesting "
+    if opts.side != "outside":
+        raise InputError(f"side={opts.side!r} applies to one outline; a part's sides come from the nesting "
                          "(holes inside, outer outlines outside): set them per outline or layer with sides=")
-    scale = MM_PER_INCH if units == "inch" else 1.0
-    tol_mm = DEFAULT_TOLERANCE if tolerance is None else check_positive("tolerance", tolerance) * scale
-    tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
-    gap_mm = None if join_gap is None else check_positive("join gap", join_gap) * scale
-    from .checks.machine import Cut, Machine, Tool, load_machine
+    scale = opts.scale
+    tol_mm = opts.tolerance
+    tool_mm = opts.tool_diameter
+    gap_mm = opts.join_gap
+    from .checks.machine import Cut, Tool
 
-    overrides = {"max_accel": _length("accel", accel, scale)}
-    if isinstance(machine, Machine):
-        mach = load_machine(None, **{**machine.__dict__, **{k: v for k, v in overrides.items() if v}})
-    else:
-        mach = load_machine(machine, **overrides)
+    mach = load_job_machine(opts)
     tool = Tool(tool_mm if tool_mm is not None else 0.0)
-    feed_mm = None if feed is None else check_positive("feed", feed) * scale
+    feed_mm = opts.feed
     targets = _check_targets({"gcode": gcode, "dxf": dxf, "report": report, "plot": plot}, force)
     if "report" in targets:
         targets.update(_check_targets({"report_text": targets["report"].with_suffix(".txt")}, force))
     path = Path(points)
     source = str(points)
     _refuse_clobber(targets, path)
+    given = [name for name, value, default in (
+        ("entry", opts.entry, "plunge"), ("ramp angle", opts.ramp_angle, None),
+        ("lead length", opts.lead_length, None), ("retract height", opts.retract_height, None),
+        ("overlap", opts.overlap, None), ("compensation", opts.compensation, "computed"),
+        ("flutes", opts.flutes, None), ("chip load", opts.chip_load, None))
+        if value != default]
+    if given:
+        raise InputError(f"{source}: a part of several outlines takes no {', '.join(given)} yet: "
+                         "run its outlines one at a time for these options")
     timings = {}
     timed = stage_timer(progress, timings)
 
     from .part import cut_order, nest, read_part
 
-    outlines, steps, warnings = timed("read", read_part, path, units=units, layers=layer,
+    outlines, steps, warnings = timed("read", read_part, path, units=units, layers=opts.layer,
                                       tolerance=tol_mm, gap=gap_mm)
     import numpy as np
 
     allpts = np.vstack([o.polygon_points(0.01) for o in outlines])
-    _check_work(allpts, tol_mm, tool_mm, _length("depth", depth, scale),
-                _length("step down", step_down, scale), units)
+    _check_work(allpts, tol_mm, tool_mm, opts.depth, opts.step_down, units)
     levels = timed("nest", nest, outlines)
-    side_list = _sides(outlines, levels, sides)
+    side_list = _sides(outlines, levels, opts.sides)
     makes_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
     if "gcode" in targets and tool_mm is None and any(s != "on" for s in side_list):
         raise InputError("a program cutting a part needs the tool diameter (tool_diameter=, --tool-diameter)")
@@ -390,12 +400,8 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     from .outline import fit_outline
 
     # points files: "auto" (the default) smooths each outline to its own noise
-    smooth_kw = smooth if smooth is None or isinstance(smooth, str) else _length("smooth", smooth, scale)
-    fit_kw = {"end": end, "param": param, "smooth": smooth_kw}
-    if corner_angle == "off":
-        fit_kw["corner_angle"] = None
-    elif corner_angle is not None:
-        fit_kw["corner_angle"] = check_positive("corner angle", corner_angle)
+    fit_kw = {"end": opts.end, "param": opts.param, "smooth": opts.smooth,
+              "corner_angle": opts.corner_angle_degrees}
     contours, reports, paths = [], [], []
     for o, s in zip(outlines, side_list):
         try:
@@ -405,7 +411,8 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
                 contours.append(timed("fit", fit_outline, o.outline, **fit_kw))
         except InputError as exc:
             raise InputError(f"outline {o.number} ({o.where}): {exc}") from None
-    tab_opts = _tab_options(tabs, tab_spacing, tab_width, tab_height, scale, tool_mm, depth)
+    tab_opts = _tab_options(opts.tabs, opts.tab_spacing, opts.tab_width, opts.tab_height, scale, tool_mm,
+                            opts.depth)
     if tab_opts and not makes_path:
         tab_opts = None  # tabs belong to a program
     material = _material(outlines, contours) if makes_path else None
@@ -418,11 +425,10 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
             if makes_path:
                 from .path.build import make_toolpath
 
-                kw = {"moves": moves, "lead": lead, "units": units, "direction": direction}
-                for name, value in (("depth", depth), ("step_down", step_down),
-                                    ("safe_height", safe_height), ("plunge_feed", plunge_feed)):
-                    if value is not None:
-                        kw[name] = _length(name.replace("_", " "), value, scale)
+                kw = {"moves": opts.moves, "lead": opts.lead, "units": units, "direction": opts.direction}
+                for name in ("depth", "step_down", "safe_height", "plunge_feed"):
+                    if getattr(opts, name) is not None:
+                        kw[name] = getattr(opts, name)
                 tp = timed("toolpath", make_toolpath, c, tool, cut, mach, **kw)
                 if s != "on":
                     tp = timed("clearance", _clear_leads, tp, c, tool, cut, mach, kw, material, tol_mm,
@@ -487,8 +493,8 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
             from .export.gcode import write_gcode
 
             timed("gcode", write_gcode, joined, tmp["gcode"], force=True, source=path.name,
-                  program_name=Path(final["gcode"]).stem, spindle_speed=spindle_speed,
-                  single_feed=one_feed, line_numbers=line_numbers,
+                  program_name=Path(final["gcode"]).stem, spindle_speed=opts.spindle_speed,
+                  single_feed=opts.one_feed, line_numbers=opts.line_numbers,
                   check=_replay_part(material, tool_mm, tol_mm) if material is not None else None)
             files["gcode"] = final["gcode"]
         if "report" in tmp:

@@ -5,9 +5,12 @@ command line is a thin layer over it.  Each stage is a pure function of
 the previous stage's value, and :class:`Result` keeps every value so a
 notebook can look at any of them.
 
-Lengths are mm inside.  With ``units="inch"`` the points *and every length
-option* (tool diameter, tolerance, depths, seam, smoothing) are read as
-inches and feeds as inch/min; they are converted to mm at this boundary.
+Lengths are mm inside.  The options travel as one checked
+:class:`pathgen.job.JobOptions` (lengths mm, angles radians), built once by
+the command line or by :func:`run` from its keywords: with
+``units="inch"`` the points *and every length option* (tool diameter,
+tolerance, depths, seam, smoothing) are read as inches and feeds as
+inch/min, and converted to mm there, once.
 
 Nothing is written unless asked for (``gcode=``, ``dxf=``, ``report=``,
 ``plot=``).  Before any file is written, every target is checked: an
@@ -24,15 +27,12 @@ import warnings
 from dataclasses import dataclass, field
 from pathlib import Path
 
-from ._options import MM_PER_INCH, SIDES, UNITS, check_flag, check_option, check_positive
+from ._options import COMPENSATIONS, LEADS, MM_PER_INCH, MOVES, check_option  # noqa: F401  (MOVES, LEADS re-exported)
 from .errors import InputError, PathgenError
+from .job import DEFAULT_TOLERANCE, JobOptions, cutting_feed, job_options, load_job_machine  # noqa: F401
 
-__all__ = ["run", "run_part", "verify", "Result", "MOVES", "LEADS", "contour_facts"]
+__all__ = ["run", "run_part", "verify", "Result", "JobOptions", "MOVES", "LEADS", "contour_facts"]
 
-MOVES = ("arcs", "lines")
-#: Who offsets the tool: pathgen (the tool-center path) or the control (G41/G42).
-COMPENSATIONS = ("computed", "machine")
-LEADS = ("arc", "line", "none")
 POINT_SUFFIXES = (".csv", ".txt", ".xy", ".dxf")
 
 
@@ -165,42 +165,6 @@ def _check_targets(targets: dict, force: bool) -> dict:
     return {kind: check_target(p, force=force) for kind, p in targets.items() if p is not None}
 
 
-def _cutting_feed(feed, flutes, chip_load, spindle_speed, scale, machine, units):
-    """The cutting feed (mm/min or None for the default) and notes about it.
-
-    Given ``feed`` wins; else flutes × chip load × spindle speed (common
-    practice; sources: chip-load) when all three are given.  A feed above
-    the machine's highest feed is capped to it and said.
-    """
-    u = "inch" if units == "inch" else "mm"
-    notes = []
-    given = [v is not None for v in (flutes, chip_load)]
-    if any(given) and not all(given):
-        raise InputError("a feed from the chip load needs both flutes (--flutes) and chip load (--chip-load)")
-    if feed is not None:
-        f = check_positive("feed", feed) * scale
-        source = "the feed asked for"
-    elif all(given):
-        if spindle_speed is None:
-            raise InputError("a feed from the chip load needs the spindle speed (--spindle-speed)")
-        z = check_positive("flutes", flutes)
-        if z != int(z) or z > 100:
-            raise InputError(f"flutes must be a whole number from 1 to 100, got {flutes!r}")
-        fz = check_positive("chip load", chip_load) * scale
-        f = z * fz * check_positive("spindle speed", spindle_speed)
-        source = (f"the feed from the chip load ({int(z)} flutes x {fz / scale:g} {u} x "
-                  f"{spindle_speed:g} rev/min = {f / scale:.6g} {u}/min)")
-        notes.append(f"cutting feed {f / scale:.6g} {u}/min from {int(z)} flutes x {fz / scale:g} {u} "
-                     f"per tooth x {spindle_speed:g} rev/min")
-    else:
-        return None, notes
-    if f > machine.max_feed:
-        notes.append(f"{source} is above the machine's highest feed {machine.max_feed / scale:.6g} {u}/min: "
-                     f"capped to {machine.max_feed / scale:.6g} {u}/min")
-        f = machine.max_feed
-    return f, notes
-
-
 def _profile_tables(machine):
     """The program frame and the [tool] settings of a profile file (defaults otherwise)."""
     from .checks.machine import load_tool_settings
@@ -209,24 +173,6 @@ def _profile_tables(machine):
     if isinstance(machine, (str, os.PathLike)):
         return load_frame(machine), load_tool_settings(machine)
     return Frame(), {}
-
-
-def _job_units(points, units):
-    """The job's units: a drawing's declared units ($INSUNITS) unless given;
-    given units that disagree with the drawing's are an error naming both."""
-    if units is not None:
-        check_option("units", units, UNITS)
-    declared = None
-    if isinstance(points, (str, os.PathLike)) and str(points).lower().endswith(".dxf") and Path(points).is_file():
-        from .points import drawing_units
-
-        declared = drawing_units(points)
-    if units is None:
-        return declared or "mm"
-    if declared is not None and declared != units:
-        raise InputError(f"{Path(points).name}: the drawing declares its units as {declared} ($INSUNITS) but "
-                         f"units {units} were given; give --units {declared} or leave --units out")
-    return units
 
 
 def _refuse_crossing(outline, side, allow_crossing, scale, units) -> list[str]:
@@ -270,8 +216,6 @@ def _refuse_clobber(targets: dict, source) -> None:
 #: 0.3 GB, 1.2e7 took 160 s and 3 GB on the 2-core test machine), tools up
 #: to TOOL_MAX, depths up to DEPTH_MAX in at most MAX_PASSES passes.
 SIZE_RANGE = (0.01, 10_000.0)
-#: Chord tolerance when none is given (mm), for mm and inch jobs alike.
-DEFAULT_TOLERANCE = 0.01
 TOLERANCE_MIN = 1e-4
 MAX_TOLERANCES = 2e6
 TOOL_MAX = 1000.0
@@ -315,144 +259,18 @@ def _check_work(points, tol, tool, depth, step, units="mm") -> None:
                              f"{show((depth if depth is not None else 1.0) / MAX_PASSES)})")
 
 
-def _length(name, value, scale, *, allow_zero=False):
-    if value is None:
-        return None
-    return check_positive(name, value, allow_zero=allow_zero) * scale
-
-
-def run(
-    points,
-    *,
-    closed=None,
-    end: str = "not-a-knot",
-    param: str = "chord",
-    units=None,
-    smooth="auto",
-    corner_angle=None,
-    layer=None,
-    machine=None,
-    tool_diameter=None,
-    feed=None,
-    accel=None,
-    side: str = "outside",
-    tolerance=None,
-    moves: str = "arcs",
-    depth=None,
-    step_down=None,
-    safe_height=None,
-    seam=None,
-    lead: str = "arc",
-    direction: str = "climb",
-    plunge_feed=None,
-    lead_length=None,
-    entry: str = "plunge",
-    ramp_angle=None,
-    retract_height=None,
-    overlap=None,
-    spindle_speed=None,
-    flutes=None,
-    chip_load=None,
-    one_feed: bool = False,
-    line_numbers: bool = False,
-    allow_crossing: bool = False,
-    compensation: str = "computed",
-    gcode=None,
-    dxf=None,
-    report=None,
-    plot=None,
-    force: bool = False,
-    progress=None,
-    make_path: bool = False,
-    join_gap=None,
-    sides=None,
-    tabs=None,
-    tab_spacing=None,
-    tab_width=None,
-    tab_height=None,
-) -> Result:
+def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, force: bool = False,
+        progress=None, make_path: bool = False, **kwargs) -> Result:
     """Run the whole job on a points file or an (n, 2) array.
 
     Parameters
     ----------
     points : str, Path or array-like (n, 2)
         A points file (.csv .txt .xy .dxf) or the points themselves.
-    closed : bool or None
-        None: decided by the input (a repeated first point closes it).
-    end, param : the fit's end condition and parametrization
-        (see :func:`pathgen.spline.fit`).
-    units : {"mm", "inch"}
-        Units of the points and of every length option (feeds per minute).
-    smooth : "auto", "off", float or None
-        "auto" (default): estimate the points' noise
-        (:func:`pathgen.noise.estimate_noise`) and, when it can fake
-        curvature, smooth to it (Reinsch's criterion); clean points are
-        interpolated exactly.  "off" (or None): interpolate exactly.  A
-        number: smoothing tolerance (units), the contour stays within it
-        of every point.
-    corner_angle : float, "off" or None
-        Turning angle (degrees, below 180) above which a point is a sharp
-        corner; "off": no corners; None: the input stage's default (40).
-    layer : str or None
-        DXF input: the layer holding the outline.
-    machine : str, Path, Machine or None
-        A machine profile (TOML file) or object; None for the defaults.
-    tool_diameter, feed, accel : float or None
-        Override the tool diameter (units), programmed feed (units/min) and
-        machine acceleration (units/s²).
-    side : {"outside", "inside", "on"}
-    tolerance : float or None
-        Chord tolerance (units): the written moves stay within it of the
-        exact tool-center curve.  None: 0.01 mm (0.00039 inch), the same
-        length in either unit.
-    moves : {"arcs", "lines"}
-    depth, step_down, safe_height : float or None
-        Total cut depth, depth per pass, clearance height (units).
-    seam : (x, y) or None
-        Start a closed cut at the contour point nearest to (x, y).
-    lead : {"arc", "line", "none"}
-    direction : {"climb", "conventional"}
-        Milling direction with a clockwise (M3) spindle; see
-        ``docs/toolpath.md`` for the rule relating side and travel.
-    plunge_feed : float or None
-        Feed of the plunge to depth (units/min); None: half the
-        programmed feed (the toolpath stage's default).
-    lead_length : float or None
-        Lead size (units): arc radius or line length; None: the tool
-        diameter.  Either way a lead that would touch the part shrinks.
-    entry : {"plunge", "ramp", "helix"}
-        How the tool goes down to each pass (see ``docs/toolpath.md``).
-    ramp_angle : float or None
-        Descent angle of a ramp or helix, degrees (0 < angle <= 45);
-        None: 3 degrees.
-    retract_height : float or None
-        Height (units) just above the stock where entries start at feed
-        and where passes link; None: 1 mm (0.04 inch), or the safe height
-        if that is lower.
-    overlap : float or None
-        Length (units) to go on past the start of a closed cut before the
-        lead-out; None: 0.
-    spindle_speed : float or None
-        rev/min; when given the program starts the spindle (S… M3) and
-        stops it at the end (M5).
-    flutes, chip_load : int, float or None
-        Cutting edges of the tool and chip load per tooth (units): without
-        ``feed``, the cutting feed is flutes × chip load × spindle speed.
-        Any feed above the machine's highest feed is capped to it, with a
-        note.
-    one_feed : bool
-        Write one constant cutting feed instead of the planned feed per block.
-    line_numbers : bool
-        Number the program's blocks (N words).
-    compensation : {"computed", "machine"}
-        "computed" (default): the program is the tool-center path pathgen
-        computed.  "machine": the program follows the part line with
-        G41/G42 and a D word, for cutter compensation at the control
-        (the register from the profile's ``[program]`` table).
-    allow_crossing : bool
-        Follow a closed outline that crosses itself (a deliberate figure,
-        engraved with ``side="on"``); otherwise such an outline is refused
-        for cutting (points out of order, a repeated lap, a figure-eight).
+    options : JobOptions or None
+        The job's options, checked and in mm (see
+        :meth:`pathgen.job.JobOptions.from_user`, which documents each).
+        None: built here from ``**kwargs``.
     gcode, dxf, report, plot : path or None
         Files to write.  ``report`` names the JSON report; a text version
         is written beside it with the suffix ``.txt``.
@@ -463,71 +281,34 @@ def run(
     make_path : bool
         Make the toolpath even when no program, drawing or picture asks
         for it (:func:`verify` compares a program with it).
-    join_gap, sides, tabs, tab_spacing, tab_width, tab_height
-        For parts (see :func:`run_part`): a drawing, a text file of several
-        outlines, or any closed outline file when tabs are asked for, is
-        run by :func:`run_part`, which returns a ``PartResult``.
+    **kwargs
+        Without ``options``: the options as the user gives them (lengths in
+        ``units``, angles in degrees), e.g. ``tool_diameter=6``.  A part (a
+        drawing, a text file of several outlines, or any closed outline
+        file when tabs are asked for) is run by :func:`run_part`, which
+        returns a ``PartResult``.
 
     Returns
     -------
     Result
     """
-    units = _job_units(points, units)
-    closed = check_flag("closed", closed)
-    check_option("side", side, SIDES)
-    check_option("moves", moves, MOVES)
-    check_option("lead", lead, LEADS)
-    check_option("direction", direction, ("climb", "conventional"))
-    check_option("compensation", compensation, COMPENSATIONS)
-    from .path.entry import ENTRIES
-
-    check_option("entry", entry, ENTRIES)
-    if ramp_angle is not None:
-        ramp_deg = check_positive("ramp angle", ramp_angle)
-        if ramp_deg > 45:
-            raise InputError(f"ramp angle must be at most 45 degrees, got {ramp_angle!r}")
-    if spindle_speed is not None:
-        spindle_speed = check_positive("spindle speed", spindle_speed)
-    scale = MM_PER_INCH if units == "inch" else 1.0
-    tol_mm = DEFAULT_TOLERANCE if tolerance is None else check_positive("tolerance", tolerance) * scale
-    tool_mm = _length("tool diameter", tool_diameter, scale, allow_zero=True)
-    if smooth is None:
-        smooth = "off"
-    if isinstance(smooth, str):
-        check_option("smooth", smooth, ("auto", "off"))
-        smooth_mm = smooth
-    else:
-        smooth_mm = _length("smooth", smooth, scale)
-    if seam is not None:
-        try:
-            sx, sy = (float(v) * scale for v in seam)
-        except (TypeError, ValueError):
-            raise InputError(f"seam must be two numbers x,y, got {seam!r}") from None
-        if not (math.isfinite(sx) and math.isfinite(sy)):
-            raise InputError(f"seam must be finite, got {seam!r}")
-        seam = (sx, sy)
-    from .checks.machine import Cut, Machine, Tool, load_machine
+    o = job_options(points, options, kwargs)
+    units, side, scale, tol_mm, tool_mm, seam = o.units, o.side, o.scale, o.tolerance, o.tool_diameter, o.seam
+    from .checks.machine import Cut, Tool
 
     if (gcode is not None or make_path) and tool_mm is None and side != "on":
         raise InputError(f"a program cutting {side} the outline needs the tool diameter "
                          "(tool_diameter=, --tool-diameter), or side='on' (--side on) to follow the line")
-    overrides = {"max_accel": _length("accel", accel, scale)}
     with warnings.catch_warnings(record=True) as machine_notes:
         warnings.simplefilter("always")
-        if isinstance(machine, Machine):
-            mach = load_machine(None, **{**machine.__dict__, **{k: v for k, v in overrides.items() if v}})
-        else:
-            mach = load_machine(machine, **overrides)
+        mach = load_job_machine(o)
     tool = Tool(tool_mm if tool_mm is not None else 0.0)
-    frame, tool_settings = _profile_tables(machine)
-    asked_direction = direction
+    frame, tool_settings = _profile_tables(o.machine)
+    direction = o.direction
     if frame.spindle == "counter-clockwise":  # climb and conventional swap with the spindle's turn
         direction = {"climb": "conventional", "conventional": "climb"}[direction]
-    if compensation == "machine" and (tool_mm is None or tool_mm == 0 or side == "on"):
-        raise InputError("cutter compensation at the control (--compensation machine) needs a tool diameter "
-                         "and a side outside or inside the outline")
     cut_kw = {"side": side, "tolerance": tol_mm}
-    feed_mm, feed_notes = _cutting_feed(feed, flutes, chip_load, spindle_speed, scale, mach, units)
+    feed_mm, feed_notes = cutting_feed(o, mach)
     if feed_mm is not None:
         cut_kw["feed"] = feed_mm
     cut = Cut(**cut_kw)
@@ -550,39 +331,35 @@ def run(
     else:
         source, path = "<array>", None
     _refuse_clobber(targets, path)
-    part_opts = {"join_gap": join_gap, "sides": sides, "tabs": tabs, "tab_spacing": tab_spacing,
-                 "tab_width": tab_width, "tab_height": tab_height}
-    wants_part = any(v is not None for v in part_opts.values())
-    if path is not None and (wants_part or _is_part(path, layer)):  # a drawing, several outlines, tabs
+    wants_part = any(getattr(o, k) is not None for k in ("join_gap", "sides", "tabs", "tab_spacing", "tab_width",
+                                                          "tab_height"))
+    if path is not None and (wants_part or _is_part(path, o.layer)):  # a drawing, several outlines, tabs
         given = [name for name, value, default in (
-            ("entry", entry, "plunge"), ("ramp angle", ramp_angle, None), ("lead length", lead_length, None),
-            ("retract height", retract_height, None), ("overlap", overlap, None),
-            ("compensation", compensation, "computed"), ("flutes", flutes, None), ("chip load", chip_load, None))
+            ("entry", o.entry, "plunge"), ("ramp angle", o.ramp_angle, None), ("lead length", o.lead_length, None),
+            ("retract height", o.retract_height, None), ("overlap", o.overlap, None),
+            ("compensation", o.compensation, "computed"), ("flutes", o.flutes, None),
+            ("chip load", o.chip_load, None))
             if value != default]
         if given:
             raise InputError(f"{source}: a part of several outlines takes no {', '.join(given)} yet: "
                              "run its outlines one at a time for these options")
-        return run_part(path, **part_opts, closed=closed, end=end, param=param, units=units, smooth=smooth,
-                        corner_angle=corner_angle, layer=layer, machine=machine,
-                        tool_diameter=tool_diameter, feed=feed, accel=accel, side=side,
-                        tolerance=tolerance, moves=moves, depth=depth, step_down=step_down,
-                        safe_height=safe_height, seam=seam, lead=lead, direction=direction,
-                        plunge_feed=plunge_feed, spindle_speed=spindle_speed, one_feed=one_feed,
-                        line_numbers=line_numbers, allow_crossing=allow_crossing, gcode=gcode,
-                        dxf=dxf, report=report, plot=plot, force=force, progress=progress)
+        # the part job is handed the milling direction as the spindle's turn makes it
+        import dataclasses
+
+        return run_part(path, dataclasses.replace(o, direction=direction), gcode=gcode, dxf=dxf, report=report,
+                        plot=plot, force=force, progress=progress)
     from .points import clean_points, read_points
 
     if path is not None:
-        outline = timed("read", read_points, path, units=units, layer=layer, closed=closed)
+        outline = timed("read", read_points, path, units=units, layer=o.layer, closed=o.closed)
     else:
-        outline = timed("read", clean_points, points, units=units, closed=closed)
+        outline = timed("read", clean_points, points, units=units, closed=o.closed)
     closed = outline.closed
-    _check_work(outline.points, tol_mm, tool_mm, _length("depth", depth, scale),
-                _length("step down", step_down, scale), units)
+    _check_work(outline.points, tol_mm, tool_mm, o.depth, o.step_down, units)
     makes_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
     early_notes = [str(w.message) for w in machine_notes] + list(feed_notes)
     if closed and makes_path:
-        early_notes += _refuse_crossing(outline, side, allow_crossing, scale, units)
+        early_notes += _refuse_crossing(outline, side, o.allow_crossing, scale, units)
 
     # -- fit -----------------------------------------------------------------
     from .outline import fit_outline
@@ -591,11 +368,8 @@ def run(
 
     noise = timed("noise", estimate_noise, outline.points, outline.closed,
                   quantization=getattr(outline, "quantization", None))
-    kw = {"end": end, "param": param, "smooth": smooth_mm, "noise": noise}
-    if corner_angle == "off":
-        kw["corner_angle"] = None
-    elif corner_angle is not None:
-        kw["corner_angle"] = check_positive("corner angle", corner_angle)
+    kw = {"end": o.end, "param": o.param, "smooth": o.smooth, "noise": noise,
+          "corner_angle": o.corner_angle_degrees}
     contour = timed("fit", fit_outline, outline, **kw)
 
     # -- check -----------------------------------------------------------------
@@ -619,34 +393,28 @@ def run(
     if make_path or makes_path:
         from .path.build import make_toolpath
 
-        kw = {"moves": moves, "lead": lead, "seam": seam, "units": units, "direction": direction}
-        for name, value in (("depth", depth), ("step_down", step_down), ("safe_height", safe_height),
-                            ("plunge_feed", plunge_feed)):
-            if value is not None:
-                kw[name] = _length(name.replace("_", " "), value, scale)
-        if plunge_feed is None and "plunge_feed" in tool_settings:
+        kw = {"moves": o.moves, "lead": o.lead, "seam": seam, "units": units, "direction": direction}
+        for name in ("depth", "step_down", "safe_height", "plunge_feed"):
+            if getattr(o, name) is not None:
+                kw[name] = getattr(o, name)
+        if o.plunge_feed is None and "plunge_feed" in tool_settings:
             kw["plunge_feed"] = tool_settings["plunge_feed"]
-        kw["entry"] = entry
-        if ramp_angle is not None:
-            kw["ramp_angle"] = math.radians(float(ramp_angle))
-        if lead_length is not None:
-            kw["lead_length"] = _length("lead length", lead_length, scale)
-        if overlap is not None:
-            kw["overlap"] = _length("overlap", overlap, scale, allow_zero=True)
-        if retract_height is not None:
-            kw["retract_height"] = _length("retract height", retract_height, scale)
-        elif units == "inch":
+        kw["entry"] = o.entry
+        for name in ("ramp_angle", "lead_length", "overlap", "retract_height"):
+            if getattr(o, name) is not None:
+                kw[name] = getattr(o, name)
+        if o.retract_height is None and units == "inch":
             kw["retract_height"] = min(0.04 * MM_PER_INCH, kw.get("safe_height", 5.0))
         # the tolerance budget: rounding to the written decimals takes at most 5 %, the moves the rest
         # smoothed points (to a tolerance or to their noise): the residual is stated apart
         plan = _budget(contour, tol_mm, units, contour.info.get("smoothing") in ("tolerance", "noise"))
         cut_moves = Cut(feed=cut.feed, side=cut.side, tolerance=plan["approximation_target"])
-        if compensation == "machine":
+        if o.compensation == "machine":
             from .path.compensate import part_line_toolpath
 
             center_mm = timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **{**kw, "units": "mm"})
             tp = timed("part line", part_line_toolpath, contour, center_mm, tool, cut_moves, mach,
-                       register=frame.register, seam=seam, moves=moves, units=units)
+                       register=frame.register, seam=seam, moves=o.moves, units=units)
             # the drawing and the picture show where the tool's center goes
             drawn = center_mm
             if units == "inch":
@@ -660,8 +428,8 @@ def run(
 
         tp = dataclasses.replace(tp, tolerance=tol_mm / scale,
                                  info={**tp.info, "approximation_target": plan["approximation_target"] / scale})
-        if direction != asked_direction:  # the program states the milling direction asked for
-            tp = dataclasses.replace(tp, info={**tp.info, "direction": asked_direction,
+        if direction != o.direction:  # the program states the milling direction asked for
+            tp = dataclasses.replace(tp, info={**tp.info, "direction": o.direction,
                                                "spindle": "counter-clockwise"})
         if drawn is None:
             drawn = tp
@@ -684,11 +452,11 @@ def run(
 
             timed("gcode", write_gcode, tp, targets["gcode"], force=True,
                   source=Path(source).name, program_name=Path(final["gcode"]).stem,
-                  spindle_speed=spindle_speed, single_feed=one_feed, line_numbers=line_numbers,
+                  spindle_speed=o.spindle_speed, single_feed=o.one_feed, line_numbers=o.line_numbers,
                   decimals=plan["decimals"], frame=frame,
-                  notes=tuple(f"note: {n}" for n in feed_notes) + ((_NOT_REPLAYED,) if compensation == "machine"
+                  notes=tuple(f"note: {n}" for n in feed_notes) + ((_NOT_REPLAYED,) if o.compensation == "machine"
                                                                      else ()),
-                  **({} if compensation == "machine" else
+                  **({} if o.compensation == "machine" else
                      {"check": _replay(contour, tp, tool_mm, side, tol_mm, plan, mach, replayed)}))
             files["gcode"] = final["gcode"]
         if "report" in targets:
@@ -728,7 +496,7 @@ def run(
                   program=replayed or None)
 
 
-def verify(program, points, **options) -> tuple:
+def verify(program, points, options=None, **kwargs) -> tuple:
     """Check a G-code program (any, e.g. hand-edited) against a part's points.
 
     The points are fitted and the expected toolpath made with the same
@@ -740,7 +508,9 @@ def verify(program, points, **options) -> tuple:
     ----------
     program : path of the program file.
     points : the part's points (file or array), as for :func:`run`.
-    **options : as for :func:`run` (no output files).
+    options : JobOptions or None
+        As for :func:`run`; None: built from ``**kwargs``.
+    **kwargs : the options as for :func:`run` (no output files).
 
     Returns
     -------
@@ -757,30 +527,21 @@ def verify(program, points, **options) -> tuple:
         The program cannot be read (the file and line are named), or an
         option or the points are bad.
     """
-    from .checks.machine import load_machine
     from .verify.check import Moves, verify_program
     from .verify.reader import read_gcode_file
 
     for key in ("gcode", "dxf", "report", "plot"):
-        if options.get(key) is not None:
+        if kwargs.get(key) is not None:
             raise InputError(f"verify writes no files ({key}= was given)")
     prog = read_gcode_file(program)
-    result = run(points, make_path=True, **options)
+    o = job_options(points, options, kwargs)
+    result = run(points, o, make_path=True)
     tp = result.toolpath
-    units = options.get("units", "mm")
-    scale = MM_PER_INCH if units == "inch" else 1.0
     f = MM_PER_INCH if tp.units == "inch" else 1.0
-    accel = options.get("accel")
-    mach = options.get("machine")
-    from .checks.machine import Machine
-
-    if not isinstance(mach, Machine):
-        mach = load_machine(mach, max_accel=accel * scale if accel else None)
-    tool = options.get("tool_diameter")
     facts = verify_program(prog, result.contour, offset=float(tp.info.get("offset", 0.0)) * f,
-                           tool_radius=0.5 * float(tool) * scale if tool else 0.0,
-                           side=options.get("side", "outside"), tolerance=float(tp.tolerance) * f,
-                           expected=Moves.from_toolpath(tp), machine=mach)
+                           tool_radius=0.5 * o.tool_diameter if o.tool_diameter else 0.0,
+                           side=o.side, tolerance=float(tp.tolerance) * f,
+                           expected=Moves.from_toolpath(tp), machine=load_job_machine(o))
     return facts, result
 
 
@@ -828,7 +589,7 @@ def _is_part(path, layer=None) -> bool:
     return is_part_input(path, layer)
 
 
-def run_part(points, **options):
+def run_part(points, options=None, **kwargs):
     """The whole job on a part: every closed outline of a drawing or of a
     text file of several outlines, nested (holes inside, outer outlines
     outside), in one program with the holes first.  See
@@ -836,7 +597,7 @@ def run_part(points, **options):
     files here by itself."""
     from .partjob import run_part as _run_part
 
-    return _run_part(points, **options)
+    return _run_part(points, options, **kwargs)
 
 
 # -- many files -----------------------------------------------------------------

@@ -42,7 +42,7 @@ from .straighten import arcs_and_lines, straight_spans
 __all__ = ["make_toolpath", "contour_moves", "choose_seam", "DIRECTIONS", "LEADS"]
 
 DIRECTIONS = ("climb", "conventional", "forward", "reverse")
-LEADS = ("arc", "line", "none")
+from .._options import LEADS  # noqa: E402  (one list, shared)
 
 
 def _travel_forward(d: float, direction: str) -> bool:

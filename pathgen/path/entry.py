@@ -33,7 +33,7 @@ from .model import ARC_CCW, ARC_CW, LINE
 
 __all__ = ["ENTRIES", "move_length", "take_length", "ramp_route", "helix_moves", "arc_as_lines"]
 
-ENTRIES = ("plunge", "ramp", "helix")
+from .._options import ENTRIES  # noqa: E402  (one list, shared)
 
 
 def move_length(kind, s, e, c) -> float:

@@ -33,7 +33,7 @@ from .model import ARC_CCW, LINE
 
 __all__ = ["approximate", "MOVES", "TARGET"]
 
-MOVES = ("arcs", "lines")
+from .._options import MOVES  # noqa: E402  (one list, shared)
 
 #: Spans are accepted at this fraction of the tolerance, leaving room for
 #: the sampling of the measurement itself.
