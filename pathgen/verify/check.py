@@ -77,8 +77,8 @@ def _clearance(program, contour, *, tool_radius, side, tolerance):
     return cl, known
 
 
-def _facts(program, contour, *, offset, tool_radius, side, tolerance, expected, machine):
-    dev = replay_deviation(program, contour, offset, tol=tolerance, expected=expected)
+def _facts(program, contour, *, offset, tool_radius, side, tolerance, expected, machine, passes=None, q=None):
+    dev = replay_deviation(program, contour, offset, tol=tolerance, expected=expected, passes=passes, q=q)
     cl = _clearance(program, contour, tool_radius=tool_radius, side=side, tolerance=tolerance)
     facts = {
         "blocks": int(len(program.kind)),  # motion blocks as written (the header's count)
