@@ -642,6 +642,66 @@ def _verify_text(facts, result, a) -> list[str]:
     return lines
 
 
+def _verify_part_text(facts, result) -> list[str]:
+    """The verify command's lines for a part (figures in the program's units)."""
+    u = facts["units"]
+    f = 25.4 if u == "inch" else 1.0
+
+    def L(v):
+        return "-" if v is None else f"{v / f:.5f} {u}"
+
+    rows = facts["outlines"]
+    lines = [f"{facts['program']} against {result.source}: a part of {len(rows)} outlines, "
+             f"tolerance {L(facts['tolerance'])}"]
+    where = {o.number: o.where for o in result.outlines}
+    for r in sorted(rows, key=lambda r: (r["lines"] is None, (r["lines"] or [0])[0])):  # in cutting order
+        head = f"outline {r['number']} ({where.get(r['number'], '')}): "
+        if r["missing"]:
+            lines.append(head + "NOT CUT: no cutting moves of the program follow it")
+            continue
+        verdict = "within" if r["within_tolerance"] else "OFF"
+        extra = ""
+        if r["deviation_worst_line"] is not None:
+            extra = f"; worst at line {r['deviation_worst_line']}"
+        gap = r["deviation_gap_at"]
+        if gap is not None and r["deviation_curve_to_moves"] > r["deviation_moves_to_curve"]:
+            extra += f"; curve to moves {L(r['deviation_curve_to_moves'])} at x={gap[0] / f:.4f} y={gap[1] / f:.4f}"
+        lines.append(head + f"lines {r['lines'][0]}-{r['lines'][1]}, {r['passes']} passes, deviation "
+                     f"{L(r['deviation'])} ({verdict} the tolerance{extra})")
+        cl = r["clearance"]
+        if cl is not None:
+            lines.append(f"  clearance: the tool center comes {L(cl['smallest'])} from it at line {cl['line']} "
+                         f"(tool radius {L(cl['tool_radius'])})")
+        for g in r["gouges"]:
+            lines.append(f"  GOUGE: line {g['line']} cuts {L(g['depth'])} into the part")
+        t = r["tabs"]
+        if t is not None:
+            lines.append(f"  tabs: {t['count']} read back (expected {t['expected_count']}), cut "
+                         f"{L(t['cut_depth'])} deep under them (expected {L(t['expected_cut_depth'])})"
+                         + ("" if t["ok"] else ": NOT as made from the part"))
+    m = facts["material"]
+    if not m["ok"]:
+        lines.append(f"GOUGE: line {m['line']} cuts {L(m['depth'])} into the part's material near "
+                     f"x={m['at'][0] / f:.4f} y={m['at'][1] / f:.4f}")
+    for ln in facts["stray_runs"]:
+        lines.append(f"problem: the cutting moves from line {ln} follow no outline of the part")
+    for o in facts["order"]:
+        lines.append(f"problem: {o}")
+    for pr in facts["problems"]:
+        if pr["rule"] != "no feed":
+            lines.append(f"problem: line {pr['line']}: {pr['message']}")
+    nof = facts["feed_moves_without_f"]
+    if nof:
+        shown = ", ".join(str(n) for n in nof[:10]) + (" ..." if len(nof) > 10 else "")
+        lines.append(f"feed moves without F: {len(nof)} (lines {shown})")
+    t = facts["time"]
+    lines.append("estimated cycle time as written: " + ("not known (a feed move has no F)" if t is None
+                                                        else _fmt_time(t)))
+    lines.append("clean" if facts["status"] == 0 else
+                 "NOT clean (exit status 1): fix the lines named above before cutting")
+    return lines
+
+
 def _cmd_verify(a, out, err) -> int:
     import json
 
@@ -652,15 +712,21 @@ def _cmd_verify(a, out, err) -> int:
     for key in ("spindle_speed", "one_feed", "line_numbers", "force"):
         opts.pop(key, None)
     facts, result = verify(a.program, a.points, **opts)
+    part = "outlines" in facts  # a part of several outlines
     if not a.quiet:
         for note in result.notes:
             err.write(f"pathgen verify: note: {' '.join(note.split())}\n")
     if a.json:
-        payload = program_dict(facts, facts["units"])
+        if part:
+            from .verify.part import part_verify_dict
+
+            payload = part_verify_dict(facts, facts["units"])
+        else:
+            payload = program_dict(facts, facts["units"])
         out.write(json.dumps(payload, indent=2, sort_keys=True, allow_nan=False) + "\n")
         err.write(CAUTION + "\n")
     elif not a.quiet:
-        out.write("\n".join(_verify_text(facts, result, a)) + "\n")
+        out.write("\n".join(_verify_part_text(facts, result) if part else _verify_text(facts, result, a)) + "\n")
         out.write(CAUTION + "\n")
     else:
         err.write(CAUTION + "\n")

@@ -141,6 +141,9 @@ class PartResult:
     timings: dict = field(default_factory=dict)
     units: str = "mm"
     notes: tuple = ()
+    specs: tuple = ()  # what each outline expects of a program (pathgen.verify.part.PartOutlineSpec)
+    material: object = None  # the part's material (shapely, mm) when a toolpath was made
+    tool_radius: float = 0.0  # mm
 
     @property
     def outline(self):
@@ -374,7 +377,8 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
              lead: str = "arc", direction: str = "climb", plunge_feed=None, spindle_speed=None,
              one_feed: bool = False, line_numbers: bool = False, allow_crossing: bool = False,
              tabs=None, tab_spacing=None, tab_width=None, tab_height=None,
-             gcode=None, dxf=None, report=None, plot=None, force: bool = False, progress=None):
+             gcode=None, dxf=None, report=None, plot=None, force: bool = False, progress=None,
+             make_path: bool = False):
     """Run the whole job on a part file: every closed outline, nested, in one program.
 
     Options are those of :func:`pathgen.pipeline.run` (lengths in ``units``)
@@ -438,7 +442,7 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
                 _length("step down", step_down, scale), units)
     levels = timed("nest", nest, outlines)
     side_list = _sides(outlines, levels, sides)
-    makes_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
+    makes_path = make_path or "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
     if "gcode" in targets and tool_mm is None and any(s != "on" for s in side_list):
         raise InputError("a program cutting a part needs the tool diameter (tool_diameter=, --tool-diameter)")
 
@@ -602,4 +606,5 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
     notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]
     return PartResult(source, tuple(outlines), tuple(levels), tuple(side_list), tuple(order),
                       tuple(contours), tuple(reports), tuple(paths), prep, toolpath=joined,
-                      files=files, facts=facts, timings=timings, units=units, notes=tuple(notes))
+                      files=files, facts=facts, timings=timings, units=units, notes=tuple(notes),
+                      specs=specs, material=material, tool_radius=0.5 * float(tool_mm or 0.0))

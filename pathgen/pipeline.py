@@ -569,7 +569,8 @@ def run(
                         safe_height=safe_height, seam=seam, lead=lead, direction=direction,
                         plunge_feed=plunge_feed, spindle_speed=spindle_speed, one_feed=one_feed,
                         line_numbers=line_numbers, allow_crossing=allow_crossing, gcode=gcode,
-                        dxf=dxf, report=report, plot=plot, force=force, progress=progress)
+                        dxf=dxf, report=report, plot=plot, force=force, progress=progress,
+                        make_path=make_path)
     from .points import clean_points, read_points
 
     if path is not None:
@@ -776,6 +777,10 @@ def verify(program, points, **options) -> tuple:
 
     if not isinstance(mach, Machine):
         mach = load_machine(mach, max_accel=accel * scale if accel else None)
+    if getattr(result, "specs", ()):  # a part of several outlines
+        from .verify.part import verify_part
+
+        return verify_part(prog, result, machine=mach), result
     tool = options.get("tool_diameter")
     facts = verify_program(prog, result.contour, offset=float(tp.info.get("offset", 0.0)) * f,
                            tool_radius=0.5 * float(tool) * scale if tool else 0.0,

@@ -33,7 +33,7 @@ import numpy as np
 from .check import _facts
 from .replay import _Moves, _in_plane, tool_center_polyline
 
-__all__ = ["cutting_runs", "replay_part", "PartOutlineSpec"]
+__all__ = ["cutting_runs", "replay_part", "verify_part", "PartOutlineSpec"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -289,3 +289,58 @@ def part_program_dict(facts: dict, units: str) -> dict:
             "ok": t["ok"]}
         rows[row["number"]] = d
     return rows
+
+
+def verify_part(program, result, *, machine=None) -> dict:
+    """Figures and problems of any program (already read) against a part
+    (a :class:`pathgen.partjob.PartResult` made with a toolpath), for
+    ``pathgen verify``.
+
+    Returns :func:`replay_part`'s figures plus ``material`` (the deepest
+    entry of the tool disc into the part's material on any flat cutting
+    move: ``depth``, ``at``, ``line``), ``tolerance``, ``problems`` (the
+    reader's rule breaks), ``feed_moves_without_f``, ``units``, ``program``
+    (the file) and ``status``: 0 clean, 1 a gouge, an outline off the
+    tolerance or not cut, cutting moves that follow no outline, a hole cut
+    after the outline around it, or a rule break.
+    """
+    k = 25.4 if result.units == "inch" else 1.0
+    tp = result.toolpath
+    tol = float(tp.tolerance) * k
+    facts = replay_part(program, list(result.specs), tool_radius=result.tool_radius, tolerance=tol, machine=machine)
+    depth, at, line = 0.0, None, None
+    if result.material is not None and result.tool_radius > 0:
+        depth, at, line, _ = deepest_intrusion(program, result.material, result.tool_radius)
+    facts["material"] = {"depth": float(depth), "at": None if at is None else [float(at[0]), float(at[1])],
+                         "line": line, "ok": bool(depth <= tol)}
+    facts["tolerance"] = tol
+    facts["units"] = program.units
+    facts["program"] = program.source
+    facts["problems"] = [p.to_dict() for p in program.problems]
+    facts["feed_moves_without_f"] = [p.line for p in program.problems if p.rule == "no feed"]
+    bad = (any(r["missing"] or not r["within_tolerance"] or r["gouges"] or (r["tabs"] is not None and not r["tabs"]["ok"])
+               for r in facts["outlines"])
+           or facts["stray_runs"] or facts["order"] or facts["problems"] or not facts["material"]["ok"])
+    facts["status"] = 1 if bad else 0
+    return facts
+
+
+def part_verify_dict(facts: dict, units: str) -> dict:
+    """``pathgen verify --json`` on a part: lengths in ``units``."""
+    from .check import _u
+
+    m = facts["material"]
+    return {
+        "outlines": part_program_dict(facts, units),
+        "stray_runs": facts["stray_runs"],
+        "order": facts["order"],
+        "material": {"depth": _u(m["depth"], units), "line": m["line"], "ok": m["ok"],
+                     "at": None if m["at"] is None else [_u(v, units) for v in m["at"]]},
+        "tolerance": _u(facts["tolerance"], units),
+        "time": facts["time"],
+        "units": facts["units"],
+        "program": facts["program"],
+        "problems": facts["problems"],
+        "feed_moves_without_f": facts["feed_moves_without_f"],
+        "status": facts["status"],
+    }
