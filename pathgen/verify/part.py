@@ -245,7 +245,7 @@ def part_header_lines(facts: dict, units: str) -> list[str]:
             continue
         n = row["number"]
         parts = [f"outline {n}: replayed deviation {_num(_u(row['deviation'], u))} {u} "
-                 f"[two-sided, {row['moves_measured']} moves, {row['passes']} passes]"]
+                 f"[two-sided, {row['moves_measured']} moves, {row['passes']} pass{'es' if row['passes'] != 1 else ''}]"]
         cl = row.get("clearance")
         if cl is not None:
             parts.append(f"clearance {_num(_u(cl['smallest'], u))} {u} [tool radius {_num(_u(cl['tool_radius'], u))}]")
