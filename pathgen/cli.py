@@ -256,6 +256,9 @@ def build_parser() -> argparse.ArgumentParser:
             p.add_argument("program", metavar="PROGRAM", help="G-code program to check (.nc, .ngc, .tap, any text)")
             p.add_argument("points", metavar="POINTS", help="the part's points file (.csv .txt .xy .dxf)")
             _add_shared(p, output=None)
+            p.add_argument("--compensation", choices=("computed", "machine"), default="computed",
+                           help="machine: the program follows the part line with G41/G42 and a D word (cutter "
+                                "compensation at the control); checked as the control will need it")
         elif name == "demo":
             p.add_argument("directory", metavar="DIR", nargs="?", default="pathgen-demo",
                            help="folder to write into (default: pathgen-demo)")
@@ -317,7 +320,8 @@ def _summary_lines(result) -> list[str]:
         lines.append(f"cutter compensation at the control: {comp['word']} D{comp['register']} (tool "
                      f"{'left' if comp['word'] == 'G41' else 'right'} of travel); the program follows the "
                      f"part line: set D{comp['register']} to the tool radius {comp['radius']:.4f} {tp.units}; "
-                     "pathgen did not replay it (the control applies the offset)")
+                     "pathgen replayed the part line, the entry and exit and the swept offset from the text, "
+                     "not the control's own offset (verify it on the control)")
     for kind_, p in result.files.items():
         lines.append(f"wrote {kind_}: {p}")
     return lines
@@ -608,10 +612,16 @@ def _verify_text(facts, result, a) -> list[str]:
     gap = facts["deviation_gap_at"]
     if gap is not None:
         where += f"; curve to moves {L(facts['deviation_curve_to_moves'])} at x={gap[0] / f:.4f} y={gap[1] / f:.4f}"
-    lines.append(f"deviation from the expected tool-center path: {L(facts['deviation'])} ({verdict} the tolerance "
+    comp = facts.get("compensation")
+    what = "of the programmed part line from the contour" if comp else "from the expected tool-center path"
+    lines.append(f"deviation {what}: {L(facts['deviation'])} ({verdict} the tolerance "
                  f"{L(tol)}{where})")
     cl = facts["clearance"]
-    if cl is None:
+    if comp:  # cutter compensation at the control: what the control will need, and the swept offset
+        from .verify.compensated import compensation_lines
+
+        lines += compensation_lines(facts, u)[1:]
+    elif cl is None:
         lines.append("clearance: not checked (cutting on the line)")
     else:
         lines.append(f"clearance: the tool center comes {L(cl['smallest'])} from the part at line {cl['line']} "
@@ -620,7 +630,8 @@ def _verify_text(facts, result, a) -> list[str]:
         lines.append(f"GOUGE: line {g['line']} cuts {L(g['depth'])} into the part")
     for pr in facts["problems"]:
         if pr["rule"] != "no feed":
-            lines.append(f"problem: line {pr['line']}: {pr['message']}")
+            lines.append(f"problem: line {pr['line']}: {pr['message']}" if pr["line"] is not None
+                         else f"problem: {pr['message']}")
     nof = facts["feed_moves_without_f"]
     if nof:
         shown = ", ".join(str(n) for n in nof[:10]) + (" ..." if len(nof) > 10 else "")
