@@ -701,7 +701,8 @@ def run(
 
                 stated = ReportWithProgram(rep, replayed)
             comp = tp.info.get("compensation") if tp is not None else None
-            program = None if not comp else {
+            # a compensated program's replay states its word, register and side itself (program.compensation)
+            program = None if not comp or replayed else {
                 "compensation": "machine", "word": comp["word"], "register": comp["register"],
                 "side": "left of travel" if comp["word"] == "G41" else "right of travel",
                 "radius": comp["radius"]}

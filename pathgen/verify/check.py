@@ -286,7 +286,8 @@ def program_dict(facts: dict, units: str) -> dict:
     c = facts.get("compensation")
     if c is not None:
         out["compensation"] = {
-            "word": c["word"], "register": c["register"], "on_lines": c["on_lines"], "off_lines": c["off_lines"],
+            "word": c["word"], "register": c["register"], "side": c["side"], "on_lines": c["on_lines"],
+            "off_lines": c["off_lines"],
             "entry_lengths": [u(v) for v in c["entry_lengths"]], "exit_lengths": [u(v) for v in c["exit_lengths"]],
             "tightest_arc_toward_tool": u(c["tightest_toward"]), "swept_depth": u(max(c["swept_depth"], 0.0)),
             "swept_at": None if c["swept_at"] is None else [u(v) for v in c["swept_at"]],

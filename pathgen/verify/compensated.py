@@ -172,6 +172,7 @@ def compensated_facts(program, contour, *, tool_radius: float, side: str, tolera
     facts["clearance"] = None
     facts["compensation"] = {
         "word": word, "register": program.register,
+        "side": {"G41": "left of travel", "G42": "right of travel"}.get(word),
         "on_lines": [int(line[i]) for i, _ in runs], "off_lines": [int(line[j]) for _, j in runs if j is not None],
         "entry_lengths": entry_lengths, "exit_lengths": exit_lengths, "tightest_toward": tight,
         "swept_depth": worst, "swept_at": at, "swept_line": where_line, "tool_radius": r,
