@@ -338,6 +338,8 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False, compe
                     _fail(source, lineno, "two motion words on one line")
                 motion_here = g
         switch_here = 0
+        if sum(g in (40, 41, 42) for g in gs) > 1:
+            _fail(source, lineno, "two G words of one modal group (G40, G41, G42) on one line (NISTIR 6556)")
         if "D" in vals:
             register = int(vals["D"])
         for g in gs:
