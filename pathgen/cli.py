@@ -678,7 +678,8 @@ def _verify_part_text(facts, result) -> list[str]:
         if gap is not None and r["deviation_curve_to_moves"] > r["deviation_moves_to_curve"]:
             extra += f"; curve to moves {L(r['deviation_curve_to_moves'])} at x={gap[0] / f:.4f} y={gap[1] / f:.4f}"
         lines.append(head + f"lines {r['lines'][0]}-{r['lines'][1]}, {r['passes']} "
-                     f"pass{'es' if r['passes'] != 1 else ''}, deviation {L(r['deviation'])} ({verdict} the tolerance{extra})")
+                     f"pass{'es' if r['passes'] != 1 else ''}, deviation {L(r['deviation'])} "
+                     f"({verdict} the tolerance{extra})")
         cl = r["clearance"]
         if cl is not None:
             lines.append(f"  clearance: the tool center comes {L(cl['smallest'])} from it at line {cl['line']} "

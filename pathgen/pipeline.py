@@ -744,6 +744,11 @@ def verify(program, points, **options) -> tuple:
     points : the part's points (file or array), as for :func:`run`.
     **options : as for :func:`run` (no output files).
 
+    A part (a drawing, a text file of several outlines) is checked outline
+    by outline (:func:`pathgen.verify.part.verify_part`); with
+    ``compensation="machine"`` the program is read with G41/G42 and checked
+    as a part line (:func:`pathgen.verify.compensated.compensated_facts`).
+
     Returns
     -------
     (facts, result): ``facts`` as :func:`pathgen.verify.check.verify_program`

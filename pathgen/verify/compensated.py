@@ -198,8 +198,8 @@ def compensation_lines(facts: dict, units: str) -> list[str]:
         f"contour [two-sided, {facts['moves_measured']} moves]",
         f"replayed compensation: {c['word']} D{c['register']} on at line(s) {on} on straight moves of at least "
         + (f"{_num(_u(entry, u))}" if entry is not None else "-") + f" {u}, off on straight moves of at least "
-        + (f"{_num(_u(exit_, u))}" if exit_ is not None else "-") + f" {u} [tool radius {_num(_u(c['tool_radius'], u))}]"
-        f", {tight}",
+        + (f"{_num(_u(exit_, u))}" if exit_ is not None else "-")
+        + f" {u} [tool radius {_num(_u(c['tool_radius'], u))}], {tight}",
         f"replayed sweep: the tool disc along this part line offset by the tool radius [computed from the text, "
         f"shapely] enters the part by at most {_num(_u(max(c['swept_depth'], 0.0), u))} {u}",
     ]

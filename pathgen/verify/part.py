@@ -244,8 +244,9 @@ def part_header_lines(facts: dict, units: str) -> list[str]:
             out.append(f"outline {row['number']}: no cutting moves read back")
             continue
         n = row["number"]
+        npass = f"{row['passes']} pass{'es' if row['passes'] != 1 else ''}"
         parts = [f"outline {n}: replayed deviation {_num(_u(row['deviation'], u))} {u} "
-                 f"[two-sided, {row['moves_measured']} moves, {row['passes']} pass{'es' if row['passes'] != 1 else ''}]"]
+                 f"[two-sided, {row['moves_measured']} moves, {npass}]"]
         cl = row.get("clearance")
         if cl is not None:
             parts.append(f"clearance {_num(_u(cl['smallest'], u))} {u} [tool radius {_num(_u(cl['tool_radius'], u))}]")
@@ -318,8 +319,8 @@ def verify_part(program, result, *, machine=None) -> dict:
     facts["program"] = program.source
     facts["problems"] = [p.to_dict() for p in program.problems]
     facts["feed_moves_without_f"] = [p.line for p in program.problems if p.rule == "no feed"]
-    bad = (any(r["missing"] or not r["within_tolerance"] or r["gouges"] or (r["tabs"] is not None and not r["tabs"]["ok"])
-               for r in facts["outlines"])
+    bad = (any(r["missing"] or not r["within_tolerance"] or r["gouges"]
+               or (r["tabs"] is not None and not r["tabs"]["ok"]) for r in facts["outlines"])
            or facts["stray_runs"] or facts["order"] or facts["problems"] or not facts["material"]["ok"])
     facts["status"] = 1 if bad else 0
     return facts
