@@ -257,6 +257,9 @@ def build_parser() -> argparse.ArgumentParser:
             p.add_argument("program", metavar="PROGRAM", help="G-code program to check (.nc, .ngc, .tap, any text)")
             p.add_argument("points", metavar="POINTS", help="the part's points file (.csv .txt .xy .dxf)")
             _add_shared(p, output=None)
+            p.add_argument("--compensation", choices=("computed", "machine"), default="computed",
+                           help="machine: the program follows the part line with G41/G42 and a D word (cutter "
+                                "compensation at the control); checked as the control will need it")
         elif name == "demo":
             p.add_argument("directory", metavar="DIR", nargs="?", default="pathgen-demo",
                            help="folder to write into (default: pathgen-demo)")
@@ -318,7 +321,8 @@ def _summary_lines(result) -> list[str]:
         lines.append(f"cutter compensation at the control: {comp['word']} D{comp['register']} (tool "
                      f"{'left' if comp['word'] == 'G41' else 'right'} of travel); the program follows the "
                      f"part line: set D{comp['register']} to the tool radius {comp['radius']:.4f} {tp.units}; "
-                     "pathgen did not replay it (the control applies the offset)")
+                     "pathgen replayed the part line, the entry and exit and the swept offset from the text, "
+                     "not the control's own offset (verify it on the control)")
     for kind_, p in result.files.items():
         lines.append(f"wrote {kind_}: {p}")
     return lines
@@ -610,10 +614,16 @@ def _verify_text(facts, result, a) -> list[str]:
     gap = facts["deviation_gap_at"]
     if gap is not None:
         where += f"; curve to moves {L(facts['deviation_curve_to_moves'])} at x={gap[0] / f:.4f} y={gap[1] / f:.4f}"
-    lines.append(f"deviation from the expected tool-center path: {L(facts['deviation'])} ({verdict} the tolerance "
+    comp = facts.get("compensation")
+    what = "of the programmed part line from the contour" if comp else "from the expected tool-center path"
+    lines.append(f"deviation {what}: {L(facts['deviation'])} ({verdict} the tolerance "
                  f"{L(tol)}{where})")
     cl = facts["clearance"]
-    if cl is None:
+    if comp:  # cutter compensation at the control: what the control will need, and the swept offset
+        from .verify.compensated import compensation_lines
+
+        lines += compensation_lines(facts, u)[1:]
+    elif cl is None:
         lines.append("clearance: not checked (cutting on the line)")
     else:
         lines.append(f"clearance: the tool center comes {L(cl['smallest'])} from the part at line {cl['line']} "
@@ -622,7 +632,8 @@ def _verify_text(facts, result, a) -> list[str]:
         lines.append(f"GOUGE: line {g['line']} cuts {L(g['depth'])} into the part")
     for pr in facts["problems"]:
         if pr["rule"] != "no feed":
-            lines.append(f"problem: line {pr['line']}: {pr['message']}")
+            lines.append(f"problem: line {pr['line']}: {pr['message']}" if pr["line"] is not None
+                         else f"problem: {pr['message']}")
     nof = facts["feed_moves_without_f"]
     if nof:
         shown = ", ".join(str(n) for n in nof[:10]) + (" ..." if len(nof) > 10 else "")
@@ -644,6 +655,67 @@ def _verify_text(facts, result, a) -> list[str]:
     return lines
 
 
+def _verify_part_text(facts, result) -> list[str]:
+    """The verify command's lines for a part (figures in the program's units)."""
+    u = facts["units"]
+    f = 25.4 if u == "inch" else 1.0
+
+    def L(v):
+        return "-" if v is None else f"{v / f:.5f} {u}"
+
+    rows = facts["outlines"]
+    lines = [f"{facts['program']} against {result.source}: a part of {len(rows)} outlines, "
+             f"tolerance {L(facts['tolerance'])}"]
+    where = {o.number: o.where for o in result.outlines}
+    for r in sorted(rows, key=lambda r: (r["lines"] is None, (r["lines"] or [0])[0])):  # in cutting order
+        head = f"outline {r['number']} ({where.get(r['number'], '')}): "
+        if r["missing"]:
+            lines.append(head + "NOT CUT: no cutting moves of the program follow it")
+            continue
+        verdict = "within" if r["within_tolerance"] else "OFF"
+        extra = ""
+        if r["deviation_worst_line"] is not None:
+            extra = f"; worst at line {r['deviation_worst_line']}"
+        gap = r["deviation_gap_at"]
+        if gap is not None and r["deviation_curve_to_moves"] > r["deviation_moves_to_curve"]:
+            extra += f"; curve to moves {L(r['deviation_curve_to_moves'])} at x={gap[0] / f:.4f} y={gap[1] / f:.4f}"
+        lines.append(head + f"lines {r['lines'][0]}-{r['lines'][1]}, {r['passes']} "
+                     f"pass{'es' if r['passes'] != 1 else ''}, deviation {L(r['deviation'])} "
+                     f"({verdict} the tolerance{extra})")
+        cl = r["clearance"]
+        if cl is not None:
+            lines.append(f"  clearance: the tool center comes {L(cl['smallest'])} from it at line {cl['line']} "
+                         f"(tool radius {L(cl['tool_radius'])})")
+        for g in r["gouges"]:
+            lines.append(f"  GOUGE: line {g['line']} cuts {L(g['depth'])} into the part")
+        t = r["tabs"]
+        if t is not None:
+            lines.append(f"  tabs: {t['count']} read back (expected {t['expected_count']}), cut "
+                         f"{L(t['cut_depth'])} deep under them (expected {L(t['expected_cut_depth'])})"
+                         + ("" if t["ok"] else ": NOT as made from the part"))
+    m = facts["material"]
+    if not m["ok"]:
+        lines.append(f"GOUGE: line {m['line']} cuts {L(m['depth'])} into the part's material near "
+                     f"x={m['at'][0] / f:.4f} y={m['at'][1] / f:.4f}")
+    for ln in facts["stray_runs"]:
+        lines.append(f"problem: the cutting moves from line {ln} follow no outline of the part")
+    for o in facts["order"]:
+        lines.append(f"problem: {o}")
+    for pr in facts["problems"]:
+        if pr["rule"] != "no feed":
+            lines.append(f"problem: line {pr['line']}: {pr['message']}")
+    nof = facts["feed_moves_without_f"]
+    if nof:
+        shown = ", ".join(str(n) for n in nof[:10]) + (" ..." if len(nof) > 10 else "")
+        lines.append(f"feed moves without F: {len(nof)} (lines {shown})")
+    t = facts["time"]
+    lines.append("estimated cycle time as written: " + ("not known (a feed move has no F)" if t is None
+                                                        else _fmt_time(t)))
+    lines.append("clean" if facts["status"] == 0 else
+                 "NOT clean (exit status 1): fix the lines named above before cutting")
+    return lines
+
+
 def _cmd_verify(a, out, err) -> int:
     import json
 
@@ -651,15 +723,21 @@ def _cmd_verify(a, out, err) -> int:
     from .verify.check import program_dict
 
     facts, result = verify(a.program, a.points, JobOptions.from_user(a.points, **_run_options(a)))
+    part = "outlines" in facts  # a part of several outlines
     if not a.quiet:
         for note in result.notes:
             err.write(f"pathgen verify: note: {' '.join(note.split())}\n")
     if a.json:
-        payload = program_dict(facts, facts["units"])
+        if part:
+            from .verify.part import part_verify_dict
+
+            payload = part_verify_dict(facts, facts["units"])
+        else:
+            payload = program_dict(facts, facts["units"])
         out.write(json.dumps(payload, indent=2, sort_keys=True, allow_nan=False) + "\n")
         err.write(CAUTION + "\n")
     elif not a.quiet:
-        out.write("\n".join(_verify_text(facts, result, a)) + "\n")
+        out.write("\n".join(_verify_part_text(facts, result) if part else _verify_text(facts, result, a)) + "\n")
         out.write(CAUTION + "\n")
     else:
         err.write(CAUTION + "\n")

@@ -321,15 +321,21 @@ def side_of(level: int) -> str:
     return "outside" if level % 2 == 0 else "inside"
 
 
-def cut_order(outlines, levels, starts, ends, *, origin=(0.0, 0.0)) -> list[int]:
-    """Indices in cutting order: an outline after every outline inside it;
-    among those ready, the nearest start to where the tool stands."""
+def enclosed(outlines, levels) -> list[list[int]]:
+    """For each outline, the indices of the outlines that lie inside it."""
     import shapely
 
     n = len(outlines)
     polys = [shapely.Polygon(o.polygon_points(1e-2)) for o in outlines]
-    inside = [[j for j in range(n) if j != i and levels[j] > levels[i] and polys[i].contains(polys[j])]
-              for i in range(n)]
+    return [[j for j in range(n) if j != i and levels[j] > levels[i] and polys[i].contains(polys[j])]
+            for i in range(n)]
+
+
+def cut_order(outlines, levels, starts, ends, *, origin=(0.0, 0.0)) -> list[int]:
+    """Indices in cutting order: an outline after every outline inside it;
+    among those ready, the nearest start to where the tool stands."""
+    n = len(outlines)
+    inside = enclosed(outlines, levels)
     done, order = set(), []
     here = np.asarray(origin, float)
     while len(order) < n:

@@ -30,6 +30,7 @@ class PartReport:
     rapid_length: float = 0.0  # mm
     program_time: float | None = None  # s
     steps: tuple = ()  # what reading did, plain sentences
+    program: dict | None = None  # what the replay of the written program measured (mm), per outline
 
     @property
     def reports(self):
@@ -73,6 +74,10 @@ class PartReport:
             row["tabs"] = [{"x": t["x"] / k, "y": t["y"] / k, "s": t["s"] / k, "width": t["width"] / k,
                             "height": t["height"] / k} for t in r.get("tabs", [])]
             row["check"] = r["report"].to_dict(units=units)
+            if self.program:
+                from .verify.part import part_program_dict
+
+                row["program"] = part_program_dict(self.program, units).get(r["number"])
             out["outlines"].append(row)
         return out
 
@@ -102,7 +107,15 @@ class PartReport:
         for r in sorted(self.rows, key=lambda r: r["order"]):
             lines.append("")
             lines.append(f"outline {r['number']} ({r['side']}):")
-            lines.extend("  " + ln for ln in r["report"].to_text(units=units).rstrip("\n").splitlines())
+            body = r["report"].to_text(units=units).rstrip("\n").splitlines()
+            if self.program:
+                from .verify.part import part_header_lines
+
+                said = [ln for ln in part_header_lines(self.program, units)
+                        if ln.startswith((f"outline {r['number']}:", f"outline {r['number']} budget:"))]
+                at = len(body) - 1 if body and body[-1].lstrip().startswith(("CAUTION", "Verify")) else len(body)
+                body[at:at] = ["program as written: " + ln.split(" ", 2)[2].lstrip(": ") + "." for ln in said]
+            lines.extend("  " + ln for ln in body)
         return "\n".join(lines) + "\n"
 
 
@@ -128,6 +141,9 @@ class PartResult:
     timings: dict = field(default_factory=dict)
     units: str = "mm"
     notes: tuple = ()
+    specs: tuple = ()  # what each outline expects of a program (pathgen.verify.part.PartOutlineSpec)
+    material: object = None  # the part's material (shapely, mm) when a toolpath was made
+    tool_radius: float = 0.0  # mm
 
     @property
     def outline(self):
@@ -209,17 +225,37 @@ def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes
                      f"(more than the tolerance {tol:g} mm), even without leads; use a smaller tool")
 
 
-def _replay_part(material, tool_mm: float, tol_mm: float):
-    """The check run on a part program's text before it is put in place:
-    read back under the word and arc rules (pathgen.verify.reader), and
-    every flat move below the stock top swept against the part's material
-    (pathgen.path.join.intrusion).  The deviation from each outline's
-    tool-center curve is measured on the moves before formatting only."""
-    import numpy as np
+def _outline_budget(contour, tol_mm: float, units: str) -> dict:
+    """The tolerance budget of one outline (mm): decimals from the tolerance,
+    the points → contour part (a drawn outline: its measured distance from
+    the drawing; points: the fit's residual, stated apart when smoothed)."""
+    from .verify.replay import budget, decimals_for
 
+    info = getattr(contour, "info", {}) or {}
+    drawn = info.get("drawn")
+    if drawn:
+        residual = (max(float(drawn.get("arc_distance", 0.0)), float(drawn.get("curve_distance", 0.0))), 0.0)
+        smoothed = False
+    else:
+        residual = (float(info.get("max_residual", 0.0)), float(info.get("rms_residual", 0.0)))
+        smoothed = info.get("smoothing") in ("tolerance", "noise")
+    plan = budget(tol_mm, decimals=decimals_for(tol_mm, units), units=units, residual=residual, smoothed=smoothed)
+    if plan["approximation_target"] <= 0.5 * tol_mm:
+        raise InputError(f"tolerance {tol_mm:g} mm is too small to write: rounding to {plan['decimals']} decimals "
+                         f"and the outline's distance from its input take more than half of it")
+    return plan
+
+
+def _replay_part(material, tool_mm: float, tol_mm: float, specs=(), plans=(), out=None, units: str = "mm"):
+    """The check run on a part program's text before it is put in place:
+    read back under the word and arc rules (pathgen.verify.reader); every
+    flat move below the stock top swept against the part's material
+    (pathgen.path.join.intrusion); and, outline by outline, the two-sided
+    deviation from its tool-center curve, its clearance, its tabs read back
+    and the cutting order (pathgen.verify.part.replay_part).  The figures go
+    into ``out``; any failure raises InternalCheckError (nothing is written)."""
     from .errors import InternalCheckError
-    from .path.join import intrusion
-    from .path.model import Toolpath
+    from .verify.part import deepest_intrusion, replay_part
     from .verify.reader import read_gcode
 
     def check(text):
@@ -227,24 +263,48 @@ def _replay_part(material, tool_mm: float, tol_mm: float):
             prog = read_gcode(text, source="<program>", strict=True)
         except InputError as exc:
             raise InternalCheckError(f"internal check failed: the part program does not read back: {exc}") from None
-        known = np.isfinite(prog.start).all(axis=1) & np.isfinite(prog.end).all(axis=1)
-        flat = known & (prog.kind != 0) & (np.abs(prog.start[:, 2] - prog.end[:, 2]) <= 1e-9) & (prog.end[:, 2] < 0)
-        worst, where, moves = 0.0, None, 0
-        for z in np.unique(np.round(prog.end[flat, 2], 6)):
-            sel = flat & (np.abs(prog.end[:, 2] - z) <= 1e-6)
-            moves += int(sel.sum())
-            level = Toolpath(prog.kind[sel], prog.start[sel], prog.end[sel], prog.center[sel], prog.feed[sel],
-                             units="mm", tool_diameter=float(tool_mm))
-            depth, at = intrusion(level, material)
-            if depth > worst:
-                worst, where = depth, at
+        worst, where, line, moves = deepest_intrusion(prog, material, 0.5 * float(tool_mm or 0.0))
         if worst > tol_mm:
             raise InternalCheckError(
                 f"internal check failed: the written part program cuts {worst:.6g} mm into the part near "
-                f"({where[0]:.4f}, {where[1]:.4f}) mm (tolerance {tol_mm:g} mm); nothing was written")
-        return [f"replayed from this text: {moves} cutting blocks below the stock top read back, none enters "
-                f"the part by more than the tolerance (deepest {max(worst, 0.0):.6g} mm)",
-                "deviation from each outline: measured on the moves before they were written (not replayed)"]
+                f"({where[0]:.4f}, {where[1]:.4f}) mm at line {line} (tolerance {tol_mm:g} mm); nothing was written")
+        lines = [f"replayed from this text: {moves} cutting blocks below the stock top read back, none enters "
+                 f"the part by more than the tolerance (deepest {max(worst, 0.0):.6g} mm)"]
+        if not specs:
+            return lines
+        facts = replay_part(prog, list(specs), tool_radius=0.5 * float(tool_mm or 0.0), tolerance=tol_mm)
+        bad = []
+        for row, plan in zip(facts["outlines"], plans):
+            n = row["number"]
+            if row["missing"]:
+                bad.append(f"outline {n}: no cutting moves follow it")
+                continue
+            plan = dict(plan)
+            plan["total"] = plan["points"] + plan["approximation"] + plan["rounding"]
+            row["budget"] = plan
+            if not row["within_tolerance"]:
+                w = row["deviation_worst_line"]
+                bad.append(f"outline {n}: strays {row['deviation']:.6g} mm from its tool-center curve (moves to "
+                           f"curve {row['deviation_moves_to_curve']:.6g}, curve to moves "
+                           f"{row['deviation_curve_to_moves']:.6g}" + (f", worst at line {w}" if w else "") + ")")
+            if row["gouges"]:
+                g = max(row["gouges"], key=lambda x: x["depth"])
+                bad.append(f"outline {n}: cuts {g['depth']:.6g} mm into the part at line {g['line']}")
+            if row["tabs"] is not None and not row["tabs"]["ok"]:
+                t = row["tabs"]
+                bad.append(f"outline {n}: {t['count']} tab(s) read back cut to {t['cut_depth']} mm, expected "
+                           f"{t['expected_count']} cut to {t['expected_cut_depth']:.6g} mm")
+        if facts["stray_runs"]:
+            bad.append(f"cutting moves at line(s) {', '.join(map(str, facts['stray_runs']))} follow no outline")
+        bad += facts["order"]
+        if bad:
+            raise InternalCheckError("internal check failed: the written part program, read back: "
+                                     + "; ".join(bad) + f" (chord tolerance {tol_mm:g} mm); nothing was written")
+        if out is not None:
+            out.update(facts)
+        from .verify.part import part_header_lines
+
+        return lines + part_header_lines(facts, units)
 
     return check
 
@@ -315,7 +375,7 @@ def _tabs_mm(tp, k):
 
 
 def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, force: bool = False,
-             progress=None, **kwargs):
+             progress=None, make_path: bool = False, **kwargs):
     """Run the whole job on a part file: every closed outline, nested, in one program.
 
     Options are those of :func:`pathgen.pipeline.run` (a
@@ -381,7 +441,7 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
     timings = {}
     timed = stage_timer(progress, timings)
 
-    from .part import cut_order, nest, read_part
+    from .part import cut_order, enclosed, nest, read_part
 
     outlines, steps, warnings = timed("read", read_part, path, units=units, layers=opts.layer,
                                       tolerance=tol_mm, gap=gap_mm)
@@ -391,7 +451,7 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
     _check_work(allpts, tol_mm, tool_mm, opts.depth, opts.step_down, units)
     levels = timed("nest", nest, outlines)
     side_list = _sides(outlines, levels, opts.sides)
-    makes_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
+    makes_path = make_path or "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
     if "gcode" in targets and tool_mm is None and any(s != "on" for s in side_list):
         raise InputError("a program cutting a part needs the tool diameter (tool_diameter=, --tool-diameter)")
 
@@ -417,13 +477,21 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
         tab_opts = None  # tabs belong to a program
     material = _material(outlines, contours) if makes_path else None
     lead_notes = []
+    plans = []
     for o, s, c in zip(outlines, side_list, contours):
         try:
             cut = Cut(side=s, tolerance=tol_mm, **({"feed": feed_mm} if feed_mm else {}))
             rep = timed("check", check, c, mach, tool, cut)
             tp = None
             if makes_path:
+                import dataclasses
+
                 from .path.build import make_toolpath
+
+                # the tolerance budget: rounding to the written decimals takes at most 5 %, the moves the rest
+                plan = _outline_budget(c, tol_mm, units)
+                plans.append(plan)
+                cut = Cut(side=s, tolerance=plan["approximation_target"], **({"feed": feed_mm} if feed_mm else {}))
 
                 kw = {"moves": opts.moves, "lead": opts.lead, "units": units, "direction": opts.direction}
                 for name in ("depth", "step_down", "safe_height", "plunge_feed"):
@@ -443,6 +511,9 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
                         # an island inside a hole: a loose piece, noted, not a reason to stop
                         lead_notes.append(f"outline {o.number} ({o.where}): no tabs: {exc}; "
                                           "this piece comes loose when the cut goes through")
+                plan["approximation"] = float(tp.deviation) * (MM_PER_INCH if tp.units == "inch" else 1.0)
+                tp = dataclasses.replace(tp, tolerance=tol_mm / scale,
+                                         info={**tp.info, "approximation_target": plan["approximation_target"] / scale})
         except InputError as exc:
             raise InputError(f"outline {o.number} ({o.where}, cut {s}): {exc}") from None
         reports.append(rep)
@@ -485,6 +556,21 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
     from .export._atomic import staged_outputs
 
     files = {}
+    replayed = {}
+    specs = ()
+    if makes_path:
+        from .verify.check import Moves
+        from .verify.part import PartOutlineSpec
+
+        inner = enclosed(outlines, levels)
+        specs = tuple(PartOutlineSpec(
+            number=o.number, contour=contours[i], offset=float(paths[i].info.get("offset", 0.0)) / k,
+            side=side_list[i], expected=Moves.from_toolpath(paths[i]),
+            inside=tuple(outlines[j].number for j in inner[i]),
+            tabs=None if not paths[i].info.get("tabs") else {
+                "count": len(paths[i].info["tabs"]), "height": float(paths[i].info["tab_height"]) / k,
+                "depth": float(paths[i].info["depth"]) / k})
+            for i, o in enumerate(outlines))
     notes = list(warnings) + [s for s in steps if "bridged" in s] + lead_notes
     final = dict(targets)
     with _w.catch_warnings(record=True) as caught, staged_outputs(final, force=force) as (stage, tmp):
@@ -494,9 +580,14 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
 
             timed("gcode", write_gcode, joined, tmp["gcode"], force=True, source=path.name,
                   program_name=Path(final["gcode"]).stem, spindle_speed=opts.spindle_speed,
-                  single_feed=opts.one_feed, line_numbers=opts.line_numbers,
-                  check=_replay_part(material, tool_mm, tol_mm) if material is not None else None)
+                  single_feed=opts.one_feed, line_numbers=opts.line_numbers, decimals=plans[0]["decimals"],
+                  check=_replay_part(material, tool_mm, tol_mm, specs, plans, replayed, units)
+                  if material is not None else None)
             files["gcode"] = final["gcode"]
+            if replayed:
+                import dataclasses
+
+                prep = dataclasses.replace(prep, program=replayed)
         if "report" in tmp:
             from .export.report import write_report
 
@@ -520,4 +611,5 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
     notes += [str(w.message) for w in caught if issubclass(w.category, UserWarning)]
     return PartResult(source, tuple(outlines), tuple(levels), tuple(side_list), tuple(order),
                       tuple(contours), tuple(reports), tuple(paths), prep, toolpath=joined,
-                      files=files, facts=facts, timings=timings, units=units, notes=tuple(notes))
+                      files=files, facts=facts, timings=timings, units=units, notes=tuple(notes),
+                      specs=specs, material=material, tool_radius=0.5 * float(tool_mm or 0.0))

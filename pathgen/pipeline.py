@@ -347,7 +347,7 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
         import dataclasses
 
         return run_part(path, dataclasses.replace(o, direction=direction), gcode=gcode, dxf=dxf, report=report,
-                        plot=plot, force=force, progress=progress)
+                        plot=plot, force=force, progress=progress, make_path=make_path)
     from .points import clean_points, read_points
 
     if path is not None:
@@ -456,8 +456,8 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
                   decimals=plan["decimals"], frame=frame,
                   notes=tuple(f"note: {n}" for n in feed_notes) + ((_NOT_REPLAYED,) if o.compensation == "machine"
                                                                      else ()),
-                  **({} if o.compensation == "machine" else
-                     {"check": _replay(contour, tp, tool_mm, side, tol_mm, plan, mach, replayed)}))
+                  check=(_replay_compensated if o.compensation == "machine" else _replay)(
+                      contour, tp, tool_mm, side, tol_mm, plan, mach, replayed))
             files["gcode"] = final["gcode"]
         if "report" in targets:
             from .export.report import write_report
@@ -468,7 +468,8 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
 
                 stated = ReportWithProgram(rep, replayed)
             comp = tp.info.get("compensation") if tp is not None else None
-            program = None if not comp else {
+            # a compensated program's replay states its word, register and side itself (program.compensation)
+            program = None if not comp or replayed else {
                 "compensation": "machine", "word": comp["word"], "register": comp["register"],
                 "side": "left of travel" if comp["word"] == "G41" else "right of travel",
                 "radius": comp["radius"]}
@@ -512,6 +513,11 @@ def verify(program, points, options=None, **kwargs) -> tuple:
         As for :func:`run`; None: built from ``**kwargs``.
     **kwargs : the options as for :func:`run` (no output files).
 
+    A part (a drawing, a text file of several outlines) is checked outline
+    by outline (:func:`pathgen.verify.part.verify_part`); with
+    ``compensation="machine"`` the program is read with G41/G42 and checked
+    as a part line (:func:`pathgen.verify.compensated.compensated_facts`).
+
     Returns
     -------
     (facts, result): ``facts`` as :func:`pathgen.verify.check.verify_program`
@@ -533,21 +539,41 @@ def verify(program, points, options=None, **kwargs) -> tuple:
     for key in ("gcode", "dxf", "report", "plot"):
         if kwargs.get(key) is not None:
             raise InputError(f"verify writes no files ({key}= was given)")
-    prog = read_gcode_file(program)
     o = job_options(points, options, kwargs)
+    compensated = o.compensation == "machine"
+    prog = read_gcode_file(program, compensation=compensated)
     result = run(points, o, make_path=True)
     tp = result.toolpath
     f = MM_PER_INCH if tp.units == "inch" else 1.0
+    mach = load_job_machine(o)
+    if getattr(result, "specs", ()):  # a part of several outlines
+        from .verify.part import verify_part
+
+        return verify_part(prog, result, machine=mach), result
+    if compensated:  # the program follows the part line; the control offsets it
+        from .verify.compensated import compensated_facts, part_line_moves
+        from .verify.replay import program_time
+
+        facts = compensated_facts(prog, result.contour, tool_radius=0.5 * float(o.tool_diameter),
+                                  side=o.side, tolerance=float(tp.tolerance) * f,
+                                  expected=part_line_moves(tp))
+        facts["time"] = program_time(prog, mach)
+        facts["units"] = prog.units
+        facts["program"] = prog.source
+        facts["problems"] = [p.to_dict() for p in prog.problems] + facts["compensation"]["problems"]
+        facts["feed_moves_without_f"] = [p.line for p in prog.problems if p.rule == "no feed"]
+        facts["status"] = 1 if (not facts["within_tolerance"] or facts["gouges"] or facts["problems"]) else 0
+        return facts, result
     facts = verify_program(prog, result.contour, offset=float(tp.info.get("offset", 0.0)) * f,
                            tool_radius=0.5 * o.tool_diameter if o.tool_diameter else 0.0,
                            side=o.side, tolerance=float(tp.tolerance) * f,
-                           expected=Moves.from_toolpath(tp), machine=load_job_machine(o))
+                           expected=Moves.from_toolpath(tp), machine=mach)
     return facts, result
 
 
 #: Header line of a program written for cutter compensation at the control.
-_NOT_REPLAYED = ("not replayed by pathgen: the control offsets this part line by the D register, "
-                 "so its tool path exists only there - verify it on the control")
+_NOT_REPLAYED = ("not replayed by pathgen: the control's own offset of this part line by the D register "
+                 "(its tool path exists only there) - verify it on the control")
 
 
 def _budget(contour, tol_mm: float, units: str, smoothed: bool) -> dict:
@@ -577,6 +603,46 @@ def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
     def check(text):
         facts = check_program(text, contour, offset=offset, tool_radius=radius, side=side, tolerance=tol_mm,
                               expected=Moves.from_toolpath(tp), budget=plan, machine=machine)
+        out.update(facts)
+        return header_lines(facts, tp.units)
+
+    return check
+
+
+def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
+    """The check run on a program for cutter compensation at the control
+    before it is renamed into place (:mod:`pathgen.verify.compensated`):
+    read back with G41/G42, the part line's deviation, the entry and exit,
+    the arcs toward the tool and the swept tool disc; figures into ``out``."""
+    from .errors import InternalCheckError
+    from .verify.check import header_lines
+    from .verify.compensated import compensated_facts, part_line_moves
+    from .verify.reader import read_gcode
+
+    radius = 0.5 * (tool_mm or 0.0)
+
+    def check(text):
+        try:
+            program = read_gcode(text, source="<program>", strict=True, compensation=True)
+        except InputError as exc:
+            raise InternalCheckError(f"internal check failed: the program does not read back: {exc}") from None
+        facts = compensated_facts(program, contour, tool_radius=radius, side=side, tolerance=tol_mm,
+                                  expected=part_line_moves(tp))
+        from .verify.replay import program_time
+
+        facts["time"] = program_time(program, machine) if machine is not None else None
+        facts["budget"] = plan
+        c = facts["compensation"]
+        bad = [f"line {p['line']}: {p['message']}" for p in c["problems"]]
+        if not facts["within_tolerance"]:
+            bad.append(f"the part line strays {facts['deviation']:.6g} mm from the contour (worst at line "
+                       f"{facts['deviation_worst_line']})")
+        if facts["gouges"]:
+            bad.append(f"the tool disc along the offset part line enters the part by {c['swept_depth']:.6g} mm "
+                       f"near line {c['swept_line']}")
+        if bad:
+            raise InternalCheckError("internal check failed: the written compensated program, read back: "
+                                     + "; ".join(bad) + f" (chord tolerance {tol_mm:g} mm); nothing was written")
         out.update(facts)
         return header_lines(facts, tp.units)
 

@@ -77,8 +77,8 @@ def _clearance(program, contour, *, tool_radius, side, tolerance):
     return cl, known
 
 
-def _facts(program, contour, *, offset, tool_radius, side, tolerance, expected, machine):
-    dev = replay_deviation(program, contour, offset, tol=tolerance, expected=expected)
+def _facts(program, contour, *, offset, tool_radius, side, tolerance, expected, machine, passes=None, q=None):
+    dev = replay_deviation(program, contour, offset, tol=tolerance, expected=expected, passes=passes, q=q)
     cl = _clearance(program, contour, tool_radius=tool_radius, side=side, tolerance=tolerance)
     facts = {
         "blocks": int(len(program.kind)),  # motion blocks as written (the header's count)
@@ -206,6 +206,10 @@ def header_lines(facts: dict, units: str) -> list[str]:
         if b["smoothing"] is not None:
             out.append(f"smoothing moved the contour from the points by at most {_num(_u(b['smoothing'][0], u))} "
                        f"{u} [RMS {_num(_u(b['smoothing'][1], u))}]; asked for apart from the chord tolerance")
+    if facts.get("compensation") is not None:  # the part line, for cutter compensation at the control
+        from .compensated import compensation_lines
+
+        return out + compensation_lines(facts, units)
     line = (f"replayed from this text: deviation from the tool-center curve {_num(_u(facts['deviation'], u))} {u} "
             f"[two-sided, {facts['moves_measured']} moves]")
     out.append(line)
@@ -279,6 +283,16 @@ def program_dict(facts: dict, units: str) -> dict:
             "moves_to_text": u(b["rounding"]),
             "total": u(b["total"]),
         }
+    c = facts.get("compensation")
+    if c is not None:
+        out["compensation"] = {
+            "word": c["word"], "register": c["register"], "side": c["side"], "on_lines": c["on_lines"],
+            "off_lines": c["off_lines"],
+            "entry_lengths": [u(v) for v in c["entry_lengths"]], "exit_lengths": [u(v) for v in c["exit_lengths"]],
+            "tightest_arc_toward_tool": u(c["tightest_toward"]), "swept_depth": u(max(c["swept_depth"], 0.0)),
+            "swept_at": None if c["swept_at"] is None else [u(v) for v in c["swept_at"]],
+            "swept_line": c["swept_line"], "tool_radius": u(c["tool_radius"]), "problems": c["problems"],
+            "ok": c["ok"]}
     for key in ("units", "program", "problems", "feed_moves_without_f", "status"):
         if key in facts:
             out[key] = facts[key]

@@ -13,14 +13,17 @@ Words read
   in the XY plane with ``I``, ``J`` the center's offset from the arc's start
   (in both distance modes); ``G17`` XY plane; ``G20``/``G21`` inch / mm;
   ``G90``/``G91`` absolute / incremental; ``G94`` feed per minute; ``G40``
-  cutter compensation off.
+  cutter compensation off; ``G41``/``G42`` with ``D`` (cutter compensation
+  at the control, tool left / right of travel) only when the caller asks
+  for it (``compensation=True``): the moves are then the programmed part
+  line, and ``Program.comp`` says which moves the control offsets.
 * ``X Y Z I J`` (lengths), ``F`` feed per minute, ``S`` spindle speed,
   ``M3``/``M5`` spindle, ``M8``/``M9`` coolant, ``M2``/``M30`` end,
   ``N`` line numbers, comments in parentheses or after ``;``, and ``%``
   lines.
 
-Anything else (another plane, radius-format arcs, cutter compensation on,
-tool changes, canned cycles) is refused with :class:`InputError` naming the
+Anything else (another plane, radius-format arcs, cutter compensation on
+when not asked for, tool changes, canned cycles) is refused with :class:`InputError` naming the
 file and line: a move the reader cannot interpret is never guessed.
 
 Rule breaks the reader can still interpret are collected as
@@ -77,9 +80,9 @@ _WORD = re.compile(r"([A-Za-z])[ \t]*([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)
 _NUM = r"(-?\d+(?:\.\d+)?)"
 _FAST = re.compile(rf"(?:N\d{{1,5}} )?G([0-3])(?: X{_NUM})?(?: Y{_NUM})?(?: Z{_NUM})?(?: I{_NUM})?(?: J{_NUM})?"
                    rf"(?: F(\d+(?:\.\d+)?))?")
-# G41/G42 are not read: the control offsets such a program by a register
-# pathgen cannot see, so its tool path cannot be replayed here
-_G_KNOWN = {0, 1, 2, 3, 17, 20, 21, 28, 40, 43, 49, 54, 55, 56, 57, 58, 59, 90, 91, 94}
+# G41/G42 are read only when the caller expects compensation: the control
+# offsets such a program by a register, so its moves are the part line
+_G_KNOWN = {0, 1, 2, 3, 17, 20, 21, 28, 40, 41, 42, 43, 49, 54, 55, 56, 57, 58, 59, 90, 91, 94}
 _M_KNOWN = {2, 3, 4, 5, 6, 7, 8, 9, 30}
 # T tool, H length-offset register (G43), D radius register (G41/G42): read,
 # they move nothing; an O word (program number) stands alone on its line
@@ -126,6 +129,9 @@ class Program:
     problems : tuple of :class:`Problem`.
     source : the file name (or "<text>").
     lines : number of lines in the file.
+    comp, switch, register : cutter compensation (read with
+        ``compensation=True``; else None): per move 0, 41 or 42 and +1 / -1
+        where a block turns it on / off; the last D register.
     """
 
     kind: np.ndarray
@@ -138,6 +144,9 @@ class Program:
     problems: tuple
     source: str = "<text>"
     lines: int = 0
+    comp: np.ndarray | None = None  # (k,) int8: 0, 41 or 42, the compensation each move runs under
+    switch: np.ndarray | None = None  # (k,) int8: +1 the block turns compensation on, -1 off, else 0
+    register: int | None = None  # the D word last given
 
     def __len__(self) -> int:
         return len(self.kind)
@@ -148,7 +157,7 @@ def _fail(source, lineno, message):
     raise InputError(f"{where}: {message}")
 
 
-def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Program:
+def read_gcode(text: str, *, source: str = "<text>", strict: bool = False, compensation: bool = False) -> Program:
     """Interpret a program's text into moves in mm.
 
     Parameters
@@ -160,6 +169,11 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
     strict : bool
         Raise :class:`InputError` at the first rule break instead of
         collecting it in ``Program.problems``.
+    compensation : bool
+        Read G41/G42 (cutter compensation at the control, NISTIR 6556):
+        the moves are the programmed part line.  False: a program that
+        turns compensation on is refused (its tool path exists only at the
+        control).
 
     Returns
     -------
@@ -193,6 +207,7 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
     after_end_noted = False
     pos = [math.nan, math.nan, math.nan]
     kinds, starts, ends, centers, feeds, lines = [], [], [], [], [], []
+    comp_now, register, comps, switches = 0, None, [], []
     raw_lines = text.split("\n")
     if raw_lines and raw_lines[-1] == "":
         raw_lines.pop()
@@ -232,6 +247,8 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
                 centers.append(center)
                 feeds.append(feed * scale if g else 0.0)
                 lines.append(lineno)
+                comps.append(comp_now)
+                switches.append(0)
                 pos = end
                 continue
         if len(code) > _MAX_LINE:
@@ -290,7 +307,7 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
                 g = int(v) if v == int(v) else None
                 if g not in _G_KNOWN:
                     _fail(source, lineno, f"G{num} is not one pathgen reads (G0 G1 G2 G3 G17 G20 G21 G28 "
-                                          "G40 G43 G49 G54-G59 G90 G91 G94)")
+                                          "G40 G41 G42 G43 G49 G54-G59 G90 G91 G94)")
                 gs.append(g)
             elif letter == "M":
                 m = int(v) if v == int(v) else None
@@ -320,6 +337,25 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
                 if motion_here is not None:
                     _fail(source, lineno, "two motion words on one line")
                 motion_here = g
+        switch_here = 0
+        if sum(g in (40, 41, 42) for g in gs) > 1:
+            _fail(source, lineno, "two G words of one modal group (G40, G41, G42) on one line (NISTIR 6556)")
+        if "D" in vals:
+            register = int(vals["D"])
+        for g in gs:
+            if g in (41, 42):
+                if not compensation:
+                    _fail(source, lineno, f"G{g} is not one pathgen reads here: the program relies on the control's "
+                                          "cutter compensation (its tool path is the part line offset by the "
+                                          "D register); check it with the compensation option (--compensation "
+                                          "machine)")
+                if comp_now:
+                    _fail(source, lineno, f"G{g} while cutter compensation is on (G40 first; NISTIR 6556)")
+                if register is None:
+                    _fail(source, lineno, f"G{g} without a D word (the register of the tool radius)")
+                comp_now, switch_here = g, 1
+            elif g == 40 and comp_now:
+                comp_now, switch_here = 0, -1
         if "O" in vals and (len(words) != 1 or gs or ms):
             _fail(source, lineno, "a program number O stands alone on its line")
         if 28 in gs:
@@ -375,6 +411,8 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
                 centers.append(center)
                 feeds.append(0.0 if motion == RAPID else feed * (_MM_PER_INCH if units == "inch" else 1.0))
                 lines.append(lineno)
+                comps.append(comp_now if switch_here >= 0 else 0)
+                switches.append(switch_here)
                 pos = end
         elif has_ij:
             _fail(source, lineno, "I or J without an arc move")
@@ -394,10 +432,13 @@ def read_gcode(text: str, *, source: str = "<text>", strict: bool = False) -> Pr
         problems=tuple(problems),
         source=source,
         lines=len(raw_lines),
+        comp=np.asarray(comps, np.int8).reshape(k) if compensation else None,
+        switch=np.asarray(switches, np.int8).reshape(k) if compensation else None,
+        register=register if compensation else None,
     )
 
 
-def read_gcode_file(path, *, strict: bool = False) -> Program:
+def read_gcode_file(path, *, strict: bool = False, compensation: bool = False) -> Program:
     """Read a program file (ASCII text) with :func:`read_gcode`."""
     p = Path(os.fspath(path))
     if not p.is_file():
@@ -408,4 +449,4 @@ def read_gcode_file(path, *, strict: bool = False) -> Program:
     except UnicodeDecodeError as exc:
         line = data[: exc.start].count(b"\n") + 1
         raise InputError(f"{p}, line {line}: a byte that is not ASCII text (is this a G-code program?)") from None
-    return read_gcode(text, source=str(p), strict=strict)
+    return read_gcode(text, source=str(p), strict=strict, compensation=compensation)

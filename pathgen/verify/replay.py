@@ -401,7 +401,8 @@ def _matching(kind, start, end, expected, chosen, match: float = 1e-3):
     return idx[dist <= match]
 
 
-def replay_deviation(program, contour, d: float, *, tol: float, expected=None, capture=None) -> dict:
+def replay_deviation(program, contour, d: float, *, tol: float, expected=None, capture=None, passes=None,
+                     q=None) -> dict:
     """Two-sided deviation of a program's cutting moves from q = P + d·N.
 
     Parameters
@@ -416,6 +417,14 @@ def replay_deviation(program, contour, d: float, *, tol: float, expected=None, c
         the program must cover); None: the program's own moves.
     capture : mm; a move runs along the curve when both its ends lie this
         close to q (default max(5·tol, 0.02 mm), at most 0.3 mm).
+    passes : list of index arrays into the program's moves, or None.  None:
+        the curve → file side is measured per cutting depth (every flat
+        move at one z).  Given: per pass instead, each pass's flat moves at
+        whatever depth they run (a pass lifted over tabs covers the curve
+        with its moves at the full depth and those over the tabs together:
+        a tab changes z, not x and y).
+    q : (points, joined) of :func:`tool_center_polyline`, when the caller
+        has it already.
 
     Returns
     -------
@@ -431,7 +440,7 @@ def replay_deviation(program, contour, d: float, *, tol: float, expected=None, c
     start, end, center = program.start, program.end, program.center
     if capture is None:
         capture = min(max(5.0 * tol, 0.02), 0.3)
-    q, qj = tool_center_polyline(contour, d, tol)
+    q, qj = tool_center_polyline(contour, d, tol) if q is None else q
     qtree = cKDTree(q)
     ex_along = getattr(expected, "along", None) if expected is not None else None
     if ex_along is not None:
@@ -470,8 +479,11 @@ def replay_deviation(program, contour, d: float, *, tol: float, expected=None, c
     zs = np.unique(np.round(start[flat, 2], 6))
     out["levels"] = [float(z) for z in zs]
     seen = set()
-    for z in zs:
-        sel = np.flatnonzero(flat & (np.abs(start[:, 2] - z) <= 1e-6))
+    groups = ([np.flatnonzero(flat & (np.abs(start[:, 2] - z) <= 1e-6)) for z in zs] if passes is None
+              else [np.asarray(p, np.int64)[flat[np.asarray(p, np.int64)]] for p in passes])
+    for sel in groups:
+        if not len(sel):
+            continue
         key = (np.round(start[sel, :2], 9).tobytes(), np.round(end[sel, :2], 9).tobytes(), kind[sel].tobytes())
         if key in seen or not len(covered):
             continue  # the same moves at another depth measure the same
