@@ -30,8 +30,12 @@ GUIDE = ROOT / "docs" / "guide.md"
 
 
 def _blocks(text):
-    """(info string, body) of every fenced block, in order."""
-    return [(m.group(1), m.group(2)) for m in re.finditer(r"^```(\w*)\n(.*?)^```", text, flags=re.S | re.M)]
+    """(info string, body, prose before it) of every fenced block, in order."""
+    out, last = [], 0
+    for m in re.finditer(r"^```(\w*)\n(.*?)^```", text, flags=re.S | re.M):
+        out.append((m.group(1), m.group(2), text[last:m.start()]))
+        last = m.end()
+    return out
 
 
 def _command(body):
@@ -55,19 +59,27 @@ def _in_order(shown, actual, what):
                         f"--- {what} ---\n" + "\n".join(actual[:80]))
 
 
-def _hand_edit(program: Path, edited: Path, guide: str):
-    """The hand edit the guide describes in its words: "slowed the lead-in
-    to `F800` on line N" and "mistyped `A` as `B` on line M"."""
+def _hand_edit(program: Path, edited: Path, prose: str):
+    """The hand edit the guide describes in the words before the command:
+    "to `F800` on line N" (a feed), "mistyped `A` as `B` on line N" (a
+    number), "on ..., line N, as `TEXT`" (a whole line)."""
     lines = program.read_text().splitlines(keepends=True)
-    feed = re.search(r"to `F(\d+)` on line (\d+)", guide)
-    typo = re.search(r"mistyped `(\S+)` as `(\S+)` on line (\d+)", guide)
-    assert feed and typo, "the guide no longer describes its hand edit"
-    k = int(feed.group(2)) - 1
-    assert re.search(r"F\d", lines[k]), f"line {k + 1} holds no feed: {lines[k]!r}"
-    lines[k] = re.sub(r"F\d+(\.\d+)?", f"F{feed.group(1)}", lines[k])
-    k = int(typo.group(3)) - 1
-    assert typo.group(1) in lines[k], f"line {k + 1} is not the one the guide edits: {lines[k]!r}"
-    lines[k] = lines[k].replace(typo.group(1), typo.group(2))
+    prose = " ".join(prose.split())
+    edits = 0
+    for feed, n in re.findall(r"to `F(\d+)` on line (\d+)", prose):
+        k = int(n) - 1
+        assert re.search(r"F\d", lines[k]), f"line {k + 1} holds no feed: {lines[k]!r}"
+        lines[k] = re.sub(r"F\d+(\.\d+)?", f"F{feed}", lines[k])
+        edits += 1
+    for old, new, n in re.findall(r"mistyped `(\S+)` as `(\S+)` on line (\d+)", prose):
+        k = int(n) - 1
+        assert old in lines[k], f"line {k + 1} is not the one the guide edits: {lines[k]!r}"
+        lines[k] = lines[k].replace(old, new)
+        edits += 1
+    for n, text in re.findall(r"line (\d+), as `([^`]+)`", prose):
+        lines[int(n) - 1] = text + "\n"
+        edits += 1
+    assert edits, "the guide no longer describes its hand edit"
     edited.write_text("".join(lines))
 
 
@@ -76,8 +88,10 @@ def test_every_example_in_the_guide_is_real_output(tmp_path, monkeypatch):
     (tmp_path / "parts").mkdir()
     shutil.copy(ROOT / "samples" / "hook.csv", tmp_path / "parts" / "hook.csv")  # one file keeps it quick
     monkeypatch.chdir(tmp_path)
-    guide = GUIDE.read_text(encoding="utf-8")
-    blocks = _blocks(guide)
+    # the drawn plate the guide borrows from docs/part.md
+    part_page = _blocks((ROOT / "docs" / "part.md").read_text(encoding="utf-8"))
+    exec(compile(next(b[1] for b in part_page if b[0] == "python"), "docs/part.md", "exec"), {})  # noqa: S102
+    blocks = _blocks(GUIDE.read_text(encoding="utf-8"))
     commands = [b for b in blocks if _command(b[1])]
     assert len(commands) >= 8, "the guide lost its commands"
 
@@ -91,7 +105,7 @@ def test_every_example_in_the_guide_is_real_output(tmp_path, monkeypatch):
 
     ran, checked = 0, 0
     last_output = None
-    for info, body in blocks[first:]:
+    for info, body, prose in blocks[first:]:
         if info == "python":
             exec(compile(body, "docs/guide.md", "exec"), {})  # noqa: S102 - our own guide
             last_output = None
@@ -99,7 +113,7 @@ def test_every_example_in_the_guide_is_real_output(tmp_path, monkeypatch):
         argv = _command(body)
         if argv is not None:
             if argv[0] == "verify" and not Path(argv[1]).exists():
-                _hand_edit(Path("bracket.nc"), Path(argv[1]), guide)
+                _hand_edit(Path(argv[1].replace("-edited", "")), Path(argv[1]), prose)
             out, err = io.StringIO(), io.StringIO()
             status = main(argv, out=out, err=err)
             # exit 1 is the answer 'the tool cannot reach' / 'not clean', shown in the guide
@@ -109,10 +123,11 @@ def test_every_example_in_the_guide_is_real_output(tmp_path, monkeypatch):
                 written = Path(argv[argv.index("-o") + 1]).read_text().splitlines()
             last_output = (" ".join(argv[:2]), out.getvalue().splitlines() + written)
             if argv[0] == "verify":
-                # the guide's claims around the hand edit: the edit is not clean
+                # the guide's claims around a hand edit: the edit is not clean
                 # (exit 1), the unedited program is (exit 0)
                 assert status == 1
-                assert main(["verify", "bracket.nc"] + argv[2:], out=io.StringIO(), err=io.StringIO()) == 0
+                unedited = argv[1].replace("-edited", "")
+                assert main(["verify", unedited] + argv[2:], out=io.StringIO(), err=io.StringIO()) == 0
             ran += 1
             continue
         if last_output is not None:
