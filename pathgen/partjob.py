@@ -268,8 +268,9 @@ def _replay_part(material, tool_mm: float, tol_mm: float, specs=(), plans=(), ou
             raise InternalCheckError(
                 f"internal check failed: the written part program cuts {worst:.6g} mm into the part near "
                 f"({where[0]:.4f}, {where[1]:.4f}) mm at line {line} (tolerance {tol_mm:g} mm); nothing was written")
+        k = MM_PER_INCH if units == "inch" else 1.0  # the header speaks the program's units
         lines = [f"replayed from this text: {moves} cutting blocks below the stock top read back, none enters "
-                 f"the part by more than the tolerance (deepest {max(worst, 0.0):.6g} mm)"]
+                 f"the part by more than the tolerance (deepest {max(worst, 0.0) / k:.6g} {units})"]
         if not specs:
             return lines
         facts = replay_part(prog, list(specs), tool_radius=0.5 * float(tool_mm or 0.0), tolerance=tol_mm)

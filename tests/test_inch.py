@@ -6,6 +6,7 @@ exact by definition since 1959)."""
 from __future__ import annotations
 
 import json
+import re
 
 import numpy as np
 import pytest
@@ -77,3 +78,21 @@ def test_programs_trace_the_same_geometry(jobs):
         gap = max(cKDTree(pb).query(pa)[0].max(), cKDTree(pa).query(pb)[0].max())
         assert len(pa) > 1000 and len(pb) > 1000
         assert gap <= 2 * 0.01 + STEP + 0.001
+
+
+def test_inch_part_program_header_speaks_inch(tmp_path):
+    # a drawing in inch ($INSUNITS 1, the DXF header's unit code): a square
+    # plate with a round hole; every figure in the program's header is in
+    # inch, none in mm (the unit is said once, in the units line)
+    import ezdxf
+
+    doc = ezdxf.new("R2010")
+    doc.units = ezdxf.units.IN
+    msp = doc.modelspace()
+    msp.add_lwpolyline([(0, 0), (3, 0), (3, 2), (0, 2)], close=True)
+    msp.add_circle((1.5, 1.0), 0.25)
+    doc.saveas(tmp_path / "plate.dxf")
+    run(tmp_path / "plate.dxf", tool_diameter=0.125, depth=0.1, step_down=0.05, gcode=tmp_path / "plate.nc")
+    header = [ln for ln in (tmp_path / "plate.nc").read_text().splitlines() if ln.startswith("(")]
+    assert any("units: inch" in ln for ln in header)
+    assert not [ln for ln in header if re.search(r"\d mm\b|\bmm\)", ln)], header
