@@ -16,7 +16,7 @@ from pathlib import Path
 
 import numpy as np
 
-from ._options import MM_PER_INCH, SIDES, check_option
+from ._options import CAUTION, MM_PER_INCH, SIDES, check_option
 from .errors import InputError
 
 __all__ = ["run_part", "PartResult", "PartReport"]
@@ -107,15 +107,16 @@ class PartReport:
         for r in sorted(self.rows, key=lambda r: r["order"]):
             lines.append("")
             lines.append(f"outline {r['number']} ({r['side']}):")
-            body = r["report"].to_text(units=units).rstrip("\n").splitlines()
+            # each outline's report without its caution: the part's text says it once, at the end
+            body = [ln for ln in r["report"].to_text(units=units).rstrip("\n").splitlines() if ln != CAUTION]
             if self.program:
                 from .verify.part import part_header_lines
 
                 said = [ln for ln in part_header_lines(self.program, units)
                         if ln.startswith((f"outline {r['number']}:", f"outline {r['number']} budget:"))]
-                at = len(body) - 1 if body and body[-1].lstrip().startswith(("CAUTION", "Verify")) else len(body)
-                body[at:at] = ["program as written: " + ln.split(" ", 2)[2].lstrip(": ") + "." for ln in said]
+                body += ["program as written: " + ln.split(" ", 2)[2].lstrip(": ") + "." for ln in said]
             lines.extend("  " + ln for ln in body)
+        lines.append(CAUTION)
         return "\n".join(lines) + "\n"
 
 

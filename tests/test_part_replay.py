@@ -285,3 +285,14 @@ def test_verify_part_refuses_what_it_cannot_read(plate_program, tmp_path, capsys
     bad.write_text("G21 G90 G17 G94\nG0 X0 Y0 Z5\nG1 X1 Y1 R4 F100\nM2\n")
     code, out, err = _verify(capsys, bad, src, *OPTS)
     assert code == 2 and out == "" and "bad.nc, line 3" in err and "Traceback" not in err
+
+
+def test_part_report_text_says_the_caution_once(plate_program):
+    # one caution for the part, not one per outline (common practice: a
+    # warning repeated on every page stops being read)
+    from pathgen._options import CAUTION
+
+    _, _, res = plate_program
+    text = res.report.to_text()
+    assert text.count(CAUTION) == 1 and text.rstrip("\n").endswith(CAUTION)
+    assert "program as written: replayed deviation" in text  # each outline keeps its replayed figures
