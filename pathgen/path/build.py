@@ -31,6 +31,7 @@ import numpy as np
 
 from .._options import MM_PER_INCH, UNITS, check_option, check_positive, side_sign
 from ..errors import InputError
+from ..geometry import orientation
 from .arcfit import band_arcs
 from .entry import ENTRIES, arc_as_lines, helix_moves, move_length, ramp_route, take_length
 from .flatten import MOVES, _drop_tiny, approximate
@@ -399,8 +400,7 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
         else:
             plan["helix_center"], plan["helix_radius"] = found
             if closed:
-                x, y = chain.start[:, 0], chain.start[:, 1]
-                plan["helix_ccw"] = bool(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)) >= 0)
+                plan["helix_ccw"] = orientation(chain.start) > 0
     if plan["entry"] == "ramp":  # the ramp enters along the path: no lead-in
         plan["lead_in"], plan["lead_in_length"] = [], 0.0
         plan["ramp"] = ramp_route(chain, pass_depth / ramp, closed=closed)
@@ -521,9 +521,7 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     if contour.closed:
         # orientation from the fitted points' shoelace area: same sign as the
         # contour's area, at a fraction of its cost on large outlines
-        x, y = contour.points[:, 0], contour.points[:, 1]
-        shoelace = float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
-        orient = 1.0 if shoelace >= 0 else -1.0
+        orient = float(orientation(contour.points))
     d = side_sign(cut.side) * r * orient
     lo, hi = contour.domain
     target = None

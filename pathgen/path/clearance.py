@@ -64,6 +64,7 @@ import numpy as np
 
 from .._options import check_positive, side_sign
 from ..errors import InputError
+from ..geometry import arc_geometry, orientation
 
 __all__ = ["Clearance", "clearance", "Probe"]
 
@@ -98,16 +99,6 @@ class Clearance:
 
 
 # -- the contour as a polyline --------------------------------------------------
-def _orientation(contour) -> float:
-    """+1 for a counter-clockwise closed contour (or an open one), -1 for clockwise
-    (the sign of the fitted points' shoelace area, as the toolpath builder uses)."""
-    if not contour.closed:
-        return 1.0
-    x, y = contour.points[:, 0], contour.points[:, 1]
-    shoelace = float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
-    return 1.0 if shoelace >= 0 else -1.0
-
-
 def _inside(V, px, py) -> np.ndarray:
     """True where points (px, py) lie inside the closed polygon V (k, 2),
     by shapely's vectorized containment test (GEOS)."""
@@ -270,13 +261,7 @@ def _prepare(kind, start, end, center, stock_top, step):
     f1 = np.where(zb >= stock_top, fz, 1.0)
     f0, f1 = np.clip(f0, 0, 1), np.clip(f1, 0, 1)
     arc = kd >= ARC_CW
-    rho = np.hypot(s[:, 0] - c[:, 0], s[:, 1] - c[:, 1])
-    a0 = np.arctan2(s[:, 1] - c[:, 1], s[:, 0] - c[:, 0])
-    a1 = np.arctan2(e[:, 1] - c[:, 1], e[:, 0] - c[:, 0])
-    ccw = kd == ARC_CCW
-    sw = np.where(ccw, np.mod(a1 - a0, _TWO_PI), np.mod(a0 - a1, _TWO_PI))
-    sw = np.where(sw <= 1e-12, _TWO_PI, sw)
-    sw = np.where(ccw, sw, -sw)
+    rho, a0, sw = arc_geometry(s[:, :2], e[:, :2], c, kd == ARC_CCW)
     sw = np.where(arc, sw, 0.0)
     length = np.where(arc, rho * np.abs(sw), np.hypot(e[:, 0] - s[:, 0], e[:, 1] - s[:, 1])) * (f1 - f0)
     n = np.maximum(np.ceil(length / step), 1).astype(np.int64)
@@ -481,7 +466,9 @@ class Probe:
         if sgn == 0:
             raise InputError("clearance applies to cuts beside the contour (side 'outside' or 'inside'), not 'on'")
         self.contour = contour
-        self.orient = _orientation(contour)
+        # +1 counter-clockwise (or open), -1 clockwise: the fitted points'
+        # orientation, as the toolpath builder takes it
+        self.orient = float(orientation(contour.points)) if contour.closed else 1.0
         self.waste = sgn * self.orient  # + : waste on the contour's left
         self.chord_error = tol / 20.0
         self.tv = tv = _polyline(contour, self.chord_error, h_cap=max(0.5 * r, 2.0 * tol))

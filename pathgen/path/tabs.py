@@ -29,6 +29,7 @@ import numpy as np
 
 from .._options import MM_PER_INCH
 from ..errors import InputError
+from ..geometry import arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 
 __all__ = ["place_tabs", "add_tabs", "TURN_LIMIT"]
@@ -47,14 +48,8 @@ def _pass_moves(tp: Toolpath):
 
 def _arc(tp, i):
     s, e, c = tp.start[i, :2], tp.end[i, :2], tp.center[i]
-    r = float(np.hypot(*(s - c)))
-    a0 = math.atan2(s[1] - c[1], s[0] - c[0])
-    a1 = math.atan2(e[1] - c[1], e[0] - c[0])
-    ccw = tp.kind[i] == ARC_CCW
-    sw = (a1 - a0) % (2 * math.pi) if ccw else -((a0 - a1) % (2 * math.pi))
-    if sw == 0.0:
-        sw = 2 * math.pi if ccw else -2 * math.pi
-    return c, r, a0, sw
+    r, a0, sw = arc_geometry(s, e, c, tp.kind[i] == ARC_CCW)
+    return c, float(r), float(a0), float(sw)
 
 
 def _length(tp, i) -> float:

@@ -29,6 +29,8 @@ import math
 
 import numpy as np
 
+from ..geometry import arc_geometry, arc_sweep
+
 __all__ = [
     "decimals_for",
     "rounding_bound",
@@ -148,12 +150,7 @@ def move_polylines(kind, start, end, center, tol):
     counts = np.maximum(2, np.ceil(length / _MAX_STEP).astype(np.int64) + 1)
     r0 = np.hypot(*(s - c).T)
     r1 = np.hypot(*(e - c).T)
-    a0 = np.arctan2(s[:, 1] - c[:, 1], s[:, 0] - c[:, 0])
-    a1 = np.arctan2(e[:, 1] - c[:, 1], e[:, 0] - c[:, 0])
-    ccw = kind == 3
-    sweep = np.where(ccw, np.mod(a1 - a0, 2 * np.pi), -np.mod(a0 - a1, 2 * np.pi))
-    full = arcs & (np.abs(sweep) <= 1e-12)
-    sweep = np.where(full, np.where(ccw, 2 * np.pi, -2 * np.pi), sweep)
+    _, a0, sweep = arc_geometry(s, e, c, kind == 3)  # a closed arc sweeps a full turn
     if arcs.any():
         counts[arcs] = np.maximum(counts[arcs], _arc_counts(np.maximum(r0, r1)[arcs], sweep[arcs], tol,
                                                             length[arcs]))
@@ -303,10 +300,8 @@ class _Moves:
         self.r0 = np.hypot(*(self.s - c).T)
         self.r1 = np.hypot(*(self.e - c).T)
         self.a0 = np.arctan2(self.s[:, 1] - c[:, 1], self.s[:, 0] - c[:, 0])
-        a1 = np.arctan2(self.e[:, 1] - c[:, 1], self.e[:, 0] - c[:, 0])
         ccw = self.kind == 3
-        sw = np.where(ccw, np.mod(a1 - self.a0, 2 * np.pi), np.mod(self.a0 - a1, 2 * np.pi))
-        self.sweep = np.where(self.arc & (sw <= 1e-12), 2 * np.pi, sw)  # unsigned
+        self.sweep = arc_sweep(self.s, self.e, c, ccw)  # unsigned; read for arcs only
         self.ccw = ccw
         length = np.where(self.arc, np.maximum(self.r0, self.r1) * self.sweep, np.hypot(*(self.e - self.s).T))
         counts = np.maximum(2, np.ceil(length / _MAX_STEP).astype(np.int64) + 1)
