@@ -17,6 +17,7 @@ Drawings are built with ezdxf in the tests.
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -491,9 +492,49 @@ def test_cli_part_with_tabs_drawing_and_picture(tmp_path):
     segs = _polyline_segments(list(outer.get_points("xyb")), True, 1.0)
     area = sum(s.area_term() for s in segs)
     assert abs(area) == pytest.approx(W * H - (4 - math.pi) * R_OUT**2, abs=1e-9)
-    status = main(["plot", str(path), "-o", str(tmp_path / "p.png"), "--tool-diameter", "6", "--depth", "3",
+    status = main(["plot", str(path), "-o", str(tmp_path / "p.svg"), "--tool-diameter", "6", "--depth", "3",
                    "--tabs", "2"], out=io.StringIO(), err=err)
-    assert status == 0 and (tmp_path / "p.png").stat().st_size > 10_000
+    assert status == 0, err.getvalue()
+    # the picture's content, read back as XML (W3C SVG, Python's xml.etree):
+    # every outline's label, and each tab drawn on the outer tool path
+    text = (tmp_path / "p.svg").read_text(encoding="utf-8")
+    assert set(labels) <= set(re.findall(r"<!-- (.*?) -->", text))  # matplotlib keeps a text as a comment
+    tabs, tool = _svg_strokes(text, "#ff00ff"), _svg_strokes(text, "#1f77b4")
+    assert len(tabs) == 2 and len(tool) >= 6  # two tabs; a path at least for each outline
+    segments = np.vstack([np.stack([q[:-1], q[1:]], axis=1) for q in tool])
+    for q in tabs:
+        # the tab bridges a gap of the drawn tool path (the tool rises there):
+        # both its ends meet the path (svg units, pt), its middle does not
+        d = _to_segments(q, segments)
+        assert d[[0, -1]].max() <= 0.5 and d.max() > 5.0
+
+
+def _svg_strokes(text, colour):
+    """Vertices of the drawn lines of one stroke colour, outside the legend."""
+    import xml.etree.ElementTree as ET
+
+    ns = "{http://www.w3.org/2000/svg}"
+    found = []
+
+    def walk(el, in_legend):
+        for ch in el:
+            legend = in_legend or (ch.get("id") or "").startswith("legend")
+            if ch.tag == ns + "path" and f"stroke: {colour}" in (ch.get("style") or "") and not legend:
+                found.append(np.array([float(v) for v in re.findall(r"-?[\d.]+", ch.get("d"))]).reshape(-1, 2))
+            walk(ch, legend)
+
+    walk(ET.fromstring(text), False)
+    return found
+
+
+def _to_segments(points, segments):
+    """Distance from each point to the nearest of the segments (m, 2, 2)."""
+    a, b = segments[:, 0], segments[:, 1]
+    ab = b - a
+    L2 = np.maximum((ab * ab).sum(axis=1), 1e-300)
+    u = np.clip((((points[:, None, :] - a) * ab).sum(axis=2)) / L2, 0.0, 1.0)
+    near = a + u[:, :, None] * ab
+    return np.hypot(*(points[:, None, :] - near).transpose(2, 0, 1)).min(axis=1)
 
 
 def test_cli_bad_part_one_line_exit_2(tmp_path):
