@@ -193,7 +193,7 @@ class FeedPlan:
         return np.interp(s, self.s, self.feed)
 
 
-def _tool_cut(machine, tool, cut):
+def tool_cut(machine, tool, cut):
     machine = Machine() if machine is None else machine
     tool = Tool() if tool is None else tool
     cut = Cut() if cut is None else cut
@@ -352,7 +352,7 @@ def plan_feed(contour, machine=None, tool=None, cut=None) -> FeedPlan:
     """
     from .sampling import sample_contour
 
-    machine, tool, cut = _tool_cut(machine, tool, cut)
+    machine, tool, cut = tool_cut(machine, tool, cut)
     lim = speed_limits(sample_contour(contour), machine, tool, cut, sign=cut_sign(contour, cut))
     return plan_from_limits(lim, machine, cut)
 

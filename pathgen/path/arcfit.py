@@ -43,7 +43,7 @@ import numpy as np
 
 from ..geometry import dot as _dot, left as _left
 from .biarc import biarc_chain, merge_chain
-from .flatten import _curve_joints, approximate
+from .flatten import curve_joints, approximate
 from .measure import Chain, chain_deviation, eval_side, offset_points, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
 
@@ -341,7 +341,7 @@ def _biarcs_to(contour, d, tol, S, T, t_s, P2, T2, t2):
     tb = np.asarray(t2, dtype=np.float64)
     # the joint where the joint circle crosses the curve (a third point of
     # it), else the equal-tangent-length joint
-    joint, _ = _curve_joints(contour, d, S, T, P2, T2, ta, tb)
+    joint, _ = curve_joints(contour, d, S, T, P2, T2, ta, tb)
     ch, ok = biarc_chain(S, T, P2, T2, ta, tb, joint=joint)
     # joint parameters: the curve point nearest to each joint
     tm = _nearest_param(contour, d, ch.end[0::2], ta, tb)

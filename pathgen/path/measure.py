@@ -286,9 +286,9 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int
     q = offset_points(contour, t, d)
     # exact ends: primitives start and end on the curve by construction, but
     # a span ending at a corner must use the left-hand piece there
-    q[first] = _offset_side(contour, chain.t0, d, left=chain.t0 > chain.t1)
+    q[first] = offset_side(contour, chain.t0, d, left=chain.t0 > chain.t1)
     last = first + counts - 1
-    q[last] = _offset_side(contour, chain.t1, d, left=chain.t1 > chain.t0)
+    q[last] = offset_side(contour, chain.t1, d, left=chain.t1 > chain.t0)
     dev_a = np.maximum.reduceat(distance_to_own(q, owner, chain), first)
 
     # primitive -> curve polyline, matching arc-length fractions.  The
@@ -326,7 +326,7 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int
     return np.maximum(dev_a, dev_b)
 
 
-def _offset_side(contour, t, d, *, left):
+def offset_side(contour, t, d, *, left):
     left = np.broadcast_to(np.asarray(left), np.shape(t))
     out = np.empty(np.shape(t) + (2,))
     for side in (False, True):

@@ -179,7 +179,7 @@ def tool_center_polyline(contour, d: float, tol: float):
     Returns (points (n, 2), joined (n - 1,) bool: consecutive points form a
     segment of the curve).
     """
-    from ..path.measure import _offset_side
+    from ..path.measure import offset_side
 
     b = np.asarray(contour.breaks, dtype=np.float64)
     cuts = sorted(set(int(i) for i in contour.corners) | {0, len(b) - 1})
@@ -207,8 +207,8 @@ def tool_center_polyline(contour, d: float, tol: float):
             d1 = contour(t[1:-1], 1)
             nrm = np.stack([-d1[:, 1], d1[:, 0]], axis=-1) / np.hypot(*d1.T)[:, None]
             p = p + d * nrm
-        e0 = _offset_side(contour, np.array([tb[0]]), d, left=False)
-        e1 = _offset_side(contour, np.array([tb[-1]]), d, left=True)
+        e0 = offset_side(contour, np.array([tb[0]]), d, left=False)
+        e1 = offset_side(contour, np.array([tb[-1]]), d, left=True)
         sec = np.vstack([e0, p, e1])
         if pts_all:
             # a corner: the tool rolls round the corner point (radius |d|)
