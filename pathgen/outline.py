@@ -43,6 +43,7 @@ import numpy as np
 
 from ._options import check_option, check_positive
 from .errors import InputError
+from .geometry import turn_angle
 
 __all__ = [
     "fit_outline",
@@ -125,7 +126,7 @@ def turning_angles(points, closed: bool, support: float = 0.0) -> np.ndarray:
         back, fwd = np.clip(back, 0, n - 1), np.clip(fwd, 0, n - 1)
     a = p - p[back]
     b = p[fwd] - p
-    ang = np.arctan2(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0], (a * b).sum(axis=1))
+    ang = turn_angle(a, b)
     if not closed:
         ang[0] = ang[-1] = 0.0
     return ang
@@ -629,7 +630,7 @@ def _kinks(breaks, c, closed) -> set:
         a, b, at = left, np.roll(right, -1, axis=0), np.arange(1, len(h) + 1) % len(h)
     else:
         a, b, at = left[:-1], right[1:], np.arange(1, len(h))
-    ang = np.abs(np.arctan2(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0], (a * b).sum(axis=1)))
+    ang = np.abs(turn_angle(a, b))
     return {int(i) for i in at[ang > 1e-9]}
 
 

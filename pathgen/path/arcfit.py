@@ -41,7 +41,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..geometry import dot as _dot, left as _left
+from ..geometry import dot as _dot, left as _left, turn_angle
 from .biarc import biarc_chain, merge_chain
 from .flatten import curve_joints, approximate
 from .measure import Chain, chain_deviation, eval_side, offset_points, unit_tangent_side
@@ -329,8 +329,7 @@ def _tangents(chain):
 
 
 def _angle(u, v):
-    cross = u[:, 0] * v[:, 1] - u[:, 1] * v[:, 0]
-    return np.abs(np.arctan2(cross, _dot(u, v)))
+    return np.abs(turn_angle(u, v))
 
 
 def _biarcs_to(contour, d, tol, S, T, t_s, P2, T2, t2):

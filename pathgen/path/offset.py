@@ -34,6 +34,7 @@ import math
 import numpy as np
 
 from ..errors import InputError
+from ..geometry import turn_angle
 from .measure import Chain, arc_geometry, eval_side, offset_points, sample_chain, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
 
@@ -189,7 +190,7 @@ def _corner_arc(contour, t, d):
     tb = unit_tangent_side(contour, np.array([t]), left=False)[0]
     a = p + d * np.array([-ta[1], ta[0]])
     bpt = p + d * np.array([-tb[1], tb[0]])
-    turn = float(np.arctan2(ta[0] * tb[1] - ta[1] * tb[0], ta @ tb))
+    turn = float(turn_angle(ta, tb))
     if d * turn >= 0 or np.hypot(*(a - bpt)) <= 1e-12:
         return None  # tool on the inner side of the corner: overlap, trimmed later
     kind = ARC_CCW if turn > 0 else ARC_CW

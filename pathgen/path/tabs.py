@@ -29,7 +29,7 @@ import numpy as np
 
 from .._options import MM_PER_INCH
 from ..errors import InputError
-from ..geometry import arc_geometry
+from ..geometry import arc_geometry, turn_angle
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 
 __all__ = ["place_tabs", "add_tabs", "TURN_LIMIT"]
@@ -111,7 +111,7 @@ def place_tabs(tp: Toolpath, *, count: int, width: float, edge_distance, spots=(
             corner_s.append(edges[j])  # a gap: treat as a corner
             continue
         t0, t1 = _point(tp, a, 1.0)[1], _point(tp, b, 0.0)[1]
-        if abs(math.atan2(t0[0] * t1[1] - t0[1] * t1[0], float(t0 @ t1))) > TURN_LIMIT:
+        if abs(float(turn_angle(t0, t1))) > TURN_LIMIT:
             corner_s.append(edges[j])
     for cs in corner_s:
         ok &= np.abs(s - cs) >= 0.5 * span + r
