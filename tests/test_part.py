@@ -380,14 +380,22 @@ def test_plate_program_cuts_each_outline_once_on_its_side_holes_first(tmp_path, 
     assert '"outline_count": 6' in data and '"rapid_length"' in data
 
 
-def test_part_program_same_bytes_twice(tmp_path):
-    path = plate_dxf(tmp_path / "plate.dxf")
-    (tmp_path / "a").mkdir()
-    (tmp_path / "b").mkdir()
-    run(path, tool_diameter=TOOL, gcode=tmp_path / "a" / "p.nc", report=tmp_path / "a" / "p.json")
-    run(path, tool_diameter=TOOL, gcode=tmp_path / "b" / "p.nc", report=tmp_path / "b" / "p.json")
+@pytest.fixture(scope="module")
+def plate_program(tmp_path_factory):
+    """The plate cut 2 mm deep with the 6 mm tool, written once for the
+    tests that read the same program (a part job takes seconds)."""
+    d = tmp_path_factory.mktemp("plate")
+    run(plate_dxf(d / "plate.dxf"), tool_diameter=TOOL, depth=2.0, gcode=d / "p.nc", report=d / "p.json")
+    return d
+
+
+def test_part_program_same_bytes_twice(tmp_path, plate_program):
+    import shutil
+
+    path = shutil.copy(plate_program / "plate.dxf", tmp_path / "plate.dxf")  # the same drawing
+    run(path, tool_diameter=TOOL, depth=2.0, gcode=tmp_path / "p.nc", report=tmp_path / "p.json")
     for name in ("p.nc", "p.json", "p.txt"):
-        assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes()
+        assert (tmp_path / name).read_bytes() == (plate_program / name).read_bytes()
 
 
 # -- tabs (common practice: uncut bridges on flat stretches, the tool rises over them) -----------
@@ -659,11 +667,10 @@ def test_long_straight_sides_written_as_lines_not_huge_arcs(tmp_path):
         assert np.abs(d - TOOL / 2).max() <= 0.01 + 1e-4
 
 
-def test_part_program_is_replayed_from_its_text(tmp_path):
+def test_part_program_is_replayed_from_its_text(plate_program):
     # the written part program is read back (pathgen's reader) and its moves
     # swept against the part before it is put in place; the header says so
-    out = tmp_path / "plate.nc"
-    run(plate_dxf(tmp_path / "plate.dxf"), tool_diameter=TOOL, depth=2.0, gcode=out)
+    out = plate_program / "p.nc"
     head = [ln for ln in out.read_text().splitlines() if ln.startswith("(")]
     said = [ln for ln in head if ln.startswith("(replayed from this text:")]
     assert len(said) == 1 and "none enters the part by more than the tolerance" in said[0]
