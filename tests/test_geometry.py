@@ -7,7 +7,8 @@ import numpy as np
 import pytest
 import shapely
 
-from pathgen.geometry import arc_geometry, arc_sweep, curvature, orientation, shoelace_area, turn_angle
+from pathgen.geometry import (angle_along_arc, arc_geometry, arc_sweep, curvature, orientation, shoelace_area,
+                              turn_angle)
 from pathgen.moves import ARC_CCW, ARC_CW, LINE, RAPID, lengths
 
 RNG = np.random.default_rng(18)
@@ -64,6 +65,18 @@ def test_arc_sweep_against_the_complex_argument():
     # an arc whose ends coincide is a full turn, either way (G-code: a full
     # circle is written with the end at the start; sources: nistir-6556)
     assert arc_sweep([1.0, 0.0], [1.0, 0.0], [0.0, 0.0], False) == 2 * np.pi
+
+
+def test_angle_along_an_arc_against_the_complex_argument():
+    # the angle from direction a0 to ang, turning counter-clockwise, is
+    # arg(e^{i·ang} / e^{i·a0}) taken in [0, 2π) (numpy.angle, the reference);
+    # clockwise it is the same angle measured the other way
+    a0, ang = RNG.uniform(-np.pi, np.pi, 400), RNG.uniform(-np.pi, np.pi, 400)
+    ccw = np.mod(np.angle(np.exp(1j * (ang - a0))), 2 * np.pi)
+    np.testing.assert_allclose(angle_along_arc(ang, a0, 1.0), ccw, atol=1e-12)
+    np.testing.assert_allclose(angle_along_arc(ang, a0, -1.0), np.mod(-ccw, 2 * np.pi), atol=1e-12)
+    # with a shift, angles just before the start come out slightly negative
+    assert float(angle_along_arc(-1e-9, 0.0, 1.0, 1e-6)) == pytest.approx(-1e-9, abs=1e-15)
 
 
 def test_orientation_and_area_agree_with_shapely():

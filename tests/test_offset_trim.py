@@ -16,11 +16,13 @@ buffer's boundary and, where it goes, follow all of it.
 from __future__ import annotations
 
 import math
+from types import SimpleNamespace
 
 import numpy as np
 import pytest
 import shapely
 
+from gcode_reader import sample
 from pathgen import Cut, Tool, clean_points, fit_outline
 from pathgen.path.build import make_toolpath
 
@@ -57,23 +59,12 @@ def _hook():
 
 
 def _path_points(tp, step=0.02):
-    """Points along the cutting moves, every ``step`` mm or finer, from the
-    moves' own start, end and center (an arc's sweep computed here)."""
+    """Points along the cutting moves, every ``step`` mm or finer, by the
+    tests' own G-code interpreter (G2/G3 from start, end and center)."""
     cut = tp.kind != 0
-    pts = []
-    for k, s, e, c in zip(tp.kind[cut], tp.start[cut], tp.end[cut], tp.center[cut]):
-        if k == 1:
-            n = max(2, math.ceil(math.hypot(*(e[:2] - s[:2])) / step) + 1)
-            pts.append(np.linspace(s[:2], e[:2], n))
-            continue
-        a0 = math.atan2(s[1] - c[1], s[0] - c[0])
-        a1 = math.atan2(e[1] - c[1], e[0] - c[0])
-        sweep = (a1 - a0) % (2 * math.pi) if k == 3 else -((a0 - a1) % (2 * math.pi))
-        rad = math.hypot(s[0] - c[0], s[1] - c[1])
-        n = max(2, math.ceil(abs(sweep) * rad / step) + 1)
-        a = a0 + sweep * np.linspace(0, 1, n)
-        pts.append(c + rad * np.c_[np.cos(a), np.sin(a)])
-    return np.vstack(pts)
+    moves = [SimpleNamespace(start=tuple(s), end=tuple(e), center=None if k == 1 else tuple(c), g=int(k))
+             for k, s, e, c in zip(tp.kind[cut], tp.start[cut], tp.end[cut], tp.center[cut])]
+    return np.vstack([sample(m, step)[:, :2] for m in moves])
 
 
 def _distance(points, vertices):

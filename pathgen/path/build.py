@@ -31,7 +31,7 @@ import numpy as np
 
 from .._options import MM_PER_INCH, UNITS, check_option, check_positive, side_sign
 from ..errors import InputError
-from ..geometry import orientation
+from ..geometry import angle_along_arc, orientation
 from .arcfit import band_arcs
 from .entry import ENTRIES, arc_as_lines, helix_moves, move_length, ramp_route, take_length
 from .flatten import MOVES, drop_tiny, approximate
@@ -93,7 +93,7 @@ def start_at(chain: Chain, point) -> Chain:
         c = chain.center[i]
         r, a0, sw = arc_geometry(s, e, c, chain.kind[i] == ARC_CCW)
         ang = math.atan2(point[1] - c[1], point[0] - c[0])
-        phi = float(np.mod((ang - a0) * np.sign(sw), 2 * np.pi))
+        phi = float(angle_along_arc(ang, a0, np.sign(sw)))
         phi = min(phi, abs(float(sw))) if phi <= abs(float(sw)) + 0.5 * (2 * np.pi - abs(float(sw))) else 0.0
         a = a0 + np.sign(sw) * phi
         x = c + r * np.array([math.cos(a), math.sin(a)])

@@ -64,12 +64,11 @@ import numpy as np
 
 from .._options import check_positive, side_sign
 from ..errors import InputError
-from ..geometry import arc_geometry, orientation
+from ..geometry import angle_along_arc, arc_geometry, orientation
+from ..moves import ARC_CCW, ARC_CW, LINE, RAPID
 
 __all__ = ["Clearance", "clearance", "Probe"]
 
-RAPID, LINE, ARC_CW, ARC_CCW = 0, 1, 2, 3
-_TWO_PI = 2.0 * math.pi
 _CHUNK = 60_000  # sub-moves per vectorized batch (bounds memory)
 
 
@@ -155,7 +154,7 @@ def _pt_seg(px, py, ax, ay, bx, by):
 def _in_sweep(ang, a0, sw):
     """Fraction along an arc (start angle a0, signed sweep sw) of the direction
     ``ang``, or -1 where it lies outside the sweep."""
-    rel = np.mod((ang - a0) * np.sign(sw), _TWO_PI)
+    rel = angle_along_arc(ang, a0, np.sign(sw))
     f = rel / np.maximum(np.abs(sw), 1e-300)
     return np.where(rel <= np.abs(sw) * (1 + 1e-12), np.minimum(f, 1.0), -1.0)
 

@@ -29,7 +29,7 @@ import math
 
 import numpy as np
 
-from ..geometry import arc_geometry, arc_sweep
+from ..geometry import angle_along_arc, arc_geometry, arc_sweep
 
 __all__ = [
     "decimals_for",
@@ -335,7 +335,7 @@ class _Moves:
             oa, xa = o[am], x[am]
             rel = xa - self.c[oa]
             ang = np.arctan2(rel[:, 1], rel[:, 0])
-            phi = np.mod(np.where(self.ccw[oa], ang - self.a0[oa], self.a0[oa] - ang), 2 * np.pi)
+            phi = angle_along_arc(ang, self.a0[oa], np.where(self.ccw[oa], 1.0, -1.0))
             inside = phi <= self.sweep[oa]
             frac = np.where(self.sweep[oa] > 0, phi / self.sweep[oa], 0.0)
             r = self.r0[oa] + (self.r1[oa] - self.r0[oa]) * frac
