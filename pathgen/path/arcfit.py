@@ -217,9 +217,7 @@ def _arc_end(S, T, k, X):
 
 def _sweep(S, E, C, k):
     """Turn of each arc (0 for lines), rad."""
-    rs, re = S - C, E - C
-    cr = rs[:, 0] * re[:, 1] - rs[:, 1] * re[:, 0]
-    ang = np.mod(np.sign(k) * np.arctan2(cr, _dot(rs, re)), 2 * np.pi)
+    ang = np.mod(np.sign(k) * turn_angle(S - C, E - C), 2 * np.pi)
     return np.where(k == 0, 0.0, ang)
 
 
