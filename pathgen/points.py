@@ -50,6 +50,7 @@ import numpy as np
 from ._options import MM_PER_INCH, UNITS, check_option
 from .errors import InputError
 from .geometry import shoelace_area
+from .spline import points_array
 
 __all__ = [
     "Outline",
@@ -499,12 +500,7 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
     """
     check_option("units", units, UNITS)
     steps, warnings = list(steps), list(warnings)
-    try:
-        p = np.array(points, dtype=np.float64, order="C", copy=True)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"{source}: points must be an (n, 2) array of numbers: {exc}") from None
-    if p.ndim != 2 or p.shape[1] != 2:
-        raise InputError(f"{source}: points must have shape (n, 2), got {p.shape}")
+    p = points_array(points, f"{source}: points")
     if line_numbers is not None:
         nums = np.array(line_numbers, dtype=np.int64).reshape(-1)
     else:

@@ -61,6 +61,18 @@ _GL3_X = (_GL3_X + 1.0) / 2.0
 _GL3_W = _GL3_W / 2.0
 
 
+def points_array(points, name: str = "points") -> np.ndarray:
+    """A fresh C-contiguous float64 copy of ``points``, refused (InputError
+    naming ``name``) unless it is an (n, 2) array of numbers."""
+    try:
+        p = np.array(points, dtype=np.float64, order="C", copy=True)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{name} must be an (n, 2) array of numbers: {exc}") from None
+    if p.ndim != 2 or p.shape[1] != 2:
+        raise InputError(f"{name} must have shape (n, 2), got {p.shape}")
+    return p
+
+
 def as_points(points, name: str = "points") -> np.ndarray:
     """Validate ``points`` into a C-contiguous (n, 2) float64 array.
 
@@ -69,12 +81,7 @@ def as_points(points, name: str = "points") -> np.ndarray:
     """
     if np.iscomplexobj(points):
         raise InputError(f"{name} must be real numbers, got complex values; pass the x and y columns")
-    try:
-        p = np.array(points, dtype=np.float64, order="C", copy=True)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"{name} must be an (n, 2) array of numbers: {exc}") from None
-    if p.ndim != 2 or p.shape[1] != 2:
-        raise InputError(f"{name} must have shape (n, 2), got {p.shape}")
+    p = points_array(points, name)
     if len(p) < 2:
         raise InputError(f"{name} needs at least 2 points, got {len(p)}")
     if not np.isfinite(p).all():
