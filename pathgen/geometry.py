@@ -11,6 +11,10 @@ counter-clockwise positive; the left normal of a direction v is
   does: never NaN.
 - Arc sweep from an arc's start, end and center and its direction, in
   (0, 2π]: an arc whose ends coincide sweeps a full turn.
+- Turn from one direction to the next, atan2(a × b, a · b) in [−π, π],
+  positive to the left.
+- Angle along an arc: from the arc's start direction to another
+  direction, measured the way the arc turns, wrapped into one turn.
 - Orientation of a closed polygon from its shoelace area: +1
   counter-clockwise, −1 clockwise.
 """
@@ -19,8 +23,8 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["left", "dot", "curvature", "arc_sweep", "arc_geometry", "shoelace_area", "orientation",
-           "FULL_TURN_EPS"]
+__all__ = ["left", "dot", "curvature", "turn_angle", "arc_sweep", "arc_geometry", "angle_along_arc",
+           "shoelace_area", "orientation", "FULL_TURN_EPS"]
 
 #: An arc whose start and end angles differ by at most this (rad) is a full
 #: turn, not a move of no length.
@@ -55,7 +59,22 @@ def curvature(d1, d2) -> np.ndarray:
     d2 = np.asarray(d2, dtype=np.float64)
     cross = d1[..., 0] * d2[..., 1] - d1[..., 1] * d2[..., 0]
     speed2 = d1[..., 0] ** 2 + d1[..., 1] ** 2
-    return cross / np.maximum(speed2, 1e-300) ** 1.5
+    # the floor on speed³ (not on speed², whose cube underflows to 0): a
+    # curve that stops has cross = 0 there, and 0 / 1e-300 = 0, never NaN
+    return cross / np.maximum(speed2 ** 1.5, 1e-300)
+
+
+def turn_angle(a, b) -> np.ndarray:
+    """Signed turn (rad, in [-π, π], + to the left) from directions ``a`` to
+    ``b`` (..., 2): atan2(a × b, a · b), exact for small and large turns
+    alike; the directions need not be unit vectors.
+
+    >>> float(turn_angle([1.0, 0.0], [0.0, 2.0])) == np.pi / 2
+    True
+    """
+    a = np.asarray(a, dtype=np.float64)
+    b = np.asarray(b, dtype=np.float64)
+    return np.arctan2(a[..., 0] * b[..., 1] - a[..., 1] * b[..., 0], a[..., 0] * b[..., 0] + a[..., 1] * b[..., 1])
 
 
 def arc_sweep(start_xy, end_xy, center_xy, ccw) -> np.ndarray:
@@ -81,6 +100,22 @@ def arc_geometry(start, end, center, ccw):
     a0 = np.arctan2(rs[..., 1], rs[..., 0])
     sweep = arc_sweep(start, end, center, ccw)
     return r, a0, np.where(ccw, sweep, -sweep)
+
+
+def angle_along_arc(ang, a0, direction, shift=0.0) -> np.ndarray:
+    """Angle (rad) from an arc's start direction ``a0`` to the direction
+    ``ang`` (both from the center), measured the way the arc turns
+    (``direction`` +1 counter-clockwise, -1 clockwise: the sign of its
+    sweep), in [-shift, 2π - shift): a point lies on the arc where the
+    result is within [0, |sweep|].
+
+    >>> float(angle_along_arc(0.5, 0.0, -1.0)) == 2 * np.pi - 0.5
+    True
+    """
+    rel = (np.asarray(ang) - a0) * direction
+    if shift:
+        return np.mod(rel + shift, _TWO_PI) - shift
+    return np.mod(rel, _TWO_PI)
 
 
 def shoelace_area(points) -> float:

@@ -43,6 +43,7 @@ import numpy as np
 
 from ._options import check_option, check_positive
 from .errors import InputError
+from .geometry import turn_angle
 
 __all__ = [
     "fit_outline",
@@ -125,7 +126,7 @@ def turning_angles(points, closed: bool, support: float = 0.0) -> np.ndarray:
         back, fwd = np.clip(back, 0, n - 1), np.clip(fwd, 0, n - 1)
     a = p - p[back]
     b = p[fwd] - p
-    ang = np.arctan2(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0], (a * b).sum(axis=1))
+    ang = turn_angle(a, b)
     if not closed:
         ang[0] = ang[-1] = 0.0
     return ang
@@ -246,7 +247,7 @@ def _piece_moments(t, y, start, stop):
     Full (n+1)-row tridiagonal system; not-a-knot rows are made tridiagonal
     by eliminating M_2 (M_{n-2}) with the neighbouring interior row.
     """
-    from scipy.linalg.lapack import dgtsv
+    from .spline import tridiag_solve
 
     h = np.diff(t)
     n = len(h)
@@ -298,10 +299,7 @@ def _piece_moments(t, y, start, stop):
             else:
                 dl[-1] = 1.0
                 b[row] = 6.0 / h0 * (v - s)
-    _, _, _, M, info = dgtsv(dl, d, du, b)
-    if info != 0:  # pragma: no cover - guarded by distinct points
-        raise InputError(f"a piece of the outline could not be fitted (LAPACK info={info})")
-    return M
+    return tridiag_solve(dl, d, du, b)
 
 
 def _line_coefficients(t, y) -> np.ndarray:
@@ -388,8 +386,7 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
     >>> c.corners, round(c.length, 9)
     ((0, 1, 2, 3), 30.0)
     """
-    from .smooth import power_form
-    from .spline import Contour, fit, parameters
+    from .spline import Contour, fit, parameters, power_form
 
     o = _as_outline(outline, closed)
     check_option("end", end, _ENDS)
@@ -633,7 +630,7 @@ def _kinks(breaks, c, closed) -> set:
         a, b, at = left, np.roll(right, -1, axis=0), np.arange(1, len(h) + 1) % len(h)
     else:
         a, b, at = left[:-1], right[1:], np.arange(1, len(h))
-    ang = np.abs(np.arctan2(a[:, 0] * b[:, 1] - a[:, 1] * b[:, 0], (a * b).sum(axis=1)))
+    ang = np.abs(turn_angle(a, b))
     return {int(i) for i in at[ang > 1e-9]}
 
 

@@ -49,6 +49,8 @@ import numpy as np
 
 from ._options import MM_PER_INCH, UNITS, check_option
 from .errors import InputError
+from .geometry import shoelace_area
+from .spline import points_array
 
 __all__ = [
     "Outline",
@@ -498,12 +500,7 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
     """
     check_option("units", units, UNITS)
     steps, warnings = list(steps), list(warnings)
-    try:
-        p = np.array(points, dtype=np.float64, order="C", copy=True)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"{source}: points must be an (n, 2) array of numbers: {exc}") from None
-    if p.ndim != 2 or p.shape[1] != 2:
-        raise InputError(f"{source}: points must have shape (n, 2), got {p.shape}")
+    p = points_array(points, f"{source}: points")
     if line_numbers is not None:
         nums = np.array(line_numbers, dtype=np.int64).reshape(-1)
     else:
@@ -590,9 +587,7 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
         if off.max() <= max(tol, 1e-12 * size):
             raise InputError(f"{source}: all {len(p)} points of the closed outline lie on "
                              "one straight line: it encloses no area")
-        x, y = p[:, 0] - p[0, 0], p[:, 1] - p[0, 1]
-        area = 0.5 * float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
-        if area < 0:
+        if shoelace_area(p - p[0]) < 0:  # (about the first point: fewer digits lost)
             order = np.concatenate([[0], np.arange(len(p) - 1, 0, -1)])
             p = p[order]
             if nums is not None:

@@ -25,6 +25,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from .geometry import turn_angle
+
 __all__ = ["Crossing", "crossing", "turning_number"]
 
 
@@ -70,7 +72,7 @@ def turning_number(points) -> int:
     d = np.roll(p, -1, axis=0) - p
     d = d[np.hypot(d[:, 0], d[:, 1]) > 0]
     e = np.roll(d, -1, axis=0)
-    phi = np.arctan2(d[:, 0] * e[:, 1] - d[:, 1] * e[:, 0], (d * e).sum(axis=1))
+    phi = turn_angle(d, e)
     return int(round(float(phi.sum()) / (2 * np.pi)))
 
 

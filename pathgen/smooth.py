@@ -35,6 +35,7 @@ import math
 import numpy as np
 
 from .errors import InputError
+from .spline import power_form  # the one home of moments → coefficients (re-exported)
 
 __all__ = ["smoothing_spline", "fit_within", "fit_noise", "foot_distances", "power_form"]
 
@@ -191,22 +192,6 @@ def _solve(S, lam, y, rhs=None):
     yv, Z = sol[:, : b.shape[1]], sol[:, b.shape[1]:]
     K = np.eye(4) + Z[cols]
     return yv - Z @ np.linalg.solve(K, yv[cols])
-
-
-def power_form(t, y, M) -> np.ndarray:
-    """Cubic pieces from values ``y`` and second derivatives ``M`` at breaks ``t``.
-
-    Returns coefficients (4, m, 2), highest power first, in the local
-    variable t - t_i (``scipy.interpolate.PPoly`` layout):
-    c3 = (M_{i+1} - M_i)/(6h), c2 = M_i/2, c1 = (y_{i+1} - y_i)/h - h(2M_i + M_{i+1})/6.
-    """
-    h = np.diff(t)[:, None]
-    return np.stack([
-        (M[1:] - M[:-1]) / (6.0 * h),
-        0.5 * M[:-1],
-        (y[1:] - y[:-1]) / h - h * (2.0 * M[:-1] + M[1:]) / 6.0,
-        y[:-1],
-    ])
 
 
 def _coefficients(t, g, M, periodic):

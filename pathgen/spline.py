@@ -38,7 +38,7 @@ from ._options import CLOSE_RTOL, check_flag, check_option
 from .geometry import curvature
 from .errors import InputError
 
-__all__ = ["fit", "Contour", "ENDS", "PARAMS", "as_points", "parameters"]
+__all__ = ["fit", "Contour", "ENDS", "PARAMS", "as_points", "parameters", "power_form", "tridiag_solve"]
 
 ENDS = ("not-a-knot", "natural", "clamped")
 PARAMS = ("chord", "centripetal", "uniform")
@@ -61,6 +61,18 @@ _GL3_X = (_GL3_X + 1.0) / 2.0
 _GL3_W = _GL3_W / 2.0
 
 
+def points_array(points, name: str = "points") -> np.ndarray:
+    """A fresh C-contiguous float64 copy of ``points``, refused (InputError
+    naming ``name``) unless it is an (n, 2) array of numbers."""
+    try:
+        p = np.array(points, dtype=np.float64, order="C", copy=True)
+    except (TypeError, ValueError) as exc:
+        raise InputError(f"{name} must be an (n, 2) array of numbers: {exc}") from None
+    if p.ndim != 2 or p.shape[1] != 2:
+        raise InputError(f"{name} must have shape (n, 2), got {p.shape}")
+    return p
+
+
 def as_points(points, name: str = "points") -> np.ndarray:
     """Validate ``points`` into a C-contiguous (n, 2) float64 array.
 
@@ -69,12 +81,7 @@ def as_points(points, name: str = "points") -> np.ndarray:
     """
     if np.iscomplexobj(points):
         raise InputError(f"{name} must be real numbers, got complex values; pass the x and y columns")
-    try:
-        p = np.array(points, dtype=np.float64, order="C", copy=True)
-    except (TypeError, ValueError) as exc:
-        raise InputError(f"{name} must be an (n, 2) array of numbers: {exc}") from None
-    if p.ndim != 2 or p.shape[1] != 2:
-        raise InputError(f"{name} must have shape (n, 2), got {p.shape}")
+    p = points_array(points, name)
     if len(p) < 2:
         raise InputError(f"{name} needs at least 2 points, got {len(p)}")
     if not np.isfinite(p).all():
@@ -269,7 +276,12 @@ def _moments(h: np.ndarray, slopes, end: str, closed: bool, tangents) -> np.ndar
 
 
 def _coefficients(h, ys, slopes, M) -> np.ndarray:
-    """Power-form coefficients per coordinate, shape (2, 4, m), highest power first."""
+    """Power-form coefficients per coordinate, shape (2, 4, m), highest power first.
+
+    The one home of moments → coefficients (see :func:`power_form`):
+    c3 = (M_{i+1} - M_i)/(6h), c2 = M_i/2, c1 = Δy/h - h(2M_i + M_{i+1})/6,
+    c0 = y_i.
+    """
     m = len(h)
     c = np.empty((2, 4, m))
     for k in range(2):
@@ -281,10 +293,31 @@ def _coefficients(h, ys, slopes, M) -> np.ndarray:
         np.multiply(Mk[:-1], 2.0, out=c[k, 2])
         c[k, 2] += Mk[1:]
         c[k, 2] *= h
-        c[k, 2] *= -1.0 / 6.0
+        c[k, 2] /= -6.0
         c[k, 2] += slopes[k]
         c[k, 3] = ys[k][:m]
     return c
+
+
+def power_form(t, y, M) -> np.ndarray:
+    """Cubic pieces from values ``y`` and second derivatives ``M`` at breaks ``t``.
+
+    ``y`` and ``M`` are (m+1, 2).  Returns coefficients (4, m, 2), highest
+    power first, in the local variable t - t_i (the layout of
+    ``scipy.interpolate.PPoly`` and of :class:`Contour`):
+    c3 = (M_{i+1} - M_i)/(6h), c2 = M_i/2,
+    c1 = (y_{i+1} - y_i)/h - h(2M_i + M_{i+1})/6, c0 = y_i.
+
+    >>> t = np.array([0.0, 1.0, 2.0])          # the parabola y = x², x = t
+    >>> y = np.c_[t, t ** 2]
+    >>> power_form(t, y, np.c_[np.zeros(3), np.full(3, 2.0)])[:, 1].tolist()
+    [[0.0, 0.0], [0.0, 1.0], [1.0, 2.0], [1.0, 1.0]]
+    """
+    h = np.diff(t)
+    y = np.asarray(y, np.float64)
+    ys = (y[:, 0], y[:, 1])
+    slopes = tuple((v[1:] - v[:-1]) / h for v in ys)
+    return _coefficients(h, ys, slopes, np.asarray(M, np.float64).T).transpose(1, 2, 0)
 
 
 def fit(points, *, closed=None, end: str = "not-a-knot", param: str = "chord", tangents=None):

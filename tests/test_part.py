@@ -17,6 +17,7 @@ Drawings are built with ezdxf in the tests.
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -379,14 +380,22 @@ def test_plate_program_cuts_each_outline_once_on_its_side_holes_first(tmp_path, 
     assert '"outline_count": 6' in data and '"rapid_length"' in data
 
 
-def test_part_program_same_bytes_twice(tmp_path):
-    path = plate_dxf(tmp_path / "plate.dxf")
-    (tmp_path / "a").mkdir()
-    (tmp_path / "b").mkdir()
-    run(path, tool_diameter=TOOL, gcode=tmp_path / "a" / "p.nc", report=tmp_path / "a" / "p.json")
-    run(path, tool_diameter=TOOL, gcode=tmp_path / "b" / "p.nc", report=tmp_path / "b" / "p.json")
+@pytest.fixture(scope="module")
+def plate_program(tmp_path_factory):
+    """The plate cut 2 mm deep with the 6 mm tool, written once for the
+    tests that read the same program (a part job takes seconds)."""
+    d = tmp_path_factory.mktemp("plate")
+    run(plate_dxf(d / "plate.dxf"), tool_diameter=TOOL, depth=2.0, gcode=d / "p.nc", report=d / "p.json")
+    return d
+
+
+def test_part_program_same_bytes_twice(tmp_path, plate_program):
+    import shutil
+
+    path = shutil.copy(plate_program / "plate.dxf", tmp_path / "plate.dxf")  # the same drawing
+    run(path, tool_diameter=TOOL, depth=2.0, gcode=tmp_path / "p.nc", report=tmp_path / "p.json")
     for name in ("p.nc", "p.json", "p.txt"):
-        assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes()
+        assert (tmp_path / name).read_bytes() == (plate_program / name).read_bytes()
 
 
 # -- tabs (common practice: uncut bridges on flat stretches, the tool rises over them) -----------
@@ -491,9 +500,49 @@ def test_cli_part_with_tabs_drawing_and_picture(tmp_path):
     segs = _polyline_segments(list(outer.get_points("xyb")), True, 1.0)
     area = sum(s.area_term() for s in segs)
     assert abs(area) == pytest.approx(W * H - (4 - math.pi) * R_OUT**2, abs=1e-9)
-    status = main(["plot", str(path), "-o", str(tmp_path / "p.png"), "--tool-diameter", "6", "--depth", "3",
+    status = main(["plot", str(path), "-o", str(tmp_path / "p.svg"), "--tool-diameter", "6", "--depth", "3",
                    "--tabs", "2"], out=io.StringIO(), err=err)
-    assert status == 0 and (tmp_path / "p.png").stat().st_size > 10_000
+    assert status == 0, err.getvalue()
+    # the picture's content, read back as XML (W3C SVG, Python's xml.etree):
+    # every outline's label, and each tab drawn on the outer tool path
+    text = (tmp_path / "p.svg").read_text(encoding="utf-8")
+    assert set(labels) <= set(re.findall(r"<!-- (.*?) -->", text))  # matplotlib keeps a text as a comment
+    tabs, tool = _svg_strokes(text, "#ff00ff"), _svg_strokes(text, "#1f77b4")
+    assert len(tabs) == 2 and len(tool) >= 6  # two tabs; a path at least for each outline
+    segments = np.vstack([np.stack([q[:-1], q[1:]], axis=1) for q in tool])
+    for q in tabs:
+        # the tab bridges a gap of the drawn tool path (the tool rises there):
+        # both its ends meet the path (svg units, pt), its middle does not
+        d = _to_segments(q, segments)
+        assert d[[0, -1]].max() <= 0.5 and d.max() > 5.0
+
+
+def _svg_strokes(text, colour):
+    """Vertices of the drawn lines of one stroke colour, outside the legend."""
+    import xml.etree.ElementTree as ET
+
+    ns = "{http://www.w3.org/2000/svg}"
+    found = []
+
+    def walk(el, in_legend):
+        for ch in el:
+            legend = in_legend or (ch.get("id") or "").startswith("legend")
+            if ch.tag == ns + "path" and f"stroke: {colour}" in (ch.get("style") or "") and not legend:
+                found.append(np.array([float(v) for v in re.findall(r"-?[\d.]+", ch.get("d"))]).reshape(-1, 2))
+            walk(ch, legend)
+
+    walk(ET.fromstring(text), False)
+    return found
+
+
+def _to_segments(points, segments):
+    """Distance from each point to the nearest of the segments (m, 2, 2)."""
+    a, b = segments[:, 0], segments[:, 1]
+    ab = b - a
+    L2 = np.maximum((ab * ab).sum(axis=1), 1e-300)
+    u = np.clip((((points[:, None, :] - a) * ab).sum(axis=2)) / L2, 0.0, 1.0)
+    near = a + u[:, :, None] * ab
+    return np.hypot(*(points[:, None, :] - near).transpose(2, 0, 1)).min(axis=1)
 
 
 def test_cli_bad_part_one_line_exit_2(tmp_path):
@@ -618,11 +667,10 @@ def test_long_straight_sides_written_as_lines_not_huge_arcs(tmp_path):
         assert np.abs(d - TOOL / 2).max() <= 0.01 + 1e-4
 
 
-def test_part_program_is_replayed_from_its_text(tmp_path):
+def test_part_program_is_replayed_from_its_text(plate_program):
     # the written part program is read back (pathgen's reader) and its moves
     # swept against the part before it is put in place; the header says so
-    out = tmp_path / "plate.nc"
-    run(plate_dxf(tmp_path / "plate.dxf"), tool_diameter=TOOL, depth=2.0, gcode=out)
+    out = plate_program / "p.nc"
     head = [ln for ln in out.read_text().splitlines() if ln.startswith("(")]
     said = [ln for ln in head if ln.startswith("(replayed from this text:")]
     assert len(said) == 1 and "none enters the part by more than the tolerance" in said[0]

@@ -201,7 +201,8 @@ def test_batch_same_stem_twice(tmp_path):
     shutil.copy(SAMPLES / "plate.csv", d / "part.csv")
     np.savetxt(d / "part.txt", circle(15.0), fmt="%.4f")
     rows = run_batch(d, tmp_path / "out", jobs=1, tool_diameter=3, side="on")
-    assert [r["exit"] < 2 for r in rows] == [True, True], rows
+    # on the line nothing is out of the tool's reach: both files are done (exit 0)
+    assert [r["exit"] for r in rows] == [0, 0], rows
     assert (tmp_path / "out" / "part_csv.nc").exists() and (tmp_path / "out" / "part_txt.nc").exists()
 
 

@@ -32,6 +32,9 @@ def _copy_checkout(dst: Path) -> Path:
 
 
 @pytest.mark.slow
+@pytest.mark.skipif(os.environ.get("CI") != "true",
+                    reason="installs the package into a fresh virtual environment: runs only in CI "
+                           "(bash .ci/run, which sets CI=true)")
 def test_readme_first_command_in_a_fresh_venv(tmp_path):
     command = first_quick_start_command()
     assert "pathgen" in command and "samples/" in command
@@ -46,10 +49,9 @@ def test_readme_first_command_in_a_fresh_venv(tmp_path):
     env.pop("PYTHONPATH", None)
     env["PIP_DISABLE_PIP_VERSION_CHECK"] = "1"
     r = subprocess.run(command, shell=True, cwd=work, env=env, capture_output=True, text=True, timeout=600)
-    # 0: done; 1 only with the report saying the tool cannot reach a spot
-    # (a failed install would also exit 1: the message tells them apart).
-    ok = r.returncode == 0 or (r.returncode == 1 and "cannot cut some spot" in r.stdout)
-    assert ok, f"{command!r} exited {r.returncode}:\n{r.stdout[-2000:]}\n{r.stderr[-2000:]}"
+    # 0: done (a 6 mm tool reaches every spot of the bracket; a failed install
+    # or a tight spot would exit 1)
+    assert r.returncode == 0, f"{command!r} exited {r.returncode}:\n{r.stdout[-2000:]}\n{r.stderr[-2000:]}"
     # The install landed in the fresh environment (the command itself may
     # import the checkout's source: `python -m` puts the current folder first).
     installed = list((venv / "lib").glob("python3*/site-packages/pathgen/cli.py"))

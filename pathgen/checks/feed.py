@@ -193,7 +193,7 @@ class FeedPlan:
         return np.interp(s, self.s, self.feed)
 
 
-def _tool_cut(machine, tool, cut):
+def tool_cut(machine, tool, cut):
     machine = Machine() if machine is None else machine
     tool = Tool() if tool is None else tool
     cut = Cut() if cut is None else cut
@@ -352,7 +352,7 @@ def plan_feed(contour, machine=None, tool=None, cut=None) -> FeedPlan:
     """
     from .sampling import sample_contour
 
-    machine, tool, cut = _tool_cut(machine, tool, cut)
+    machine, tool, cut = tool_cut(machine, tool, cut)
     lim = speed_limits(sample_contour(contour), machine, tool, cut, sign=cut_sign(contour, cut))
     return plan_from_limits(lim, machine, cut)
 
@@ -449,16 +449,13 @@ def feeds_for_moves(kind, start, end, center, *, feed, machine, corner_angle: fl
         raise InputError(f"corner_angle must be in (0, 180] degrees, got {corner_angle!r}")
     if k == 0:
         return np.zeros(0), 0.0
-    from ..path.model import arc_sweep
+    from ..moves import lengths
 
     a = machine.max_accel
-    length = np.linalg.norm(end - start, axis=1)
+    length = lengths(kind, start, end, center)
     arcs = kind >= 2
     radius = np.full(k, np.inf)
-    if np.any(arcs):
-        s2, e2, c2 = start[arcs, :2], end[arcs, :2], center[arcs]
-        radius[arcs] = np.hypot(*(s2 - c2).T)
-        length[arcs] = radius[arcs] * arc_sweep(s2, e2, c2, kind[arcs] == 3)
+    radius[arcs] = np.hypot(*(start[arcs, :2] - center[arcs]).T)
     v_prog = np.minimum(prog, machine.max_feed) / 60.0
     cap = np.minimum(np.minimum(v_prog, np.sqrt(a * radius)), machine.block_rate * length)
     feeds = np.zeros(k)

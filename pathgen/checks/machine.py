@@ -114,7 +114,7 @@ _TABLES = ("program", "tool")
 TOOL_KEYS = ("plunge_feed",)
 
 
-def _toml_line(text: str, key: str) -> int | None:
+def toml_line(text: str, key: str) -> int | None:
     """1-based line of ``key = ...`` in TOML text (None when not found)."""
     pattern = re.compile(rf"^\s*[\"']?{re.escape(key)}[\"']?\s*=")
     for number, line in enumerate(text.splitlines(), start=1):
@@ -123,7 +123,7 @@ def _toml_line(text: str, key: str) -> int | None:
     return None
 
 
-def _read_toml(path: Path) -> tuple[dict, str]:
+def read_toml(path: Path) -> tuple[dict, str]:
     try:
         import tomllib
     except ModuleNotFoundError:  # pragma: no cover - Python 3.10
@@ -188,10 +188,10 @@ def load_machine(path=None, **overrides) -> Machine:
     values: dict = {}
     if path is not None:
         path = Path(path)
-        data, text = _read_toml(path)
+        data, text = read_toml(path)
 
         def where(key):
-            line = _toml_line(text, key)
+            line = toml_line(text, key)
             return f"{path}, line {line}" if line else f"{path}"
 
         data, given_as = dict(data), {}
@@ -260,13 +260,13 @@ def load_tool_settings(path) -> dict:
     if path is None:
         return {}
     path = Path(path)
-    data, text = _read_toml(path)
+    data, text = read_toml(path)
     table = data.get("tool")
     if table is None:
         return {}
 
     def where(key):
-        line = _toml_line(text, key)
+        line = toml_line(text, key)
         return f"{path}, line {line}" if line else f"{path}"
 
     if not isinstance(table, dict):

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._options import CAUTION, MM_PER_INCH, UNITS, check_option
-from .feed import FeedPlan, _tool_cut, cut_sign, plan_from_limits, speed_limits
+from .feed import FeedPlan, tool_cut, cut_sign, plan_from_limits, speed_limits
 from .machine import Cut, Machine, Tool
 
 __all__ = ["check", "CheckReport", "TightSpot", "RadiusAt", "REASONS", "CAUTION", "REPORT_VERSION"]
@@ -309,7 +309,7 @@ def check(contour, machine=None, tool=None, cut=None, *, noise_reference=None) -
     from .reach import inflections, largest_tool_diameter, material_left, radius_extremes
     from .sampling import sample_contour
 
-    machine, tool, cut = _tool_cut(machine, tool, cut)
+    machine, tool, cut = tool_cut(machine, tool, cut)
     S = sample_contour(contour)
     closed = S.closed
     area = orientation = None

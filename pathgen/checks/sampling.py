@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..errors import InputError
-from ..geometry import curvature
+from ..geometry import curvature, turn_angle
 
 __all__ = ["Samples", "sample_contour", "CORNER_MIN_ANGLE"]
 
@@ -214,15 +214,14 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     _, d_start, _ = _derivs(c, np.arange(m), np.zeros(m))  # start of every piece
     tin = d_end[inner - 1]
     tout = d_start[inner]
-    turn_in = np.arctan2(tin[:, 0] * tout[:, 1] - tin[:, 1] * tout[:, 0],
-                         (tin * tout).sum(axis=1))
+    turn_in = turn_angle(tin, tout)
     is_corner = np.zeros(m + 1, bool)
     # a listed corner whose tangent does not jump is a smooth join
     is_corner[inner] = np.abs(turn_in) > CORNER_MIN_ANGLE
     seam_turn = 0.0
     if closed:
         a, b = d_end[-1], d_start[0]
-        seam_turn = float(np.arctan2(a[0] * b[1] - a[1] * b[0], a @ b))
+        seam_turn = float(turn_angle(a, b))
         seam_corner = abs(seam_turn) > CORNER_MIN_ANGLE
     else:
         seam_corner = False

@@ -221,13 +221,13 @@ def load_frame(path) -> Frame:
         return Frame()
     from pathlib import Path
 
-    from ..checks.machine import _read_toml, _toml_line
+    from ..checks.machine import read_toml, toml_line
 
     path = Path(path)
-    data, text = _read_toml(path)
+    data, text = read_toml(path)
 
     def where(key):
-        line = _toml_line(text, key)
+        line = toml_line(text, key)
         return f"{path}, line {line}: " if line else f"{path}: "
 
     if "program" not in data:

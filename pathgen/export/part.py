@@ -99,7 +99,7 @@ def plot_part(path, contours, rows, *, toolpaths=None, units="mm", tabs=None, fo
     from matplotlib.backends.backend_agg import FigureCanvasAgg
     from matplotlib.figure import Figure
 
-    from .plot import _tool_lines
+    from .plot import tool_lines
 
     k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
     p = Path(os.fspath(path))
@@ -115,7 +115,7 @@ def plot_part(path, contours, rows, *, toolpaths=None, units="mm", tabs=None, fo
             ax.plot(xy[:, 0], xy[:, 1], color="black", lw=1.2, label="contour" if i == 0 else None)
             if toolpaths is not None and toolpaths[i] is not None:
                 tp = toolpaths[i]
-                cut, _ = _tool_lines(tp, k)
+                cut, _ = tool_lines(tp, k)
                 for seg in cut:
                     ax.plot(seg[:, 0], seg[:, 1], color="tab:blue", lw=0.8,
                             label="tool center" if i == 0 and seg is cut[0] else None)

@@ -60,7 +60,7 @@ def _fmt(v: float, digits: int = 3) -> str:
     return np.format_float_positional(v + 0.0, precision=digits, unique=False, fractional=False, trim="-")
 
 
-def _tool_lines(tp: Toolpath, k: float):
+def tool_lines(tp: Toolpath, k: float):
     """(cut polyline list, rapid segments) in display units, final pass only."""
     from .dxf import polyline_vertices
 
@@ -229,7 +229,7 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
 
     # tool-center path
     if toolpath is not None:
-        runs, rapids = _tool_lines(toolpath, k)
+        runs, rapids = tool_lines(toolpath, k)
         for run in runs:
             ax.plot(run[:, 0], run[:, 1], color=_COLORS["tool"], lw=1.6, ls="-", zorder=2)
         if len(rapids):

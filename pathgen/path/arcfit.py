@@ -41,9 +41,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..geometry import dot as _dot, left as _left
+from ..geometry import dot as _dot, left as _left, turn_angle
 from .biarc import biarc_chain, merge_chain
-from .flatten import _curve_joints, approximate
+from .flatten import curve_joints, approximate
 from .measure import Chain, chain_deviation, eval_side, offset_points, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
 
@@ -217,9 +217,7 @@ def _arc_end(S, T, k, X):
 
 def _sweep(S, E, C, k):
     """Turn of each arc (0 for lines), rad."""
-    rs, re = S - C, E - C
-    cr = rs[:, 0] * re[:, 1] - rs[:, 1] * re[:, 0]
-    ang = np.mod(np.sign(k) * np.arctan2(cr, _dot(rs, re)), 2 * np.pi)
+    ang = np.mod(np.sign(k) * turn_angle(S - C, E - C), 2 * np.pi)
     return np.where(k == 0, 0.0, ang)
 
 
@@ -329,8 +327,7 @@ def _tangents(chain):
 
 
 def _angle(u, v):
-    cross = u[:, 0] * v[:, 1] - u[:, 1] * v[:, 0]
-    return np.abs(np.arctan2(cross, _dot(u, v)))
+    return np.abs(turn_angle(u, v))
 
 
 def _biarcs_to(contour, d, tol, S, T, t_s, P2, T2, t2):
@@ -341,7 +338,7 @@ def _biarcs_to(contour, d, tol, S, T, t_s, P2, T2, t2):
     tb = np.asarray(t2, dtype=np.float64)
     # the joint where the joint circle crosses the curve (a third point of
     # it), else the equal-tangent-length joint
-    joint, _ = _curve_joints(contour, d, S, T, P2, T2, ta, tb)
+    joint, _ = curve_joints(contour, d, S, T, P2, T2, ta, tb)
     ch, ok = biarc_chain(S, T, P2, T2, ta, tb, joint=joint)
     # joint parameters: the curve point nearest to each joint
     tm = _nearest_param(contour, d, ch.end[0::2], ta, tb)

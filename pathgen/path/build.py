@@ -31,9 +31,10 @@ import numpy as np
 
 from .._options import MM_PER_INCH, UNITS, check_option, check_positive, side_sign
 from ..errors import InputError
+from ..geometry import angle_along_arc, orientation
 from .arcfit import band_arcs
 from .entry import ENTRIES, arc_as_lines, helix_moves, move_length, ramp_route, take_length
-from .flatten import MOVES, _drop_tiny, approximate
+from .flatten import MOVES, drop_tiny, approximate
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from .offset import assemble, regular_windows, unique_spots
@@ -64,7 +65,7 @@ def _chain_toolpath(chain: Chain, z: float, feed: float) -> tuple:
             chain.center, np.full(k, feed))
 
 
-def _close(chain: Chain, closed: bool) -> Chain:
+def close_chain(chain: Chain, closed: bool) -> Chain:
     """A closed path ends exactly where it starts (not a last-bit apart)."""
     if closed and len(chain):
         gap = float(np.hypot(*(chain.end[-1] - chain.start[0])))
@@ -73,7 +74,7 @@ def _close(chain: Chain, closed: bool) -> Chain:
     return chain
 
 
-def _start_at(chain: Chain, point) -> Chain:
+def start_at(chain: Chain, point) -> Chain:
     """The closed chain rotated to start at its point nearest to ``point``.
 
     The move holding that point is split there (an arc into two arcs about
@@ -92,7 +93,7 @@ def _start_at(chain: Chain, point) -> Chain:
         c = chain.center[i]
         r, a0, sw = arc_geometry(s, e, c, chain.kind[i] == ARC_CCW)
         ang = math.atan2(point[1] - c[1], point[0] - c[0])
-        phi = float(np.mod((ang - a0) * np.sign(sw), 2 * np.pi))
+        phi = float(angle_along_arc(ang, a0, np.sign(sw)))
         phi = min(phi, abs(float(sw))) if phi <= abs(float(sw)) + 0.5 * (2 * np.pi - abs(float(sw))) else 0.0
         a = a0 + np.sign(sw) * phi
         x = c + r * np.array([math.cos(a), math.sin(a)])
@@ -110,7 +111,7 @@ def _start_at(chain: Chain, point) -> Chain:
     return Chain.concat([first, rest, last])
 
 
-def _approximate_all(contour, windows, d, tol, moves):
+def approximate_all(contour, windows, d, tol, moves):
     """Approximate each window; counts add up, rounds take the most."""
     parts, dev = [], 0.0
     stats = {"spans": 0, "merged_spans": 0, "boost_rounds": 0, "split_rounds": 0}
@@ -150,8 +151,8 @@ def contour_moves(contour, *, tolerance: float, moves: str = "arcs") -> Toolpath
     check_option("moves", moves, MOVES)
     lo, hi = contour.domain
     windows, joins, _ = regular_windows(contour, 0.0, lo, hi)
-    parts, dev, stats = _approximate_all(contour, windows, 0.0, tol, moves)
-    chain = _close(_drop_tiny(Chain.concat(parts)), contour.closed)
+    parts, dev, stats = approximate_all(contour, windows, 0.0, tol, moves)
+    chain = close_chain(drop_tiny(Chain.concat(parts)), contour.closed)
     kind, s, e, c, f = _chain_toolpath(chain, 0.0, 0.0)
     return Toolpath(kind, s, e, c, f, units="mm", tool_diameter=0.0, side="on",
                     tolerance=tol, deviation=dev, time=0.0,
@@ -232,7 +233,7 @@ def choose_seam(contour, *, near=None, keep_away: float = 0.0, d: float = 0.0) -
     return float(g[run[len(run) // 2] % len(g)])
 
 
-def _tangent_at(chain: Chain, i: int, at_end: bool) -> np.ndarray:
+def tangent_at(chain: Chain, i: int, at_end: bool) -> np.ndarray:
     s, e = chain.start[i], chain.end[i]
     if chain.kind[i] == LINE:
         v = e - s
@@ -307,7 +308,7 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
             return np.inf
         rr = float(np.hypot(*(ch.start[i] - ch.center[i])))
         p = ch.end[i] if at_end else ch.start[i]
-        t_dir = _tangent_at(ch, i, at_end)
+        t_dir = tangent_at(ch, i, at_end)
         return 0.45 * rr if (ch.center[i] - p) @ tool_side(t_dir) > 0 else np.inf
 
     def one_lead(point, t_dir, entering, max_r):
@@ -333,13 +334,13 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
             oc = Chain(np.array([m[0] for m in ov], np.int8), np.array([m[1] for m in ov]),
                        np.array([m[2] for m in ov]), np.array([m[3] for m in ov]),
                        np.full(len(ov), np.nan), np.full(len(ov), np.nan))
-            E, Te, mo = oc.end[-1], _tangent_at(oc, len(oc) - 1, True), max_radius(oc, len(oc) - 1, True)
+            E, Te, mo = oc.end[-1], tangent_at(oc, len(oc) - 1, True), max_radius(oc, len(oc) - 1, True)
         else:
-            E, Te, mo = ch.end[-1], _tangent_at(ch, len(ch) - 1, True), max_radius(ch, len(ch) - 1, True)
+            E, Te, mo = ch.end[-1], tangent_at(ch, len(ch) - 1, True), max_radius(ch, len(ch) - 1, True)
         if entry == "ramp":
             lin, lin_len = [], 0.0
         else:
-            lin, lin_len = one_lead(S, _tangent_at(ch, 0, False), True, max_radius(ch, 0, False))
+            lin, lin_len = one_lead(S, tangent_at(ch, 0, False), True, max_radius(ch, 0, False))
         lout, lout_len = one_lead(E, Te, False, mo)
         return lin, lin_len, lout, lout_len, ov
 
@@ -390,7 +391,7 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
         plan["lead"] = lead
     E0 = lin[0][1] if lin else S
     if entry == "helix":
-        found = _helix_place(E0, tool_side(_tangent_at(chain, 0, False)), probe, r, tol)
+        found = _helix_place(E0, tool_side(tangent_at(chain, 0, False)), probe, r, tol)
         if found is None:
             # the ramp replaces the lead-in too: what was said about it no longer holds
             notes[:] = [n for n in notes if not n.startswith(("lead-in", "no lead-in"))]
@@ -399,8 +400,7 @@ def _plan_entry(chain, *, closed, forward, n_out, lead, lead_len, entry, ramp, p
         else:
             plan["helix_center"], plan["helix_radius"] = found
             if closed:
-                x, y = chain.start[:, 0], chain.start[:, 1]
-                plan["helix_ccw"] = bool(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)) >= 0)
+                plan["helix_ccw"] = orientation(chain.start) > 0
     if plan["entry"] == "ramp":  # the ramp enters along the path: no lead-in
         plan["lead_in"], plan["lead_in_length"] = [], 0.0
         plan["ramp"] = ramp_route(chain, pass_depth / ramp, closed=closed)
@@ -521,9 +521,7 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     if contour.closed:
         # orientation from the fitted points' shoelace area: same sign as the
         # contour's area, at a fraction of its cost on large outlines
-        x, y = contour.points[:, 0], contour.points[:, 1]
-        shoelace = float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
-        orient = 1.0 if shoelace >= 0 else -1.0
+        orient = float(orientation(contour.points))
     d = side_sign(cut.side) * r * orient
     lo, hi = contour.domain
     target = None
@@ -539,13 +537,13 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     elif seam is not None:
         raise InputError("seam applies to closed contours only; an open contour starts at its first point")
     windows, joins, spots = regular_windows(contour, d, lo, hi, tol)
-    parts, dev, stats = _approximate_all(contour, windows, d, tol, moves)
+    parts, dev, stats = approximate_all(contour, windows, d, tol, moves)
     chain, trims = assemble(contour, parts, joins, d, tol, closed=contour.closed)
     # a move without length (a window that ended where its last move did)
     # has no direction: the leads and the G-code need one
-    chain = _close(_drop_tiny(chain), contour.closed)
+    chain = close_chain(drop_tiny(chain), contour.closed)
     if target is not None:
-        chain = _start_at(chain, target)
+        chain = start_at(chain, target)
     spots = unique_spots(spots + trims, tol)
     forward = _travel_forward(d, direction)
     if not forward:

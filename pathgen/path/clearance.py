@@ -64,11 +64,11 @@ import numpy as np
 
 from .._options import check_positive, side_sign
 from ..errors import InputError
+from ..geometry import angle_along_arc, arc_geometry, orientation
+from ..moves import ARC_CCW, ARC_CW, LINE, RAPID
 
 __all__ = ["Clearance", "clearance", "Probe"]
 
-RAPID, LINE, ARC_CW, ARC_CCW = 0, 1, 2, 3
-_TWO_PI = 2.0 * math.pi
 _CHUNK = 60_000  # sub-moves per vectorized batch (bounds memory)
 
 
@@ -98,16 +98,6 @@ class Clearance:
 
 
 # -- the contour as a polyline --------------------------------------------------
-def _orientation(contour) -> float:
-    """+1 for a counter-clockwise closed contour (or an open one), -1 for clockwise
-    (the sign of the fitted points' shoelace area, as the toolpath builder uses)."""
-    if not contour.closed:
-        return 1.0
-    x, y = contour.points[:, 0], contour.points[:, 1]
-    shoelace = float(np.dot(x, np.roll(y, -1)) - np.dot(y, np.roll(x, -1)))
-    return 1.0 if shoelace >= 0 else -1.0
-
-
 def _inside(V, px, py) -> np.ndarray:
     """True where points (px, py) lie inside the closed polygon V (k, 2),
     by shapely's vectorized containment test (GEOS)."""
@@ -164,7 +154,7 @@ def _pt_seg(px, py, ax, ay, bx, by):
 def _in_sweep(ang, a0, sw):
     """Fraction along an arc (start angle a0, signed sweep sw) of the direction
     ``ang``, or -1 where it lies outside the sweep."""
-    rel = np.mod((ang - a0) * np.sign(sw), _TWO_PI)
+    rel = angle_along_arc(ang, a0, np.sign(sw))
     f = rel / np.maximum(np.abs(sw), 1e-300)
     return np.where(rel <= np.abs(sw) * (1 + 1e-12), np.minimum(f, 1.0), -1.0)
 
@@ -270,13 +260,7 @@ def _prepare(kind, start, end, center, stock_top, step):
     f1 = np.where(zb >= stock_top, fz, 1.0)
     f0, f1 = np.clip(f0, 0, 1), np.clip(f1, 0, 1)
     arc = kd >= ARC_CW
-    rho = np.hypot(s[:, 0] - c[:, 0], s[:, 1] - c[:, 1])
-    a0 = np.arctan2(s[:, 1] - c[:, 1], s[:, 0] - c[:, 0])
-    a1 = np.arctan2(e[:, 1] - c[:, 1], e[:, 0] - c[:, 0])
-    ccw = kd == ARC_CCW
-    sw = np.where(ccw, np.mod(a1 - a0, _TWO_PI), np.mod(a0 - a1, _TWO_PI))
-    sw = np.where(sw <= 1e-12, _TWO_PI, sw)
-    sw = np.where(ccw, sw, -sw)
+    rho, a0, sw = arc_geometry(s[:, :2], e[:, :2], c, kd == ARC_CCW)
     sw = np.where(arc, sw, 0.0)
     length = np.where(arc, rho * np.abs(sw), np.hypot(e[:, 0] - s[:, 0], e[:, 1] - s[:, 1])) * (f1 - f0)
     n = np.maximum(np.ceil(length / step), 1).astype(np.int64)
@@ -481,7 +465,9 @@ class Probe:
         if sgn == 0:
             raise InputError("clearance applies to cuts beside the contour (side 'outside' or 'inside'), not 'on'")
         self.contour = contour
-        self.orient = _orientation(contour)
+        # +1 counter-clockwise (or open), -1 clockwise: the fitted points'
+        # orientation, as the toolpath builder takes it
+        self.orient = float(orientation(contour.points)) if contour.closed else 1.0
         self.waste = sgn * self.orient  # + : waste on the contour's left
         self.chord_error = tol / 20.0
         self.tv = tv = _polyline(contour, self.chord_error, h_cap=max(0.5 * r, 2.0 * tol))

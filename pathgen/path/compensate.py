@@ -34,8 +34,8 @@ import math
 import numpy as np
 
 from ..errors import InputError
-from .build import _approximate_all, _close, _start_at, _tangent_at, _to_inch, choose_seam
-from .flatten import _drop_tiny
+from .build import approximate_all, close_chain, start_at, tangent_at, _to_inch, choose_seam
+from .flatten import drop_tiny
 from .measure import Chain
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from .offset import distance_to_contour, regular_windows
@@ -106,10 +106,10 @@ def part_line_toolpath(contour, tool_center: Toolpath, tool, cut, machine, *, re
         ts = choose_seam(contour, keep_away=lead_len + r, d=d)
         lo, hi = ts, ts + (hi - lo)
     windows, _, _ = regular_windows(contour, 0.0, lo, hi, tol)
-    parts, dev, _ = _approximate_all(contour, windows, 0.0, tol, moves)
-    chain = _close(_drop_tiny(Chain.concat(parts)), contour.closed)
+    parts, dev, _ = approximate_all(contour, windows, 0.0, tol, moves)
+    chain = close_chain(drop_tiny(Chain.concat(parts)), contour.closed)
     if seam is not None and contour.closed:
-        chain = _start_at(chain, contour(choose_seam(contour, near=seam)))
+        chain = start_at(chain, contour(choose_seam(contour, near=seam)))
     if not forward:
         chain = chain.reversed()
     left = (d > 0) == forward  # tool on the left of travel
@@ -118,7 +118,7 @@ def part_line_toolpath(contour, tool_center: Toolpath, tool, cut, machine, *, re
     # arcs bending toward the tool must be larger than the tool
     arcs = np.flatnonzero(chain.kind != LINE)
     radius = np.hypot(*(chain.start[arcs] - chain.center[arcs]).T)
-    tangents = np.array([_tangent_at(chain, int(i), False) for i in arcs]).reshape(-1, 2)
+    tangents = np.array([tangent_at(chain, int(i), False) for i in arcs]).reshape(-1, 2)
     toward = np.array([(_rot(t, left) @ (c - s)) > 0 for t, c, s in
                        zip(tangents, chain.center[arcs], chain.start[arcs])], bool)
     small = toward & (radius <= r + tol)
@@ -154,8 +154,8 @@ def part_line_toolpath(contour, tool_center: Toolpath, tool, cut, machine, *, re
         return float(np.hypot(*(chain.start[i] - chain.center[i]))) if chain.kind[i] != LINE else math.inf
 
     k_last = len(chain) - 1
-    p0, t0 = chain.start[0], _tangent_at(chain, 0, False)
-    pe, te = chain.end[-1], _tangent_at(chain, k_last, True)
+    p0, t0 = chain.start[0], tangent_at(chain, 0, False)
+    pe, te = chain.end[-1], tangent_at(chain, k_last, True)
     p_in, a_in = run(p0, t0, chain.kind[0], first_radius(0), True)
     p_out, a_out = run(pe, te, chain.kind[k_last], first_radius(k_last), False)
     # the tangent runs, offset by the radius, stay clear of the part (within the tolerance)

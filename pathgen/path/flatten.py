@@ -155,7 +155,7 @@ def _build(contour, ta, tb, d, tol, moves):
     t1 = unit_tangent_side(contour, tb, left=True)
     p0 = eval_side(contour, ta, 0, left=False) + d * np.stack([-t0[:, 1], t0[:, 0]], axis=-1)
     p1 = eval_side(contour, tb, 0, left=True) + d * np.stack([-t1[:, 1], t1[:, 0]], axis=-1)
-    joint, tm = _curve_joints(contour, d, p0, t0, p1, t1, ta, tb)
+    joint, tm = curve_joints(contour, d, p0, t0, p1, t1, ta, tb)
     chain, ok = biarc_chain(p0, t0, p1, t1, ta, tb, joint=joint, line_sagitta=1e-3 * tol)
     chain.t1[0::2] = tm
     chain.t0[1::2] = tm
@@ -256,7 +256,7 @@ def approximate(contour, windows, d: float, tol: float, *, moves: str = "arcs"):
     gap = np.hypot(*(chain.start[1:] - chain.end[:-1]).T)
     same = gap <= 1e-9 * max(1.0, float(np.abs(chain.end).max(initial=0.0)))
     chain.start[1:][same] = chain.end[:-1][same]
-    chain = _drop_tiny(chain)
+    chain = drop_tiny(chain)
     deviation = float(dev.max(initial=0.0))
     if moves == "arcs":
         # join co-circular arcs and collinear lines; keep the join only if
@@ -284,7 +284,7 @@ def _follows(chain, t0, t1):
     return (np.einsum("ij,ij->i", tan(0, False), t0) > 0) & (np.einsum("ij,ij->i", tan(1, True), t1) > 0)
 
 
-def _drop_tiny(chain, min_length=1e-6):
+def drop_tiny(chain, min_length=1e-6):
     """Remove moves shorter than ``min_length`` mm (blocks without motion
     after rounding); where one was dropped between two moves that met it,
     the next move starts exactly where the previous one ends."""
@@ -337,7 +337,7 @@ def _merge(contour, ta, tb, dev, windows, d, tol, moves, target):
     return ta, tb, dev, joined
 
 
-def _curve_joints(contour, d, p0, t0, p1, t1, ta, tb):
+def curve_joints(contour, d, p0, t0, p1, t1, ta, tb):
     """Biarc joints where the joint circle crosses the curve q = P + d·N.
 
     Every point of the joint circle gives a tangent-continuous biarc; the

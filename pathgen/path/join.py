@@ -14,6 +14,7 @@ import numpy as np
 
 from .._options import MM_PER_INCH
 from ..errors import InputError
+from ..geometry import arc_geometry
 from .model import RAPID, Toolpath
 
 __all__ = ["join_toolpaths", "intrusion"]
@@ -107,13 +108,7 @@ def intrusion(path: Toolpath, material, *, step: float = 0.05) -> tuple[float, t
             pts.append(s + u * (e - s))
         else:
             c = path.center[i] * k
-            rr = float(np.hypot(*(s - c)))
-            a0 = np.arctan2(*(s - c)[::-1])
-            a1 = np.arctan2(*(e - c)[::-1])
-            ccw = path.kind[i] == 3
-            sw = (a1 - a0) % (2 * np.pi) if ccw else -((a0 - a1) % (2 * np.pi))
-            if sw == 0:
-                sw = 2 * np.pi if ccw else -2 * np.pi
+            rr, a0, sw = (float(v) for v in arc_geometry(s, e, c, path.kind[i] == 3))
             n = max(2, int(np.ceil(abs(sw) * rr / step)) + 1)
             a = a0 + np.linspace(0.0, sw, n)
             pts.append(np.c_[c[0] + rr * np.cos(a), c[1] + rr * np.sin(a)])

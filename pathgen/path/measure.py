@@ -26,7 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..geometry import arc_geometry  # noqa: F401  (re-exported for the path stage)
+from ..geometry import angle_along_arc, arc_geometry  # noqa: F401  (arc_geometry re-exported for the path stage)
 from .model import ARC_CCW, ARC_CW, LINE
 
 __all__ = [
@@ -38,8 +38,6 @@ __all__ = [
     "distance_to_own",
     "chain_deviation",
 ]
-
-_TWO_PI = 2.0 * np.pi
 
 
 @dataclass(frozen=True, eq=False)
@@ -223,7 +221,7 @@ def distance_to_own(points, owner, chain: Chain) -> np.ndarray:
         ang = np.arctan2(rely, relx)
         a0o = a0.take(o)
         ccw = (chain.kind == ARC_CCW).take(o)
-        phi = np.mod(np.where(ccw, ang - a0o, a0o - ang), _TWO_PI)
+        phi = angle_along_arc(ang, a0o, np.where(ccw, 1.0, -1.0))
         inside = phi <= np.abs(sw).take(o)
         ends = np.minimum(np.hypot(x - sx.take(o), y - sy.take(o)), np.hypot(x - ex.take(o), y - ey.take(o)))
         d = np.where(inside, np.abs(rp - r.take(o)), ends)
@@ -286,9 +284,9 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int
     q = offset_points(contour, t, d)
     # exact ends: primitives start and end on the curve by construction, but
     # a span ending at a corner must use the left-hand piece there
-    q[first] = _offset_side(contour, chain.t0, d, left=chain.t0 > chain.t1)
+    q[first] = offset_side(contour, chain.t0, d, left=chain.t0 > chain.t1)
     last = first + counts - 1
-    q[last] = _offset_side(contour, chain.t1, d, left=chain.t1 > chain.t0)
+    q[last] = offset_side(contour, chain.t1, d, left=chain.t1 > chain.t0)
     dev_a = np.maximum.reduceat(distance_to_own(q, owner, chain), first)
 
     # primitive -> curve polyline, matching arc-length fractions.  The
@@ -326,7 +324,7 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int
     return np.maximum(dev_a, dev_b)
 
 
-def _offset_side(contour, t, d, *, left):
+def offset_side(contour, t, d, *, left):
     left = np.broadcast_to(np.asarray(left), np.shape(t))
     out = np.empty(np.shape(t) + (2,))
     for side in (False, True):

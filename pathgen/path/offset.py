@@ -34,6 +34,7 @@ import math
 import numpy as np
 
 from ..errors import InputError
+from ..geometry import angle_along_arc, turn_angle
 from .measure import Chain, arc_geometry, eval_side, offset_points, sample_chain, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
 
@@ -189,7 +190,7 @@ def _corner_arc(contour, t, d):
     tb = unit_tangent_side(contour, np.array([t]), left=False)[0]
     a = p + d * np.array([-ta[1], ta[0]])
     bpt = p + d * np.array([-tb[1], tb[0]])
-    turn = float(np.arctan2(ta[0] * tb[1] - ta[1] * tb[0], ta @ tb))
+    turn = float(turn_angle(ta, tb))
     if d * turn >= 0 or np.hypot(*(a - bpt)) <= 1e-12:
         return None  # tool on the inner side of the corner: overlap, trimmed later
     kind = ARC_CCW if turn > 0 else ARC_CW
@@ -264,7 +265,7 @@ def _on(chain, i, pts, eps):
     c = chain.center[i]
     r, a0, sw = arc_geometry(s, e, c, chain.kind[i] == ARC_CCW)
     ang = np.arctan2(pts[:, 1] - c[1], pts[:, 0] - c[0])
-    phi = np.mod((ang - a0) * np.sign(sw) + eps / r, 2 * np.pi) - eps / r
+    phi = angle_along_arc(ang, a0, np.sign(sw), eps / r)
     return phi <= abs(sw) + eps / r
 
 
@@ -320,7 +321,7 @@ def _param_on(chain, i, x):
     r, a0, sw = arc_geometry(s, e, chain.center[i], chain.kind[i] == ARC_CCW)
     ang = np.arctan2(x[1] - chain.center[i][1], x[0] - chain.center[i][0])
     rest = 0.5 * (2 * np.pi - abs(sw))  # the gap of the circle, split before and after
-    phi = np.mod((ang - a0) * np.sign(sw) + rest, 2 * np.pi) - rest
+    phi = angle_along_arc(ang, a0, np.sign(sw), rest)
     return float(phi / abs(sw))
 
 

@@ -25,7 +25,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from .measure import Chain, _offset_side, arc_geometry, chain_deviation, offset_points
+from .measure import Chain, offset_side, arc_geometry, chain_deviation, offset_points
 from .model import LINE
 
 __all__ = ["straighten", "straight_spans", "arcs_and_lines", "MAX_RADIUS_RATIO", "LINE_BULGE_SHARE"]
@@ -185,8 +185,8 @@ def arcs_and_lines(contour, window, d: float, tol: float, spans, fit_arcs):
     parts, dev, stats = [], 0.0, None
     for t0, t1, straight in _pieces(contour, a, b, spans):
         if straight:
-            s = _offset_side(contour, np.array([t0]), d, left=False)
-            e = _offset_side(contour, np.array([t1]), d, left=True)
+            s = offset_side(contour, np.array([t0]), d, left=False)
+            e = offset_side(contour, np.array([t1]), d, left=True)
             chain = Chain(np.array([LINE], np.int8), s, e, np.zeros((1, 2)), np.array([t0]), np.array([t1]))
             dv = float(chain_deviation(contour, d, chain, tol, density=_DENSITY).max())
             st = {"spans": 1, "merged_spans": 0, "boost_rounds": 0, "split_rounds": 0}

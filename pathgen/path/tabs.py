@@ -29,6 +29,7 @@ import numpy as np
 
 from .._options import MM_PER_INCH
 from ..errors import InputError
+from ..geometry import arc_geometry, turn_angle
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 
 __all__ = ["place_tabs", "add_tabs", "TURN_LIMIT"]
@@ -47,14 +48,8 @@ def _pass_moves(tp: Toolpath):
 
 def _arc(tp, i):
     s, e, c = tp.start[i, :2], tp.end[i, :2], tp.center[i]
-    r = float(np.hypot(*(s - c)))
-    a0 = math.atan2(s[1] - c[1], s[0] - c[0])
-    a1 = math.atan2(e[1] - c[1], e[0] - c[0])
-    ccw = tp.kind[i] == ARC_CCW
-    sw = (a1 - a0) % (2 * math.pi) if ccw else -((a0 - a1) % (2 * math.pi))
-    if sw == 0.0:
-        sw = 2 * math.pi if ccw else -2 * math.pi
-    return c, r, a0, sw
+    r, a0, sw = arc_geometry(s, e, c, tp.kind[i] == ARC_CCW)
+    return c, float(r), float(a0), float(sw)
 
 
 def _length(tp, i) -> float:
@@ -116,7 +111,7 @@ def place_tabs(tp: Toolpath, *, count: int, width: float, edge_distance, spots=(
             corner_s.append(edges[j])  # a gap: treat as a corner
             continue
         t0, t1 = _point(tp, a, 1.0)[1], _point(tp, b, 0.0)[1]
-        if abs(math.atan2(t0[0] * t1[1] - t0[1] * t1[0], float(t0 @ t1))) > TURN_LIMIT:
+        if abs(float(turn_angle(t0, t1))) > TURN_LIMIT:
             corner_s.append(edges[j])
     for cs in corner_s:
         ok &= np.abs(s - cs) >= 0.5 * span + r

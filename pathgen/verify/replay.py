@@ -29,6 +29,8 @@ import math
 
 import numpy as np
 
+from ..geometry import angle_along_arc, arc_geometry, arc_sweep
+
 __all__ = [
     "decimals_for",
     "rounding_bound",
@@ -148,12 +150,7 @@ def move_polylines(kind, start, end, center, tol):
     counts = np.maximum(2, np.ceil(length / _MAX_STEP).astype(np.int64) + 1)
     r0 = np.hypot(*(s - c).T)
     r1 = np.hypot(*(e - c).T)
-    a0 = np.arctan2(s[:, 1] - c[:, 1], s[:, 0] - c[:, 0])
-    a1 = np.arctan2(e[:, 1] - c[:, 1], e[:, 0] - c[:, 0])
-    ccw = kind == 3
-    sweep = np.where(ccw, np.mod(a1 - a0, 2 * np.pi), -np.mod(a0 - a1, 2 * np.pi))
-    full = arcs & (np.abs(sweep) <= 1e-12)
-    sweep = np.where(full, np.where(ccw, 2 * np.pi, -2 * np.pi), sweep)
+    _, a0, sweep = arc_geometry(s, e, c, kind == 3)  # a closed arc sweeps a full turn
     if arcs.any():
         counts[arcs] = np.maximum(counts[arcs], _arc_counts(np.maximum(r0, r1)[arcs], sweep[arcs], tol,
                                                             length[arcs]))
@@ -182,7 +179,7 @@ def tool_center_polyline(contour, d: float, tol: float):
     Returns (points (n, 2), joined (n - 1,) bool: consecutive points form a
     segment of the curve).
     """
-    from ..path.measure import _offset_side
+    from ..path.measure import offset_side
 
     b = np.asarray(contour.breaks, dtype=np.float64)
     cuts = sorted(set(int(i) for i in contour.corners) | {0, len(b) - 1})
@@ -210,8 +207,8 @@ def tool_center_polyline(contour, d: float, tol: float):
             d1 = contour(t[1:-1], 1)
             nrm = np.stack([-d1[:, 1], d1[:, 0]], axis=-1) / np.hypot(*d1.T)[:, None]
             p = p + d * nrm
-        e0 = _offset_side(contour, np.array([tb[0]]), d, left=False)
-        e1 = _offset_side(contour, np.array([tb[-1]]), d, left=True)
+        e0 = offset_side(contour, np.array([tb[0]]), d, left=False)
+        e1 = offset_side(contour, np.array([tb[-1]]), d, left=True)
         sec = np.vstack([e0, p, e1])
         if pts_all:
             # a corner: the tool rolls round the corner point (radius |d|)
@@ -303,10 +300,8 @@ class _Moves:
         self.r0 = np.hypot(*(self.s - c).T)
         self.r1 = np.hypot(*(self.e - c).T)
         self.a0 = np.arctan2(self.s[:, 1] - c[:, 1], self.s[:, 0] - c[:, 0])
-        a1 = np.arctan2(self.e[:, 1] - c[:, 1], self.e[:, 0] - c[:, 0])
         ccw = self.kind == 3
-        sw = np.where(ccw, np.mod(a1 - self.a0, 2 * np.pi), np.mod(self.a0 - a1, 2 * np.pi))
-        self.sweep = np.where(self.arc & (sw <= 1e-12), 2 * np.pi, sw)  # unsigned
+        self.sweep = arc_sweep(self.s, self.e, c, ccw)  # unsigned; read for arcs only
         self.ccw = ccw
         length = np.where(self.arc, np.maximum(self.r0, self.r1) * self.sweep, np.hypot(*(self.e - self.s).T))
         counts = np.maximum(2, np.ceil(length / _MAX_STEP).astype(np.int64) + 1)
@@ -340,7 +335,7 @@ class _Moves:
             oa, xa = o[am], x[am]
             rel = xa - self.c[oa]
             ang = np.arctan2(rel[:, 1], rel[:, 0])
-            phi = np.mod(np.where(self.ccw[oa], ang - self.a0[oa], self.a0[oa] - ang), 2 * np.pi)
+            phi = angle_along_arc(ang, self.a0[oa], np.where(self.ccw[oa], 1.0, -1.0))
             inside = phi <= self.sweep[oa]
             frac = np.where(self.sweep[oa] > 0, phi / self.sweep[oa], 0.0)
             r = self.r0[oa] + (self.r1[oa] - self.r0[oa]) * frac
