@@ -46,7 +46,7 @@ _STAGES = [
     {"checks"},
     {"path"},
     {"export", "verify"},
-    {"pipeline", "partjob"},
+    {"job", "pipeline", "partjob"},
     {"cli", "demo", "__main__", "__init__"},
 ]
 
