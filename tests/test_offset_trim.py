@@ -16,6 +16,7 @@ buffer's boundary and, where it goes, follow all of it.
 from __future__ import annotations
 
 import math
+import re
 from types import SimpleNamespace
 
 import numpy as np
@@ -24,6 +25,7 @@ import shapely
 
 from gcode_reader import sample
 from pathgen import Cut, Tool, clean_points, fit_outline
+from pathgen.errors import InputError
 from pathgen.path.build import make_toolpath
 
 TOL = 0.01
@@ -87,22 +89,36 @@ def _run(points, side):
     return contour, tp
 
 
-@pytest.mark.parametrize("gap, trimmed", [(2.0, True), (10.0, False)])
-def test_clip_with_a_mouth_cut_outside_follows_the_grown_outline(gap, trimmed):
-    # A mouth narrower than the tool (2 mm, tool 6 mm): the tool-center
-    # curves from both lips cross and are trimmed (the narrow-gap and
-    # crossing steps run); the tool then passes the mouth by, as the grown
-    # outline's exterior does.  A mouth wider than the tool (10 mm): the tool
-    # goes in and round the inside, again as the exterior does.
-    contour, tp = _run(_c_shape(gap), "outside")
-    assert bool(tp.info["trimmed"]) == trimmed
+def test_clip_with_a_mouth_cut_outside_follows_the_grown_outline():
+    # A mouth wider than the tool (10 mm, tool 6 mm): the tool goes in and
+    # round the inside, as the grown outline's exterior does.
+    contour, tp = _run(_c_shape(10.0), "outside")
+    assert not tp.info["trimmed"]
     ext = np.asarray(_outline_polygon(contour).buffer(R, quad_segs=64).exterior.coords)
     path = _path_points(tp)
     assert _distance(path, ext).max() <= TOL + SLACK  # every point of the path on the exterior
     dense_ext = np.asarray(shapely.segmentize(shapely.LinearRing(ext), 0.02).coords)
     assert _distance(dense_ext, np.vstack([path, path[:1]])).max() <= TOL + SLACK  # and all of it followed
-    # the inside of the clip: cut only when the tool fits through the mouth
-    assert (np.hypot(*path.T).min() < 12.0 + R + 0.1) == (not trimmed)
+    assert np.hypot(*path.T).min() < 12.0 + R + 0.1  # the inside of the clip is cut
+
+
+def _left_uncut(message):
+    m = re.search(r"region around \((\S+), (\S+)\) mm \((\S+) mm²", message)
+    assert m, message
+    return float(m.group(1)), float(m.group(2)), float(m.group(3))
+
+
+def test_clip_with_a_mouth_narrower_than_the_tool_is_refused_not_half_cut():
+    # A 2 mm mouth and a 6 mm tool: the tool passes the mouth by, and the
+    # clip's inside (a disc of radius 12 behind the mouth) would stay as
+    # material: a disc with a slot instead of a clip.  No program: the
+    # message says where and how much.  The tool center could stand in the
+    # inner disc shrunk by the tool radius: area π(12 - 3)² (geometry).
+    with pytest.raises(InputError) as info:
+        _run(_c_shape(2.0), "outside")
+    x, y, area = _left_uncut(str(info.value))
+    assert math.hypot(x, y) < 12.0 - R
+    assert area == pytest.approx(math.pi * (12.0 - R) ** 2, rel=0.01)
 
 
 def test_hook_sample_cut_outside_follows_the_grown_outline():
@@ -119,18 +135,17 @@ def test_hook_sample_cut_outside_follows_the_grown_outline():
 
 def test_pocket_with_a_neck_narrower_than_the_tool():
     # A 3 mm neck and a 6 mm tool: the shrunk outline falls apart into two
-    # lobes (shapely says so); the trimmed path lies on the boundary of the
-    # shrunk outline and follows the whole boundary of the lobe it cuts.
-    contour, tp = _run(_bean(3.0), "inside")
+    # lobes (shapely says so).  One closed path cuts one lobe only, so no
+    # program is made: the message names the other lobe and its area, as
+    # shapely measures it.
+    contour = fit_outline(clean_points(_bean(3.0), closed=True))
     shrunk = _outline_polygon(contour).buffer(-R, quad_segs=64)
     assert shrunk.geom_type == "MultiPolygon" and len(shrunk.geoms) == 2
-    assert any(s["reason"] == "overlap" for s in tp.info["trimmed"])
-    path = _path_points(tp)
-    rings = [np.asarray(g.exterior.coords) for g in shrunk.geoms]
-    assert np.minimum(*(_distance(path, ring) for ring in rings)).max() <= TOL + SLACK
-    lobe = min(rings, key=lambda ring: _distance(path[:1], ring)[0])
-    dense = np.asarray(shapely.segmentize(shapely.LinearRing(lobe), 0.02).coords)
-    assert _distance(dense, np.vstack([path, path[:1]])).max() <= TOL + SLACK
+    with pytest.raises(InputError, match="falls apart into separate regions") as info:
+        make_toolpath(contour, Tool(2 * R), Cut(side="inside", tolerance=TOL), lead="none")
+    x, y, area = _left_uncut(str(info.value))
+    lobe = next(g for g in shrunk.geoms if g.contains(shapely.Point(x, y)))
+    assert area == pytest.approx(lobe.area, rel=0.01)
 
 
 def test_pocket_with_a_neck_wider_than_the_tool_is_one_loop():

@@ -638,6 +638,8 @@ def _g(value, k: float = 1.0, digits: int = 4) -> str:
     v = float(value) * k
     if not math.isfinite(v):
         return "inf"
+    if abs(v) >= 1e12:  # a radius of a straight stretch, say: no 300-digit numbers
+        return "straight" if v > 0 else "-straight"
     if abs(v) < 5e-7:
         return "0"
     text = f"{v:.{digits}g}"

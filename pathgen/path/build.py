@@ -37,7 +37,7 @@ from .entry import ENTRIES, arc_as_lines, helix_moves, move_length, ramp_route, 
 from .flatten import MOVES, drop_tiny, approximate
 from .measure import Chain, arc_geometry
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
-from .offset import assemble, regular_windows, unique_spots
+from .offset import assemble, regular_windows, separate_regions, unique_spots
 from .straighten import arcs_and_lines, straight_spans
 
 __all__ = ["make_toolpath", "contour_moves", "choose_seam", "DIRECTIONS", "LEADS"]
@@ -539,6 +539,19 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     windows, joins, spots = regular_windows(contour, d, lo, hi, tol)
     parts, dev, stats = approximate_all(contour, windows, d, tol, moves)
     chain, trims = assemble(contour, parts, joins, d, tol, closed=contour.closed)
+    if contour.closed and trims and cut.side in ("inside", "outside"):
+        # trimmed at an overlap: is it a swallow-tail, or a whole region one path cannot reach?
+        left = separate_regions(contour, r, cut.side == "inside", tol)
+        if left:
+            area, (x, y) = left[0]
+            what = ("the pocket narrows below the tool diameter and falls apart into separate regions"
+                    if cut.side == "inside" else "a cavity of the outline is wider than the tool behind a mouth "
+                    "narrower than it")
+            raise InputError(
+                f"one path cannot cut this outline with a {2 * r:g} mm tool: {what}; the region around "
+                f"({x:.4f}, {y:.4f}) mm ({area:.4g} mm², {len(left)} region(s) in all) would be left uncut; "
+                "use a tool narrower than the narrowing (see the check's largest tool), or cut each region "
+                "as an outline of its own")
     # a move without length (a window that ended where its last move did)
     # has no direction: the leads and the G-code need one
     chain = close_chain(drop_tiny(chain), contour.closed)
