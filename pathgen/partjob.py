@@ -311,7 +311,7 @@ def _tabs_mm(tp, k):
 
 
 def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None, closed=None,
-             end: str = "not-a-knot", param: str = "chord", smooth=None, corner_angle=None,
+             end: str = "not-a-knot", param: str = "chord", smooth=None, corner_angle=None, find_arcs=True,
              machine=None, tool_diameter=None, feed=None, accel=None, side=None, tolerance=None,
              moves: str = "arcs", depth=None, step_down=None, safe_height=None, seam=None,
              lead: str = "arc", direction: str = "climb", plunge_feed=None, spindle_speed=None,
@@ -391,7 +391,7 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
 
     # points files: "auto" (the default) smooths each outline to its own noise
     smooth_kw = smooth if smooth is None or isinstance(smooth, str) else _length("smooth", smooth, scale)
-    fit_kw = {"end": end, "param": param, "smooth": smooth_kw}
+    fit_kw = {"end": end, "param": param, "smooth": smooth_kw, "find_arcs": bool(find_arcs)}
     if corner_angle == "off":
         fit_kw["corner_angle"] = None
     elif corner_angle is not None:
@@ -403,6 +403,11 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
                 contours.append(timed("fit", shape_contour, o.shape, tolerance=tol_mm))
             else:
                 contours.append(timed("fit", fit_outline, o.outline, **fit_kw))
+                rec = contours[-1].info.get("recognised")
+                if rec is not None:
+                    steps = [*steps, f"outline {o.number}: {rec['text']} recognised in the points"
+                             + (f" ({rec['free']} free-form stretches between them fitted with splines)"
+                                if rec["free"] else "")]
         except InputError as exc:
             raise InputError(f"outline {o.number} ({o.where}): {exc}") from None
     tab_opts = _tab_options(tabs, tab_spacing, tab_width, tab_height, scale, tool_mm, depth)

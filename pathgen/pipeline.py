@@ -330,6 +330,7 @@ def run(
     units=None,
     smooth="auto",
     corner_angle=None,
+    find_arcs: bool = True,
     layer=None,
     machine=None,
     tool_diameter=None,
@@ -393,6 +394,11 @@ def run(
     corner_angle : float, "off" or None
         Turning angle (degrees, below 180) above which a point is a sharp
         corner; "off": no corners; None: the input stage's default (40).
+    find_arcs : bool
+        Points files: find drawn lines and circular arcs in the points (runs
+        of at least 8 points within the points' rounding of one line or
+        circle) and keep them exact (:mod:`pathgen.primitives`); False: fit
+        splines only, as before.
     layer : str or None
         DXF input: the layer holding the outline.
     machine : str, Path, Machine or None
@@ -563,7 +569,7 @@ def run(
             raise InputError(f"{source}: a part of several outlines takes no {', '.join(given)} yet: "
                              "run its outlines one at a time for these options")
         return run_part(path, **part_opts, closed=closed, end=end, param=param, units=units, smooth=smooth,
-                        corner_angle=corner_angle, layer=layer, machine=machine,
+                        corner_angle=corner_angle, find_arcs=find_arcs, layer=layer, machine=machine,
                         tool_diameter=tool_diameter, feed=feed, accel=accel, side=side,
                         tolerance=tolerance, moves=moves, depth=depth, step_down=step_down,
                         safe_height=safe_height, seam=seam, lead=lead, direction=direction,
@@ -591,7 +597,7 @@ def run(
 
     noise = timed("noise", estimate_noise, outline.points, outline.closed,
                   quantization=getattr(outline, "quantization", None))
-    kw = {"end": end, "param": param, "smooth": smooth_mm, "noise": noise}
+    kw = {"end": end, "param": param, "smooth": smooth_mm, "noise": noise, "find_arcs": bool(find_arcs)}
     if corner_angle == "off":
         kw["corner_angle"] = None
     elif corner_angle is not None:
