@@ -73,6 +73,9 @@ STRAIGHT_MIN_RATIO = 0.01
 #: The screen keeps windows within this many bounds of their algebraic
 #: circle (the geometric fit that decides is never farther off).
 _SCREEN_SLACK = 2.0
+#: Longer point sequences are searched on every m-th point first (at most
+#: this many), and the runs found fitted again on all points.
+_COARSE = 5000
 #: Circle-fit refinement: Gauss-Newton steps at most.
 _GN_STEPS = 4
 
@@ -300,6 +303,8 @@ def _runs(p, bound, size, limit=None):
     arcs only), in order, consecutive runs sharing their end point; at most
     ``limit`` of them."""
     n = len(p)
+    if n > _COARSE:
+        return _refined_runs(p, bound, size, limit)
     out = []
     ok = _screen(p, bound)
     starts = np.flatnonzero(ok)
@@ -338,6 +343,41 @@ def _runs(p, bound, size, limit=None):
         if limit is not None and len(out) >= limit:
             break
         i = j
+    return out
+
+
+def _refined_runs(p, bound, size, limit):
+    """Runs of a long sequence: found on every m-th point (at most
+    ``_COARSE`` of them), then fitted again on all points from where the
+    coarse run starts, its start moved back as far as the points allow."""
+    n = len(p)
+    m = math.ceil(n / _COARSE)
+    idx = np.unique(np.r_[np.arange(0, n, m), n - 1])
+    out = []
+    prev = 0
+    for cr in _runs(p[idx], bound, size, limit):
+        i0, hint = max(int(idx[cr.first]), prev), int(idx[cr.last])
+        kind = cr.kind
+        j, f = _longest(p, i0, n - 1, kind, bound, size, first=max(MIN_POINTS, (hint - i0) // 2 + 1))
+        if j is None:
+            j, f = _longest(p, i0, n - 1, kind, bound, size)
+        if j is None or not _meaningful(p, i0, j, f, bound, size):
+            continue
+        lo, hi = max(prev, i0 - m), i0  # the earliest start that still fits: bisection
+        while hi - lo > 0:
+            mid = (lo + hi) // 2
+            g = _test(p[mid:j + 1], kind, bound, size)
+            if g is None:
+                lo = mid + 1
+            else:
+                hi, f = mid, g
+        i0 = hi
+        kind, params, err = f
+        if kind == "line":
+            out.append(Piece("line", i0, j, line=(tuple(params[0]), tuple(params[1])), error=err))
+        else:
+            out.append(Piece("arc", i0, j, center=tuple(params[0]), radius=float(params[1]), error=err))
+        prev = j
     return out
 
 
