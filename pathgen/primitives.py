@@ -114,7 +114,7 @@ def fit_line(p: np.ndarray):
     largest distance of the points from it).
 
     >>> _, d, e = fit_line(np.array([[0, 0], [1, 1], [2, 2.0]]))
-    >>> [round(abs(v), 12) for v in d], e < 1e-12
+    >>> [round(abs(float(v)), 12) for v in d], bool(e < 1e-12)
     ([0.707106781187, 0.707106781187], True)
     """
     c = p.mean(axis=0)
@@ -157,7 +157,7 @@ def fit_circle(p: np.ndarray, bound=None):
 
     >>> a = np.linspace(0, 1, 9)
     >>> c, r, e = fit_circle(np.c_[3 + 2 * np.cos(a), -1 + 2 * np.sin(a)])
-    >>> [round(v, 9) + 0.0 for v in c], round(r, 9), e < 1e-12
+    >>> [round(float(v), 9) + 0.0 for v in c], round(float(r), 9), bool(e < 1e-12)
     ([3.0, -1.0], 2.0, True)
     """
     m = p.mean(axis=0)
@@ -442,9 +442,19 @@ def _gap_fits(q, a, b, bound, wrap=0):
     inner = q[a.last + 1:(b.first + wrap)] if wrap else q[a.last + 1:b.first]
     if wrap:
         inner = np.vstack([q[a.last + 1:wrap], q[:b.first]]) if b.first > 0 else q[a.last + 1:wrap]
-    if len(inner) == 0:
+    if len(inner) and not (np.minimum(_distances(a, inner), _distances(b, inner)) <= bound).all():
+        return False
+    # and the two meet there (touch or cross): two arcs with a straight side of one
+    # interval between them (a slot sampled only on its ends) do not
+    x0, x1 = q[a.last], q[b.first]
+    h = max(math.dist(q[a.last], q[a.last - 1]), math.dist(q[b.first], q[b.first + 1]))
+    r = min([pc.radius for pc in (a, b) if pc.kind == "arc"] or [0.0])
+    reach = math.dist(x0, x1) + 3.0 * h + 4.0 * math.sqrt(r * bound) + 20.0 * bound
+    x = 0.5 * (x0 + x1)
+    t = _touch(a, b, 2.0 * bound)
+    if t is not None and math.dist(t, x) <= reach:
         return True
-    return bool((np.minimum(_distances(a, inner), _distances(b, inner)) <= bound).all())
+    return any(math.dist(c, x) <= reach for c in _meet(a, b))
 
 
 def _distances(piece, x):

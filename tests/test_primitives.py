@@ -281,3 +281,18 @@ def test_pieces_contour_single_circle():
     assert abs(c.area) == pytest.approx(math.pi * 16, abs=1e-6)
     assert c.length == pytest.approx(8 * math.pi, abs=1e-7)
     assert c.corners == ()
+
+
+def test_arcs_with_a_one_step_straight_side_keep_the_side():
+    # a slot sampled only on its half circles: each straight side is one step between two
+    # arc ends; the arcs must not be joined across it (they neither touch nor cross there)
+    w, length = 10.0, 40.0
+    r, a = w / 2, length / 2 - w / 2
+    th = np.linspace(-np.pi / 2, np.pi / 2, 100)
+    p = np.vstack([np.c_[a + r * np.cos(th), r * np.sin(th)], np.c_[-a - r * np.cos(th), -r * np.sin(th)]])
+    c = fit_outline(p, closed=True)
+    assert c.info["recognised"]["arcs"] == 2
+    # slot area 2a·w + πr² and perimeter 4a + 2πr (geometry)
+    assert abs(c.area) == pytest.approx(2 * a * w + math.pi * r * r, abs=1e-6)
+    assert c.length == pytest.approx(4 * a + 2 * math.pi * r, abs=1e-7)
+    assert c.corners == ()
