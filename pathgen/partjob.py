@@ -405,7 +405,10 @@ def run_part(points, *, units: str = "mm", layer=None, join_gap=None, sides=None
                 contours.append(timed("fit", fit_outline, o.outline, **fit_kw))
                 rec = contours[-1].info.get("recognised")
                 if rec is not None:
-                    steps = [*steps, f"outline {o.number}: {rec['text']} recognised in the points"
+                    from .primitives import describe_counts
+
+                    text = describe_counts(rec["lines"], rec["radii"], scale=scale, decimals=3 if scale == 1 else 4)
+                    steps = [*steps, f"outline {o.number}: {text} recognised in the points"
                              + (f" ({rec['free']} free-form stretches between them fitted with splines)"
                                 if rec["free"] else "")]
         except InputError as exc:

@@ -50,7 +50,7 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["Piece", "fit_line", "fit_circle", "find_pieces", "pieces_contour", "recognition_bound",
-           "describe", "MIN_POINTS", "MIN_SWEEP", "BOUND_SHARE", "FLOAT_RTOL", "ARC_MIN_SAGITTA"]
+           "describe", "describe_counts", "MIN_POINTS", "MIN_SWEEP", "BOUND_SHARE", "FLOAT_RTOL", "ARC_MIN_SAGITTA"]
 
 #: Fewest points in a recognised line or arc.
 MIN_POINTS = 8
@@ -467,16 +467,21 @@ def _distances(piece, x):
     return np.abs(np.hypot(v[:, 0], v[:, 1]) - piece.radius)
 
 
-def describe(pieces) -> str:
-    """'4 lines, 4 arcs R8.000' (radii to 3 decimals, mm; repeated radii once)."""
+def describe(pieces, *, scale: float = 1.0, decimals: int = 3) -> str:
+    """'4 lines, 4 arcs R8.000': radii divided by ``scale`` (mm per unit of
+    the report: 25.4 for inch, with ``decimals`` 4), each value once."""
     lines = sum(1 for q in pieces if q.kind == "line")
-    arcs = [q.radius for q in pieces if q.kind == "arc"]
+    return describe_counts(lines, [q.radius for q in pieces if q.kind == "arc"], scale=scale, decimals=decimals)
+
+
+def describe_counts(lines: int, radii, *, scale: float = 1.0, decimals: int = 3) -> str:
+    """:func:`describe` from the counts: ``lines`` and the arcs' ``radii`` (mm)."""
     parts = []
     if lines:
         parts.append(f"{lines} line{'s' if lines != 1 else ''}")
-    if arcs:
-        radii = sorted({f"{r:.3f}" for r in arcs}, key=float)
-        parts.append(f"{len(arcs)} arc{'s' if len(arcs) != 1 else ''} " + ", ".join(f"R{r}" for r in radii))
+    if len(radii):
+        shown = sorted({f"{r / scale:.{decimals}f}" for r in radii}, key=float)
+        parts.append(f"{len(radii)} arc{'s' if len(radii) != 1 else ''} " + ", ".join(f"R{r}" for r in shown))
     return ", ".join(parts) if parts else "no lines or arcs"
 
 

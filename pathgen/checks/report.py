@@ -617,7 +617,11 @@ def _fit_lines(fit, k, u) -> list:
     elif mode == "recognised":
         rec = fit.get("recognised") or {}
         free = rec.get("free", 0)
-        lines.append(f"fit: lines and arcs recognised in the points ({rec.get('text', '')}"
+        from ..primitives import describe_counts
+
+        text = describe_counts(rec.get("lines", 0), rec.get("radii", []), scale=1.0 / k,
+                               decimals=3 if u == "mm" else 4)
+        lines.append(f"fit: lines and arcs recognised in the points ({text}"
                      + (f"; {free} free-form stretch{'es' if free != 1 else ''} fitted with splines" if free else "")
                      + f"): {within}, bound {_g(rec.get('bound', 0.0), k)} {u} (the points' rounding); "
                      "spline only: --find-arcs off")
