@@ -242,8 +242,11 @@ def _replay_part(material, tool_mm: float, tol_mm: float):
             raise InternalCheckError(
                 f"internal check failed: the written part program cuts {worst:.6g} mm into the part near "
                 f"({where[0]:.4f}, {where[1]:.4f}) mm (tolerance {tol_mm:g} mm); nothing was written")
+        # positional, never exponent notation in a program (a part cut exactly reads 7.7e-05)
+        deepest = np.format_float_positional(round(max(worst, 0.0), 9) + 0.0, precision=6, unique=False,
+                                             fractional=False, trim="-")
         return [f"replayed from this text: {moves} cutting blocks below the stock top read back, none enters "
-                f"the part by more than the tolerance (deepest {max(worst, 0.0):.6g} mm)",
+                f"the part by more than the tolerance (deepest {deepest} mm)",
                 "deviation from each outline: measured on the moves before they were written (not replayed)"]
 
     return check

@@ -17,6 +17,7 @@ Drawings are built with ezdxf in the tests.
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -356,6 +357,8 @@ def test_plate_program_cuts_each_outline_once_on_its_side_holes_first(tmp_path, 
     res = run(path, tool_diameter=TOOL, depth=3.0, step_down=1.5, gcode=tmp_path / "plate.nc",
               report=tmp_path / "plate.report.json")
     prog = read_gcode((tmp_path / "plate.nc").read_text())
+    # no exponent notation anywhere in the program, comments included (an exact cut's tiny figures)
+    assert not re.search(r"[0-9][eE][-+]?[0-9]", (tmp_path / "plate.nc").read_text())
     outer, inner = plate_polygons()
     material = outer
     for h in inner:
