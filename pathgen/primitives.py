@@ -65,6 +65,8 @@ ARC_MIN_SAGITTA = 10.0
 #: points rounded to 0.001 mm, ellipses 50 × 30 and 50 × 45 mm and a cam
 #: gave such runs of up to 18.5°.
 MIN_SWEEP = math.radians(45.0)
+#: The share of MIN_SWEEP the polyline of an arc's points surely turns by.
+_SWEEP_SHARE = 0.8
 #: Largest arc radius, relative to the outline's size.
 MAX_RADIUS_RATIO = 1e3
 #: Shortest recognised line, relative to the outline's size (as the
@@ -308,6 +310,13 @@ def _runs(p, bound, size, limit=None):
     out = []
     ok = _screen(p, bound)
     starts = np.flatnonzero(ok)
+    # total absolute turning of the polyline up to each point: an arc of at
+    # least MIN_SWEEP from i holds every point up to where this has grown by
+    # a share of it (the polyline turns by the arc's sweep, less half a step
+    # at each end), so one fit of those points tells whether one can start at i
+    d = np.diff(p, axis=0)
+    turn = np.abs(np.arctan2(d[:-1, 0] * d[1:, 1] - d[:-1, 1] * d[1:, 0], np.einsum("ij,ij->i", d[:-1], d[1:])))
+    total = np.concatenate([[0.0, 0.0], np.cumsum(turn)])
     i = 0
     while i <= n - MIN_POINTS:
         if not ok[i]:
@@ -324,6 +333,15 @@ def _runs(p, bound, size, limit=None):
         # an arc wins only when it reaches clearly farther than the line
         # (a circle fits a straight run too, with a huge radius)
         reach = i + MIN_POINTS - 1 if best is None else min(best[0] + MIN_POINTS // 2, n - 1)
+        if best is None:
+            reach = max(reach, int(np.searchsorted(total, total[i] + _SWEEP_SHARE * MIN_SWEEP)))
+            if reach > n - 1:
+                i = n  # no arc can turn far enough from here on
+                continue
+            if _test(p[i:reach + 1], "arc", bound, size) is None:
+                # no arc worth keeping starts here; step a sixteenth of the way
+                i = max(i + 1, tried - MIN_POINTS, i + (reach - i) // 16)
+                continue
         if best is None or (reach > best[0] and _test(p[i:reach + 1], "arc", bound, size) is not None):
             j, f = _longest(p, i, n - 1, "arc", bound, size)
             tried = max(tried, j or 0)
@@ -332,10 +350,22 @@ def _runs(p, bound, size, limit=None):
         if best is None:
             # nothing worth keeping from i: a run that fits but is too short
             # (a free-form curve is a circle over a short stretch) is skipped
-            # by half, so dense free-form points cost O(n / run) fits
-            i = max(i + 1, (i + tried) // 2) if tried else i + 1
+            # but for its last points, so free-form points cost O(n / run)
+            # fits; a drawn piece starting inside it is found from there and
+            # its start moved back below
+            i = max(i + 1, tried - MIN_POINTS) if tried else i + 1
             continue
         j, (kind, params, err) = best
+        lo, hi = (out[-1].last if out else 0), i  # the earliest start that still fits
+        if hi > lo:
+            while hi - lo > 0:
+                mid = (lo + hi) // 2
+                g = _test(p[mid:j + 1], kind, bound, size)
+                if g is None:
+                    lo = mid + 1
+                else:
+                    hi, params, err = mid, g[1], g[2]
+            i = hi
         if kind == "line":
             out.append(Piece("line", i, j, line=(tuple(params[0]), tuple(params[1])), error=err))
         else:
