@@ -23,6 +23,7 @@ Outside references:
 from __future__ import annotations
 
 import math
+import re
 
 import numpy as np
 import pytest
@@ -296,3 +297,24 @@ def test_arcs_with_a_one_step_straight_side_keep_the_side():
     assert abs(c.area) == pytest.approx(2 * a * w + math.pi * r * r, abs=1e-6)
     assert c.length == pytest.approx(4 * a + 2 * math.pi * r, abs=1e-7)
     assert c.corners == ()
+
+
+def test_cli_says_what_was_recognised_and_switches_off(tmp_path):
+    import io
+
+    from pathgen.cli import main
+
+    f = tmp_path / "outline.csv"
+    f.write_text("x,y\n" + "".join(f"{x:.3f},{y:.3f}\n" for x, y in rounded_rect(0.1, 3)))
+    texts = {}
+    for flag in ("on", "off"):
+        out, err = io.StringIO(), io.StringIO()
+        code = main(["check", str(f), "--closed", "--tool-diameter", "6", "--find-arcs", flag], out=out, err=err)
+        texts[flag] = out.getvalue()
+        # exit 1 = the tool cannot reach somewhere: the spline's rounding wiggles bend toward the tool
+        assert code == (0 if flag == "on" else 1)
+    assert "fit: lines and arcs recognised in the points (4 lines, 4 arcs R8.000)" in texts["on"]
+    assert "recognised" not in texts["off"]
+    # the report's smallest radius: the drawn R8 within 0.001 mm, and far below it without
+    assert re.search(r"smallest radius: 7\.99\d+ mm|smallest radius: 8(\.000\d*)? mm", texts["on"])
+    assert "smallest radius: 8" not in texts["off"] and "smallest radius: 7.99" not in texts["off"]
