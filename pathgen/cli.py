@@ -156,6 +156,9 @@ def _add_shared(p: argparse.ArgumentParser, *, output: str | None, program: bool
                         "keeping the contour within TOL of every point")
     g.add_argument("--corner-angle", type=_angle, metavar="DEG", default=DEFAULT_CORNER_ANGLE,
                    help="turning angle above which a point is a sharp corner (default: 40; off: no corners)")
+    g.add_argument("--find-arcs", choices=("on", "off"), default="on",
+                   help="points files: keep runs of points that lie on a line or a circle (within their "
+                        "rounding) as exact lines and arcs (on, default); off: fit splines only")
     g.add_argument("--layer", metavar="NAME", help="DXF input: the layer that holds the outline")
     g.add_argument("--allow-crossing", action="store_true",
                    help="follow a closed outline that crosses itself (a deliberate figure, with --side on); "
@@ -381,7 +384,7 @@ def _run_options(a) -> dict:
     """The job's options as the user typed them (for :meth:`JobOptions.from_user`)."""
     return dict(
         closed=a.closed, end=a.end, param=a.param, units=a.units, smooth=a.smooth,
-        corner_angle=a.corner_angle, layer=a.layer, machine=a.machine,
+        corner_angle=a.corner_angle, find_arcs=a.find_arcs == "on", layer=a.layer, machine=a.machine,
         tool_diameter=a.tool_diameter, feed=a.feed, accel=a.accel, side=a.side,
         tolerance=a.tolerance, moves=a.moves, depth=a.depth, step_down=a.step_down,
         safe_height=a.safe_height, seam=a.seam, lead=a.lead,

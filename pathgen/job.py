@@ -70,6 +70,7 @@ class JobOptions:
     param: str = "chord"
     smooth: object = "auto"
     corner_angle: float | None = math.radians(DEFAULT_CORNER_ANGLE)
+    find_arcs: bool = True
     layer: str | None = None
     machine: object = None
     accel: float | None = None
@@ -116,7 +117,7 @@ class JobOptions:
 
     @classmethod
     def from_user(cls, points=None, *, units=None, closed=None, end: str = "not-a-knot",
-                  param: str = "chord", smooth="auto", corner_angle=DEFAULT_CORNER_ANGLE, layer=None,
+                  param: str = "chord", smooth="auto", corner_angle=DEFAULT_CORNER_ANGLE, find_arcs=True, layer=None,
                   machine=None, tool_diameter=None, feed=None, accel=None, side: str = "outside",
                   tolerance=None, moves: str = "arcs", depth=None, step_down=None, safe_height=None,
                   seam=None, lead: str = "arc", direction: str = "climb", plunge_feed=None,
@@ -151,6 +152,11 @@ class JobOptions:
             Turning angle (degrees, below 180) above which a point is a
             sharp corner; default 40.  "off" or None: no corners (the same
             meaning as in :func:`pathgen.outline.fit_outline`).
+        find_arcs : bool
+            Points files: find drawn lines and circular arcs in the points
+            (runs of at least 8 points within the points' rounding of one
+            line or circle) and keep them exact (:mod:`pathgen.primitives`);
+            False: fit splines only.
         layer : str or None
             DXF input: the layer holding the outline.
         machine : str, Path, Machine or None
@@ -275,7 +281,7 @@ class JobOptions:
         feed_mm, flutes, chip_mm = _feed_options(feed, flutes, chip_load, spindle_speed, scale)
         return cls(
             units=units, units_given=units_given, closed=closed, end=end, param=param, smooth=smooth_mm,
-            corner_angle=corner, layer=layer, machine=machine, accel=accel_mm, tool_diameter=tool_mm,
+            corner_angle=corner, find_arcs=bool(find_arcs), layer=layer, machine=machine, accel=accel_mm, tool_diameter=tool_mm,
             feed=feed_mm, flutes=flutes, chip_load=chip_mm, spindle_speed=spindle_speed, side=side,
             tolerance=tol_mm, moves=moves,
             depth=_length("depth", depth, scale), step_down=_length("step down", step_down, scale),

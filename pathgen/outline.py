@@ -329,7 +329,7 @@ def _as_outline(outline, closed):
 
 def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
                 corner_angle=DEFAULT_CORNER_ANGLE, corners=None, smooth=None,
-                tangents=None, straight_tol=None, closed=None, noise=None):
+                tangents=None, straight_tol=None, closed=None, noise=None, find_arcs=True):
     """Fit a contour through an outline with corners and straight edges.
 
     Parameters
@@ -365,6 +365,13 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
         For array input only, as in ``clean_points``.
     noise : pathgen.noise.NoiseEstimate or None
         The points' noise, for ``smooth="auto"`` (estimated when None).
+    find_arcs : bool
+        Look for drawn lines and circular arcs in the points
+        (:mod:`pathgen.primitives`): runs of at least 8 points within the
+        points' rounding of one line or circle become exact lines and arcs,
+        the stretches between them splines tangent to them.  Used when at
+        least one arc is found (and, when smoothing, only when no free-form
+        stretch is left); else the fit below is unchanged.  False: never.
 
     Returns
     -------
@@ -461,6 +468,11 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
     if not closed:
         cs = cs[(cs > 0) & (cs < n - 1)]
     cs = np.unique(cs)
+    if find_arcs and corners is None and tan is None and straight_tol is None:
+        found = _lines_and_arcs(o, p, closed, cs, end, mode, smoothing,
+                                {"corner_angle": corner_angle, "smooth": smooth, "noise": noise})
+        if found is not None:
+            return found
     hgl = np.diff(parameters(p, param, closed))  # one step per interval
     facts = {"corner_angle": corner_angle, "smooth": smooth, "smoothing": mode}
     if noise is not None:
@@ -604,6 +616,26 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
                 end="periodic" if closed and len(cs) == 0 else end, param=param)
     return _finish(c, p, closed, corner_breaks, runs, facts,
                    residual[:n] if smoothing else None)
+
+
+def _lines_and_arcs(o, p, closed, cs, end, mode, smoothing, facts):
+    """The contour of recognised lines and arcs (see ``find_arcs``), or None."""
+    from .primitives import MIN_POINTS, find_pieces, pieces_contour, recognition_bound
+
+    if len(p) < MIN_POINTS:
+        return None
+    bound = recognition_bound(p, getattr(o, "quantization", None))
+    start, pieces = find_pieces(p, closed, bound)
+    if not any(x.kind == "arc" for x in pieces):
+        return None
+    if smoothing and any(x.kind == "free" for x in pieces):
+        return None  # free-form stretches of noisy points: smoothed as before
+    c = pieces_contour(p, closed, start, pieces, bound, corners=cs, end=end)
+    info = {k: v for k, v in facts.items() if v is not None or k == "smooth"}
+    info["smoothing"] = "recognised"
+    info["smoothing_asked"] = mode
+    c.info.update(info)
+    return c
 
 
 def _apart(runs):

@@ -270,8 +270,11 @@ def _replay_part(material, tool_mm: float, tol_mm: float, specs=(), plans=(), ou
                 f"internal check failed: the written part program cuts {worst:.6g} mm into the part near "
                 f"({where[0]:.4f}, {where[1]:.4f}) mm at line {line} (tolerance {tol_mm:g} mm); nothing was written")
         k = MM_PER_INCH if units == "inch" else 1.0  # the header speaks the program's units
+        # positional, never exponent notation in a program (a part cut exactly reads 7.7e-05)
+        deepest = np.format_float_positional(round(max(worst, 0.0) / k, 9) + 0.0, precision=6, unique=False,
+                                             fractional=False, trim="-")
         lines = [f"replayed from this text: {moves} cutting blocks below the stock top read back, none enters "
-                 f"the part by more than the tolerance (deepest {max(worst, 0.0) / k:.6g} {units})"]
+                 f"the part by more than the tolerance (deepest {deepest} {units})"]
         if not specs:
             return lines
         facts = replay_part(prog, list(specs), tool_radius=0.5 * float(tool_mm or 0.0), tolerance=tol_mm)
@@ -463,7 +466,7 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
 
     # points files: "auto" (the default) smooths each outline to its own noise
     fit_kw = {"end": opts.end, "param": opts.param, "smooth": opts.smooth,
-              "corner_angle": opts.corner_angle_degrees}
+              "corner_angle": opts.corner_angle_degrees, "find_arcs": opts.find_arcs}
     contours, reports, paths = [], [], []
     for o, s in zip(outlines, side_list):
         try:
@@ -471,6 +474,14 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
                 contours.append(timed("fit", shape_contour, o.shape, tolerance=tol_mm))
             else:
                 contours.append(timed("fit", fit_outline, o.outline, **fit_kw))
+                rec = contours[-1].info.get("recognised")
+                if rec is not None:
+                    from .primitives import describe_counts
+
+                    text = describe_counts(rec["lines"], rec["radii"], scale=scale, decimals=3 if scale == 1 else 4)
+                    steps = [*steps, f"outline {o.number}: {text} recognised in the points"
+                             + (f" ({rec['free']} free-form stretches between them fitted with splines)"
+                                if rec["free"] else "")]
         except InputError as exc:
             raise InputError(f"outline {o.number} ({o.where}): {exc}") from None
     tab_opts = _tab_options(opts.tabs, opts.tab_spacing, opts.tab_width, opts.tab_height, scale, tool_mm,

@@ -369,7 +369,7 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
     noise = timed("noise", estimate_noise, outline.points, outline.closed,
                   quantization=getattr(outline, "quantization", None))
     kw = {"end": o.end, "param": o.param, "smooth": o.smooth, "noise": noise,
-          "corner_angle": o.corner_angle_degrees}
+          "corner_angle": o.corner_angle_degrees, "find_arcs": o.find_arcs}
     contour = timed("fit", fit_outline, outline, **kw)
 
     # -- check -----------------------------------------------------------------

@@ -298,11 +298,30 @@ def test_text_file_of_several_outlines(tmp_path, mode):
     # the four round holes, sampled every 0.1 mm: their radius within 0.001 mm (geometry)
     assert len(holes) == 4
     np.testing.assert_allclose(holes, R_HOLE, rtol=0, atol=1e-3)
-    # fillets between straight edges: an interpolating spline overshoots the
-    # curvature where it jumps from 0 to 1/R, so the radius reads smaller
-    # than drawn (safe side), never larger
-    for rep, lev in zip(res.reports, res.levels):
+    # the lines and arcs in the points are recognised (the outline's fillets between
+    # straight edges would read about R6.93 from an interpolating spline)
+    outer = [c for c, lev in zip(res.contours, res.levels) if lev == 0][0]
+    rec = outer.info["recognised"]
+    assert rec["text"] == "4 lines, 4 arcs R8.000" and rec["free"] == 0
+    assert any("outline 1: 4 lines, 4 arcs R8.000 recognised in the points" in s for s in res.report.steps)
+    # each fillet R8 and each hole R4 within 0.001 mm: the smallest and the largest radius of
+    # curvature on every arc of the contour (geometry: the drawn radii)
+    for c in res.contours:
+        s = np.linspace(*c.domain, 100001)
+        k = np.abs(c.curvature(s))
+        on_arc = k > 1e-6
+        np.testing.assert_allclose(1.0 / k[on_arc].max(), 1.0 / k[on_arc].min(), rtol=0, atol=1e-3)
+        want = R_HOLE if abs(abs(c.area) - math.pi * R_HOLE**2) < 1.0 else 5.0 if abs(c.area) < 1000 else R_OUT
+        assert abs(1.0 / k[on_arc].max() - want) <= 1e-3 and abs(1.0 / k[on_arc].min() - want) <= 1e-3
+    # the sampled rounded rectangle: area W·H − (4 − π)·r² and perimeter 2(W + H) − (8 − 2π)·r
+    # (geometry), within 1e-6 mm² and 1e-6 mm (points at 9 decimals; measured 2e-8 and 3e-9)
+    assert abs(abs(outer.area) - (W * H - (4 - math.pi) * R_OUT**2)) <= 1e-6
+    assert abs(outer.length - (2 * (W + H) - (8 - 2 * math.pi) * R_OUT)) <= 1e-6
+    # switched off, the spline reads the fillets smaller than drawn (safe side), never larger
+    off = run(path, tool_diameter=6.0, find_arcs=False)
+    for rep, lev in zip(off.reports, off.levels):
         assert rep.min_radius.radius <= (R_OUT if lev == 0 else 5.0) + 1e-3
+    assert min(r.min_radius.radius for r, lev in zip(off.reports, off.levels) if lev == 0) < R_OUT - 0.5
 
 
 def test_bad_outline_column_names_the_line(tmp_path):
@@ -338,6 +357,8 @@ def test_plate_program_cuts_each_outline_once_on_its_side_holes_first(tmp_path, 
     res = run(path, tool_diameter=TOOL, depth=3.0, step_down=1.5, gcode=tmp_path / "plate.nc",
               report=tmp_path / "plate.report.json")
     prog = read_gcode((tmp_path / "plate.nc").read_text())
+    # no exponent notation anywhere in the program, comments included (an exact cut's tiny figures)
+    assert not re.search(r"[0-9][eE][-+]?[0-9]", (tmp_path / "plate.nc").read_text())
     outer, inner = plate_polygons()
     material = outer
     for h in inner:

@@ -42,7 +42,7 @@ def test_readme_and_help_carry_the_caution():
 # is no exception: the plain model of moves lives in the first stage.
 _STAGES = [
     {"errors", "_options", "_version", "geometry", "moves"},
-    {"spline", "points", "outline", "smooth", "noise", "simple", "drawing", "part"},
+    {"spline", "points", "outline", "smooth", "noise", "simple", "drawing", "part", "primitives"},
     {"checks"},
     {"path"},
     {"export", "verify"},

@@ -131,7 +131,8 @@ def test_foot_distances_against_circle():
     # points at known distance from a circle of radius 10 (handbook: |r - R|)
     th = np.linspace(0, 2 * np.pi, 200, endpoint=False)
     circ = np.c_[10 * np.cos(th), 10 * np.sin(th)]
-    c = fit_outline(circ, closed=True)
+    # the spline fit (an exact circle would be recognised as one arc, not one break per point)
+    c = fit_outline(circ, closed=True, find_arcs=False)
     offs = np.linspace(-0.3, 0.3, 200)
     p = circ * (1 + offs / 10)[:, None]
     # shift the starting parameter a little: Newton must find the foot point

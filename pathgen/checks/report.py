@@ -493,6 +493,10 @@ def fit_facts(contour) -> dict | None:
     out = {"smoothing": info["smoothing"], "tolerance": info.get("smooth"),
            "max_residual": info.get("max_residual"), "rms_residual": info.get("rms_residual"),
            "sigma_used": info.get("sigma"), "dof": info.get("dof"), "dof_error": info.get("dof_error")}
+    if "recognised" in info:
+        rec = info["recognised"]
+        out["recognised"] = {"lines": rec["lines"], "arcs": rec["arcs"], "free": rec["free"],
+                             "radii": list(rec["radii"]), "bound": rec["bound"], "text": rec["text"]}
     est = info.get("noise")
     if est is not None:
         out.update(points=est.points, spacing_median=est.spacing_median,
@@ -581,6 +585,8 @@ def _fit_dict(fit, k):
     for key, v in sorted(fit.items()):
         if key in _FIT_LENGTHS:
             out[key] = _num(v, k)
+        elif key == "recognised":  # lines and arcs found in the points: radii and bound are lengths
+            out[key] = {**v, "radii": [_num(r, k) for r in v["radii"]], "bound": _num(v["bound"], k)}
         elif isinstance(v, float):
             out[key] = _num(v)
         else:
@@ -608,6 +614,17 @@ def _fit_lines(fit, k, u) -> list:
     elif mode == "none":
         lines.append("fit: exact interpolation (the points are clean: their noise cannot fake "
                      "the curvature)")
+    elif mode == "recognised":
+        rec = fit.get("recognised") or {}
+        free = rec.get("free", 0)
+        from ..primitives import describe_counts
+
+        text = describe_counts(rec.get("lines", 0), rec.get("radii", []), scale=1.0 / k,
+                               decimals=3 if u == "mm" else 4)
+        lines.append(f"fit: lines and arcs recognised in the points ({text}"
+                     + (f"; {free} free-form stretch{'es' if free != 1 else ''} fitted with splines" if free else "")
+                     + f"): {within}, bound {_g(rec.get('bound', 0.0), k)} {u} (the points' rounding); "
+                     "spline only: --find-arcs off")
     else:
         warn = ""
         if fakes:
