@@ -246,7 +246,7 @@ def _piece_moments(t, y, start, stop):
     Full (n+1)-row tridiagonal system; not-a-knot rows are made tridiagonal
     by eliminating M_2 (M_{n-2}) with the neighbouring interior row.
     """
-    from scipy.linalg.lapack import dgtsv
+    from .spline import tridiag_solve
 
     h = np.diff(t)
     n = len(h)
@@ -298,10 +298,9 @@ def _piece_moments(t, y, start, stop):
             else:
                 dl[-1] = 1.0
                 b[row] = 6.0 / h0 * (v - s)
-    _, _, _, M, info = dgtsv(dl, d, du, b)
-    if info != 0:  # pragma: no cover - guarded by distinct points
-        raise InputError(f"a piece of the outline could not be fitted (LAPACK info={info})")
-    return M
+    # LAPACK's dgtsv, or for small pieces its own steps in Python (the same
+    # numbers, without importing scipy.linalg)
+    return tridiag_solve(dl, d, du, b, stepwise=True)
 
 
 def _line_coefficients(t, y) -> np.ndarray:

@@ -190,7 +190,7 @@ def gouges(samples, d: float) -> np.ndarray:
     within r.  The contour points used are at most r/32 apart, so gouges
     shallower than about (r/32)²/(8r) ≈ r/8000 can slip through.
     """
-    from scipy.spatial import cKDTree
+    from ..geometry import nearest_distance
 
     S = samples
     r = abs(d)
@@ -209,7 +209,7 @@ def gouges(samples, d: float) -> np.ndarray:
     # positions gouges when either of them does
     step = max(1, int((r / 256.0) / max(spacing, 1e-300)))
     tested = np.r_[np.arange(0, len(S), step), len(S) - 1] if step > 1 else np.arange(len(S))
-    dist, _ = cKDTree(ref).query(centers[tested], k=1, distance_upper_bound=bound)
+    dist = nearest_distance(ref, centers[tested], bound)  # numpy when small, else a KD-tree
     hit = dist < bound
     if step == 1:
         return hit
