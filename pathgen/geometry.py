@@ -137,7 +137,8 @@ def nearest_distance(ref, query, bound: float = np.inf) -> np.ndarray:
             dx = q[:, 0:1] - rx
             dy = q[:, 1:2] - ry
             out[i:i + chunk] = np.sqrt((dx * dx + dy * dy).min(axis=1))
-    elif m and k and np.isfinite(bound) and bound > 0 and m + k <= GRID_MAX_POINTS:
+    elif m and k and np.isfinite(bound) and bound > 0 and m + k <= GRID_MAX_POINTS \
+            and float(np.ptp(ref, axis=0).max()) < 1e9 * bound:  # cell numbers fit the integers
         out = _grid_nearest(ref, query, float(bound))
     if out is None:
         from scipy.spatial import cKDTree

@@ -231,3 +231,18 @@ def test_a_spike_on_one_short_piece_of_a_long_move_is_measured():
                   b[:1].copy(), b[-1:].copy())
     (dev,) = chain_deviation(contour, 0.0, chain, 0.01)
     assert dev >= 0.05
+
+
+def test_nearest_distance_with_a_tiny_bound_matches_the_kd_tree():
+    # A bound far below the points' spread (a tool of 1e-289 mm, found by a
+    # random search) must not make grid cells beyond the integers.
+    from scipy.spatial import cKDTree
+
+    rng = np.random.default_rng(5)
+    ref = rng.normal(size=(3000, 2)) * 50
+    query = np.vstack([ref[:10], rng.normal(size=(2000, 2)) * 50])
+    for bound in (4.6e-289, 1e-12):
+        want = cKDTree(ref).query(query, k=1, distance_upper_bound=bound)[0]
+        with np.errstate(all="raise"):
+            got = nearest_distance(ref, query, bound)
+        np.testing.assert_array_equal(got, want)
