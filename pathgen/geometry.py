@@ -24,7 +24,7 @@ from __future__ import annotations
 import numpy as np
 
 __all__ = ["left", "dot", "curvature", "turn_angle", "arc_sweep", "arc_geometry", "angle_along_arc",
-           "shoelace_area", "orientation", "FULL_TURN_EPS"]
+           "shoelace_area", "orientation", "FULL_TURN_EPS", "nearest_distance"]
 
 #: An arc whose start and end angles differ by at most this (rad) is a full
 #: turn, not a move of no length.
@@ -133,3 +133,94 @@ def shoelace_area(points) -> float:
 def orientation(points) -> int:
     """+1 for a counter-clockwise closed polygon, -1 for a clockwise one."""
     return 1 if shoelace_area(points) >= 0 else -1
+
+
+#: Nearest-point questions with at most this many point pairs are answered
+#: by brute force in numpy; with a finite bound, by numpy on a grid of cells
+#: as wide as the bound while the pairs it compares stay under
+#: :data:`GRID_PAIRS`; otherwise by a KD-tree (scipy.spatial, which takes
+#: about 0.3 s to import: worth it only for large questions).
+BRUTE_PAIRS = 2_000_000
+GRID_PAIRS = 20_000_000
+GRID_MAX_POINTS = 200_000
+
+
+def nearest_distance(ref, query, bound: float = np.inf) -> np.ndarray:
+    """Distance (mm) from each ``query`` point (k, 2) to the nearest ``ref``
+    point (m, 2); ``inf`` where none lies closer than ``bound``.
+
+    The answer of ``scipy.spatial.cKDTree(ref).query(query, k=1,
+    distance_upper_bound=bound)[0]``, the same numbers: by brute force in
+    numpy when m·k ≤ :data:`BRUTE_PAIRS`; with a finite bound and up to
+    :data:`GRID_MAX_POINTS` points, on a grid of square cells of side
+    ``bound`` (every point closer than the bound lies in the query's cell or
+    one of its 8 neighbours); else by that KD-tree.
+
+    >>> nearest_distance(np.array([[0.0, 0.0], [3.0, 0.0]]), np.array([[0.0, 4.0], [9.0, 0.0]]), 5.5)
+    array([ 4., inf])
+    """
+    ref = np.asarray(ref, dtype=np.float64).reshape(-1, 2)
+    query = np.asarray(query, dtype=np.float64).reshape(-1, 2)
+    m, k = len(ref), len(query)
+    out = None
+    if m and k and m * k <= BRUTE_PAIRS:
+        out = np.empty(k)
+        chunk = max(1, BRUTE_PAIRS // (8 * m))  # rows of query per pass: a few MB
+        rx, ry = ref[:, 0], ref[:, 1]
+        for i in range(0, k, chunk):
+            q = query[i:i + chunk]
+            dx = q[:, 0:1] - rx
+            dy = q[:, 1:2] - ry
+            out[i:i + chunk] = np.sqrt((dx * dx + dy * dy).min(axis=1))
+    elif m and k and np.isfinite(bound) and bound > 0 and m + k <= GRID_MAX_POINTS \
+            and float(np.ptp(ref, axis=0).max()) < 1e9 * bound:  # cell numbers fit the integers
+        out = _grid_nearest(ref, query, float(bound))
+    if out is None:
+        from scipy.spatial import cKDTree
+
+        return cKDTree(ref).query(query, k=1, distance_upper_bound=bound)[0]
+    out[out >= bound] = np.inf  # as the tree: only points strictly closer count
+    return out
+
+
+def _grid_nearest(ref, query, bound):
+    """:func:`nearest_distance` on a grid of cells of side ``bound``; None
+    when the cells are so crowded that the pairs exceed :data:`GRID_PAIRS`."""
+    lo = ref.min(axis=0) - bound
+    cr = np.floor((ref - lo) / bound).astype(np.int64)  # >= 1
+    width = int(cr[:, 1].max()) + 3
+    key = cr[:, 0] * width + cr[:, 1]
+    order = np.argsort(key, kind="stable")
+    skey = key[order]
+    rs = ref[order]
+    cq = np.floor((query - lo) / bound)
+    inside = (cq[:, 0] >= 0) & (cq[:, 0] <= cr[:, 0].max() + 1) & (cq[:, 1] >= 0) & (cq[:, 1] < width - 1)
+    qi = np.flatnonzero(inside)
+    cq = cq[qi].astype(np.int64)
+    runs = []
+    total = 0
+    for dx in (-1, 0, 1):
+        for dy in (-1, 0, 1):
+            qk = (cq[:, 0] + dx) * width + (cq[:, 1] + dy)
+            a = np.searchsorted(skey, qk, "left")
+            b = np.searchsorted(skey, qk, "right")
+            total += int((b - a).sum())
+            if total > GRID_PAIRS:
+                return None
+            runs.append((a, b - a))
+    best = np.full(len(qi), np.inf)
+    for a, cnt in runs:
+        has = cnt > 0
+        if not has.any():
+            continue
+        a, cnt = a[has], cnt[has]
+        first = np.cumsum(cnt) - cnt
+        j = np.arange(int(cnt.sum())) - np.repeat(first - a, cnt)  # index into rs
+        q = np.repeat(query[qi[has]], cnt, axis=0)
+        dx = q[:, 0] - rs[j, 0]
+        dy = q[:, 1] - rs[j, 1]
+        d2 = np.minimum.reduceat(dx * dx + dy * dy, first)
+        best[has] = np.minimum(best[has], d2)
+    out = np.full(len(query), np.inf)
+    out[qi] = np.sqrt(best)
+    return out

@@ -299,7 +299,9 @@ def _piece_moments(t, y, start, stop):
             else:
                 dl[-1] = 1.0
                 b[row] = 6.0 / h0 * (v - s)
-    return tridiag_solve(dl, d, du, b)
+    # LAPACK's dgtsv, or for small pieces its own steps in Python (the same
+    # numbers, without importing scipy.linalg)
+    return tridiag_solve(dl, d, du, b, stepwise=True)
 
 
 def _line_coefficients(t, y) -> np.ndarray:

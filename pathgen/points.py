@@ -615,7 +615,7 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
             odd_step(crowded, i, f"only {d[i]:.4g} mm", f"1/{med / d[i]:.0f} of", "pairs",
                      "a curve through two points this close swings wide when they disagree "
                      "(a repeated reading?): drop one, or smooth (--smooth)")
-    if closed and check_crossing and len(p) >= 4:
+    if closed and check_crossing and len(p) >= 4 and not _clearly_simple(p):
         import shapely
 
         if not shapely.is_simple(shapely.linearrings(p)):
@@ -623,6 +623,63 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
     return Outline(points=p, closed=closed, source=source, units=units,
                    steps=tuple(steps), warnings=tuple(warnings), line_numbers=nums,
                    quantization=quantization)
+
+
+#: Closed outlines of at most this many points are first tested for
+#: crossings in numpy (all pairs of edges, a few milliseconds), so a small
+#: job does not import shapely (about 0.2 s).
+SIMPLE_MAX_POINTS = 400
+
+
+def _clearly_simple(p) -> bool:
+    """True when no two edges of the closed polygon ``p`` (n, 2) can meet,
+    with a margin far above rounding; False when some might (then GEOS
+    decides), and for polygons of more than :data:`SIMPLE_MAX_POINTS` points.
+
+    Two edges are apart when both ends of one lie strictly on one side of
+    the other's line (orientation signs, common practice), or when both lie
+    on one line and their spans along it do not meet; two neighbouring
+    edges are apart unless the outline doubles back along itself.
+    """
+    n = len(p)
+    if n > SIMPLE_MAX_POINTS:
+        return False
+    a = p - p.mean(axis=0)
+    b = np.roll(a, -1, axis=0)
+    e = b - a
+    span = float(np.abs(a).max())
+    eps = 1e-9 * span * span  # orientations smaller than this are too close to call
+
+    def cross(u, v):
+        return u[..., 0] * v[..., 1] - u[..., 1] * v[..., 0]
+
+    # neighbours: edge i and i+1 share a point; they overlap only when folding back
+    en = np.roll(e, -1, axis=0)
+    if np.any((np.abs(cross(e, en)) <= eps) & ((e * en).sum(axis=1) <= 0)):
+        return False
+    # every pair at once, on (n, n) grids: row i is edge i, column j edge j
+    ax, ay, ex, ey = a[:, 0], a[:, 1], e[:, 0], e[:, 1]
+    bx, by = b[:, 0], b[:, 1]
+
+    def side(k_ex, k_ey, k_ax, k_ay, px, py):  # of points (columns) to edge lines (rows)
+        return k_ex[:, None] * (py[None, :] - k_ay[:, None]) - k_ey[:, None] * (px[None, :] - k_ax[:, None])
+
+    o1, o2 = side(ex, ey, ax, ay, ax, ay), side(ex, ey, ax, ay, bx, by)  # edge j's ends to line i
+    clear = (o1 * o2 > 0) & (np.abs(o1) > eps) & (np.abs(o2) > eps)  # [i, j]: j's ends on one side of i
+    # edges on one line (straight runs): apart when their spans along it do not meet
+    on_line = (np.abs(o1) <= eps) & (np.abs(o2) <= eps)
+    if on_line.any():
+        def along(px, py):  # of points (columns) along edge i's direction, from its start
+            return ex[:, None] * (px[None, :] - ax[:, None]) + ey[:, None] * (py[None, :] - ay[:, None])
+
+        t0, t1 = along(ax, ay), along(bx, by)
+        length2 = (ex * ex + ey * ey)[:, None]
+        clear |= on_line & ((np.maximum(t0, t1) < -eps) | (np.minimum(t0, t1) > length2 + eps))
+    apart = clear | clear.T
+    idx = np.arange(n)
+    far = np.abs(idx[:, None] - idx[None, :]) >= 2
+    far[0, n - 1] = far[n - 1, 0] = False  # the first and last edges are neighbours too
+    return bool(apart[far].all())
 
 
 def _merge_repeats(p, tol):

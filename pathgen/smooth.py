@@ -35,6 +35,7 @@ import math
 import numpy as np
 
 from .errors import InputError
+from .spline import DENSE_MAX  # systems up to this size: solved without scipy.linalg
 from .spline import power_form  # the one home of moments → coefficients (re-exported)
 
 __all__ = ["smoothing_spline", "fit_within", "fit_noise", "foot_distances", "power_form"]
@@ -144,17 +145,59 @@ def _q_apply(S, gamma):
     return out
 
 
+def _penta_steps(a, e, f, b) -> np.ndarray:
+    """Solve the symmetric positive definite pentadiagonal system with
+    diagonal ``a`` (m), first off-diagonal ``e`` (m-1) and second ``f``
+    (m-2) for ``b`` (m, k): LDLᵀ factors, then forward and back
+    substitution, in Python floats (Golub & Van Loan, Matrix Computations,
+    4th ed., 2013, §4.3, band LDLᵀ)."""
+    a, e, f = a.tolist(), e.tolist(), f.tolist()
+    m = len(a)
+    D = [0.0] * m
+    l1 = [0.0] * m  # L[i+1, i]
+    l2 = [0.0] * m  # L[i+2, i]
+    for i in range(m):
+        di = a[i]
+        if i >= 1:
+            di -= l1[i - 1] * l1[i - 1] * D[i - 1]
+        if i >= 2:
+            di -= l2[i - 2] * l2[i - 2] * D[i - 2]
+        D[i] = di
+        if i + 1 < m:
+            ei = e[i]
+            if i >= 1:
+                ei -= l2[i - 1] * D[i - 1] * l1[i - 1]
+            l1[i] = ei / di
+        if i + 2 < m:
+            l2[i] = f[i] / di
+    out = np.empty(b.shape)
+    for j in range(b.shape[1]):
+        z = b[:, j].tolist()
+        for i in range(1, m):
+            z[i] -= l1[i - 1] * z[i - 1]
+            if i >= 2:
+                z[i] -= l2[i - 2] * z[i - 2]
+        x = [zi / di for zi, di in zip(z, D)]
+        for i in range(m - 2, -1, -1):
+            x[i] -= l1[i] * x[i + 1]
+            if i + 2 < m:
+                x[i] -= l2[i] * x[i + 2]
+        out[:, j] = x
+    return out
+
+
 def _solve(S, lam, y, rhs=None):
     """γ solving (R + λ QᵀW⁻¹Q) γ = Qᵀ y (or = rhs), in O(n).
 
-    The matrix is pentadiagonal (LAPACK's banded solver); a periodic one
+    The matrix is pentadiagonal and positive definite.  Up to
+    :data:`DENSE_MAX` rows: LDLᵀ steps in Python (:func:`_penta_steps`), a
+    periodic one bordered by its last two unknowns.  Larger: LAPACK's banded
+    solver; a periodic one
     also has entries in its corners, taken care of by the Woodbury
     identity: with B the band and A = B + U Vᵀ (V picks the columns 0, 1,
     m-2, m-1 holding the corner entries), A⁻¹r = B⁻¹r − Z (I + VᵀZ)⁻¹ Vᵀ B⁻¹r,
     Z = B⁻¹U.
     """
-    from scipy.linalg import solve_banded
-
     m = S.m
     d0 = S.r0 + lam * S.q0
     d1 = S.r1 + lam * S.q1
@@ -170,6 +213,27 @@ def _solve(S, lam, y, rhs=None):
             A[j, (j + 2) % m] += d2[j]
             A[(j + 2) % m, j] += d2[j]
         return np.linalg.solve(A, b)
+    if m <= DENSE_MAX:
+        # small systems: the matrix is symmetric positive definite, so its
+        # LDLᵀ factors need no pivoting; stepwise in Python floats (about a
+        # millisecond), so a small job does not import scipy.linalg
+        if not S.periodic:
+            return _penta_steps(d0, d1[: m - 1], d2[: m - 2], b)
+        # periodic: the last two unknowns form a border around a pentadiagonal
+        # block (positive definite as a principal block of one); 2×2 Schur complement
+        p = m - 2
+        C = np.zeros((p, 2))
+        C[0, 0], C[0, 1], C[1, 1] = d2[m - 2], d1[m - 1], d2[m - 1]  # the corner entries
+        C[p - 2, 0] += d2[p - 2]
+        C[p - 1, 0] += d1[p - 1]
+        C[p - 1, 1] += d2[p - 1]
+        E = np.array([[d0[p], d1[p]], [d1[p], d0[p + 1]]])
+        Y = _penta_steps(d0[:p], d1[: p - 1], d2[: p - 2], np.hstack([b[:p], C]))
+        Yb, Yc = Y[:, : b.shape[1]], Y[:, b.shape[1]:]
+        x2 = np.linalg.solve(E - C.T @ Yc, b[p:] - C.T @ Yb)
+        return np.vstack([Yb - Yc @ x2, x2])
+    from scipy.linalg import solve_banded
+
     ab = np.zeros((5, m))
     ab[0, 2:] = d2[: m - 2]
     ab[1, 1:] = d1[: m - 1]

@@ -118,18 +118,23 @@ def _cancel_wiggles(S, s, before, after, corner_count, min_bow):
     # the seam to the first on a closed contour; open contours have none)
     a = after.astype(np.int64)
     b = np.r_[before[1:], before[:1]].astype(np.int64)
+    # every stretch at once: the peak |κ| over samples lo..hi (one reduceat
+    # over the pairs (lo, hi + 1)), its corners and its length
+    m = k if S.closed else k - 1
+    lo, hi = a[:m], b[:m]
+    plain = lo <= hi
     small = np.zeros(k, bool)
-    for i in range(k if S.closed else k - 1):
-        lo, hi = int(a[i]), int(b[i])
-        if lo <= hi:
-            peak = kabs[lo:hi + 1].max()
-            corners = corner_count[hi + 1] - corner_count[lo]
-            span = s[i + 1] - s[i] if i + 1 < k else S.length + s[0] - s[i]
-        else:  # round the seam
-            peak = max(kabs[lo:].max(), kabs[:hi + 1].max())
-            corners = corner_count[n] - corner_count[lo] + corner_count[hi + 1]
-            span = S.length + s[(i + 1) % k] - s[i]
-        small[i] = corners == 0 and peak * span * span / 8.0 < min_bow
+    span = np.r_[np.diff(s), S.length + s[0] - s[-1]][:m]
+    peak = np.zeros(m)
+    if plain.any():
+        bounds = np.column_stack([lo[plain], hi[plain] + 1]).ravel()
+        peak[plain] = np.maximum.reduceat(np.r_[kabs, 0.0], bounds)[0::2]
+    corners = corner_count[hi + 1] - corner_count[lo]
+    for i in np.flatnonzero(~plain):  # round the seam (at most one on a closed contour)
+        peak[i] = max(kabs[lo[i]:].max(), kabs[:hi[i] + 1].max())
+        corners[i] = corner_count[n] - corner_count[lo[i]] + corner_count[hi[i] + 1]
+        span[i] = S.length + s[(i + 1) % k] - s[i]
+    small[:m] = (corners == 0) & (peak * span * span / 8.0 < min_bow)
     if not small.any():
         return s
     if S.closed:
@@ -190,7 +195,7 @@ def gouges(samples, d: float) -> np.ndarray:
     within r.  The contour points used are at most r/32 apart, so gouges
     shallower than about (r/32)²/(8r) ≈ r/8000 can slip through.
     """
-    from scipy.spatial import cKDTree
+    from ..geometry import nearest_distance
 
     S = samples
     r = abs(d)
@@ -209,7 +214,7 @@ def gouges(samples, d: float) -> np.ndarray:
     # positions gouges when either of them does
     step = max(1, int((r / 256.0) / max(spacing, 1e-300)))
     tested = np.r_[np.arange(0, len(S), step), len(S) - 1] if step > 1 else np.arange(len(S))
-    dist, _ = cKDTree(ref).query(centers[tested], k=1, distance_upper_bound=bound)
+    dist = nearest_distance(ref, centers[tested], bound)  # numpy when small, else a KD-tree
     hit = dist < bound
     if step == 1:
         return hit

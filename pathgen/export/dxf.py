@@ -305,6 +305,7 @@ def _build(contour, points, toolpath, arcs, report, units):
     # control_points builds a Vec3 per point first: 1.5 s at 10^6 points)
     spline.control_points.set(np.column_stack([cp * k, np.zeros(len(cp))]))
     spline.knots = (knots - knots[0]).tolist()
+    _write_in_bulk(spline)
     count += len(cp)
 
     x0, y0, x1, y1 = contour.bbox
@@ -343,6 +344,44 @@ def _build(contour, points, toolpath, arcs, report, units):
         dxfattribs={"layer": "NOTES", "insert": (left, bottom - 4 * height)},
     )
     return doc, count, notes
+
+
+def _write_in_bulk(spline) -> None:
+    """Let ``spline`` write its knots and control points as one string.
+
+    ezdxf writes a SPLINE's data one tag at a time (about 4·10^6 calls of
+    the tag writer at 10^6 control points); this writes the same tags, the
+    same text (each value as ``str`` of its float, as ezdxf's tag format
+    does), in bulk.  Other writers (binary DXF) and splines with weights or
+    fit points take ezdxf's own way.  Tested byte for byte against it.
+    """
+    from ezdxf.entities import Spline
+    from ezdxf.lldxf.tagwriter import TagWriter
+
+    def export_spline_data(tagwriter):
+        if type(tagwriter) is not TagWriter or len(spline.weights) or len(spline.fit_points):
+            return Spline.export_spline_data(spline, tagwriter)
+        knots = np.asarray(spline.knots, np.float64).tolist()
+        if knots:
+            tagwriter.write_str(" 40\n" + "\n 40\n".join(map(str, knots)) + "\n")
+        cv = np.asarray(spline.control_points.values, np.float64).reshape(-1, 3)
+        n = len(cv)
+        if n == 0:
+            return
+        parts = [""] * (6 * n)  # code, value, code, value, code, value per point
+        parts[0::6] = ["\n 10\n"] * n
+        parts[0] = " 10\n"
+        parts[2::6] = ["\n 20\n"] * n
+        parts[4::6] = ["\n 30\n"] * n
+        for i in range(3):
+            col = cv[:, i]
+            if not np.any(col) and not np.any(np.signbit(col)):  # all +0.0 (the z column)
+                parts[2 * i + 1::6] = [str(0.0)] * n
+            else:
+                parts[2 * i + 1::6] = map(str, col.tolist())
+        tagwriter.write_str("".join(parts) + "\n")
+
+    spline.export_spline_data = export_spline_data
 
 
 def write_dxf(path, contour, *, points=None, toolpath=None, arcs=None, report=None,

@@ -252,7 +252,9 @@ def _sample_counts(contour, chain: Chain, tol: float, density: int = 1) -> np.nd
         pieces = np.ceil((t1 - t0) / period * (len(b) - 1))
     else:
         pieces = np.searchsorted(b, t1) - np.searchsorted(b, t0)
-    counts = np.maximum(counts, np.minimum(pieces + 2, 20000).astype(np.int64))
+    # (no cap: a cap of 20 000 dropped this promise for moves over more
+    # pieces, at about 10^6 points; the samples follow the pieces there)
+    counts = np.maximum(counts, (pieces + 2).astype(np.int64))
     return counts if density == 1 else (counts - 1) * int(density) + 1
 
 
