@@ -160,3 +160,28 @@ def test_pocket_with_a_neck_wider_than_the_tool_is_one_loop():
     assert _distance(path, ring).max() <= TOL + SLACK
     dense = np.asarray(shapely.segmentize(shapely.LinearRing(ring), 0.02).coords)
     assert _distance(dense, np.vstack([path, path[:1]])).max() <= TOL + SLACK
+
+
+@pytest.mark.parametrize("gap", [2.0, 5.0])
+def test_largest_tool_counts_a_narrow_mouth_as_well_as_a_bend(gap):
+    # The clip's lips are ``gap`` apart: a tool reaches their faces only if
+    # it fits between them.  Reference: the morphological opening (shapely:
+    # shrink by r, grow by r) keeps every point of the outline's outside
+    # exactly when a tool of radius r reaches all of it; just under the
+    # stated diameter it does, just over it the lips' faces are lost
+    # (sources: shapely).  The outline's tightest bend toward the tool is
+    # R 12 (the inner circle), so without the mouth the answer would be 24.
+    from pathgen import check
+
+    contour = fit_outline(clean_points(_c_shape(gap), closed=True))
+    big = check(contour, tool=Tool(1.0), cut=Cut(side="outside", tolerance=TOL)).largest_tool_diameter
+    assert big == pytest.approx(gap, abs=0.02)
+    outside = shapely.box(-40, -40, 40, 40).difference(_outline_polygon(contour))
+
+    def lost(r):  # how far the opened outside falls short of the outline
+        opened = outside.buffer(-r, quad_segs=32).buffer(r, quad_segs=32)
+        near = shapely.Point(0, 0).buffer(30.0)  # the box's own corners are no concern
+        return outside.difference(opened).intersection(near).area
+
+    assert lost(0.49 * big) < 0.05
+    assert lost(0.51 * big + 0.02) > 1.0

@@ -11,6 +11,8 @@ cannot be reached by any tool of radius r > 0.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 __all__ = ["radius_extremes", "inflections", "largest_tool_diameter", "gouges", "material_left"]
@@ -169,11 +171,24 @@ def _cancel_wiggles(S, s, before, after, corner_count, min_bow):
 def largest_tool_diameter(samples, sign: int):
     """Largest tool diameter (mm) that reaches everywhere on the side ``sign``.
 
-    Twice the smallest radius of the stretches that bend toward the tool
-    (side_sign·κ > 0); 0 when a sharp corner turns toward the tool; None
-    when nothing bends toward the tool (any tool reaches), or ``sign`` = 0
-    (cutting on the line).  A tool of exactly this diameter touches the
-    tightest spot with no margin: pick a smaller one.
+    A tool of radius r touches the contour at P exactly when the disc of
+    radius r tangent at P on the tool's side stays clear of the contour,
+    i.e. r is at most the radius of the largest such disc,
+    ρ(P) = min over contour points Q on that side of |Q − P|² / (2 (Q − P)·n)
+    (n the unit normal toward the tool; the circle through Q tangent at P).
+    As Q → P this is the radius of curvature; a far Q gives the half-width
+    of a gap or neck.  The answer is 2 · min ρ, so a slot or a pocket's neck
+    narrower than the tool counts as well as a tight bend: twice the
+    smallest radius of the stretches that bend toward the tool, or the
+    narrowest gap, whichever is smaller.  0 when a sharp corner turns
+    toward the tool; None when nothing bends toward the tool and no gap
+    closes on it (any tool reaches), or ``sign`` = 0 (cutting on the line).
+
+    Gaps are measured between samples of the contour (pairs searched on at
+    most 3000 of them, then refined on all samples near the narrowest pairs),
+    so a gap reads at most about a sample spacing's sagitta wide of its true
+    width.  A tool of exactly this diameter touches with no margin: pick a
+    smaller one.
     """
     if sign == 0:
         return None
@@ -182,7 +197,60 @@ def largest_tool_diameter(samples, sign: int):
         return 0.0
     q = sign * S.kappa
     qmax = float(q.max()) if len(q) else 0.0
-    return 2.0 / qmax if qmax > 0 else None
+    bend = 2.0 / qmax if qmax > 0 else math.inf
+    gap = 2.0 * _narrowest_disc(S, sign)
+    best = min(bend, gap)
+    return best if math.isfinite(best) else None
+
+
+def _disc_radii(p, n, q, sp, sq, length, closed, skip):
+    """ρ for each point p (k, 2) with unit normal n toward the tool, against
+    the points q (m, 2): min |Q − P|² / (2 (Q − P)·n) over Q ahead of P.
+    ``sp``, ``sq``: their arc lengths; points within ``skip`` of P along the
+    contour (wrapped when ``closed``) are left out: they measure the
+    curvature, which the caller counts exactly."""
+    out = np.full(len(p), np.inf)
+    for a in range(0, len(p), 256):
+        dx = q[None, :, 0] - p[a:a + 256, None, 0]
+        dy = q[None, :, 1] - p[a:a + 256, None, 1]
+        ahead = dx * n[a:a + 256, None, 0] + dy * n[a:a + 256, None, 1]
+        ds = np.abs(sq[None, :] - sp[a:a + 256, None])
+        if closed:
+            ds = np.minimum(ds, length - ds)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            rho = np.where((ahead > 0) & (ds > skip), (dx * dx + dy * dy) / (2 * ahead), np.inf)
+        out[a:a + 256] = rho.min(axis=1)
+    return out
+
+
+def _narrowest_disc(S, sign, most: int = 3000) -> float:
+    """Smallest ρ (see :func:`largest_tool_diameter`) over the samples, from
+    contour points more than two sample spacings apart along the contour
+    (closer ones measure the curvature, which is counted exactly)."""
+    n_all = len(S.xy)
+    if n_all < 4 or not S.length > 0:
+        return math.inf
+    normal = sign * np.stack([-S.tangent[:, 1], S.tangent[:, 0]], axis=1)
+    step = max(1, -(-n_all // most))
+    sub = np.arange(0, n_all, step)
+    skip = 2.0 * S.length / len(sub)
+    args = (S.length, S.closed, skip)
+    rho = _disc_radii(S.xy[sub], normal[sub], S.xy[sub], S.s[sub], S.s[sub], *args)
+    if not np.isfinite(rho).any():
+        return math.inf
+    best = float(rho.min())
+    if step == 1:
+        return best
+    # refine near the narrowest pairs on every sample
+    for k in np.argsort(rho)[:8]:
+        if not np.isfinite(rho[k]):
+            break
+        i = int(sub[k])
+        win = np.arange(i - step, i + step + 1)
+        win = win % n_all if S.closed else win[(win >= 0) & (win < n_all)]
+        r = _disc_radii(S.xy[win], normal[win], S.xy, S.s[win], S.s, *args)
+        best = min(best, float(r.min()))
+    return best
 
 
 def gouges(samples, d: float) -> np.ndarray:

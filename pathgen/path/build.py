@@ -541,7 +541,7 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     chain, trims = assemble(contour, parts, joins, d, tol, closed=contour.closed)
     if contour.closed and trims and cut.side in ("inside", "outside"):
         # trimmed at an overlap: is it a swallow-tail, or a whole region one path cannot reach?
-        left = separate_regions(contour, r, cut.side == "inside", tol)
+        left, widest = separate_regions(contour, r, cut.side == "inside", tol)
         if left:
             area, (x, y) = left[0]
             what = ("the pocket narrows below the tool diameter and falls apart into separate regions"
@@ -550,8 +550,8 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
             raise InputError(
                 f"one path cannot cut this outline with a {2 * r:g} mm tool: {what}; the region around "
                 f"({x:.4f}, {y:.4f}) mm ({area:.4g} mm², {len(left)} region(s) in all) would be left uncut; "
-                "use a tool narrower than the narrowing (see the check's largest tool), or cut each region "
-                "as an outline of its own")
+                f"use a tool under {widest:.4g} mm (the widest that passes the narrowing), or cut each "
+                "region as an outline of its own")
     # a move without length (a window that ended where its last move did)
     # has no direction: the leads and the G-code need one
     chain = close_chain(drop_tiny(chain), contour.closed)

@@ -218,7 +218,7 @@ def _contour_polyline(contour, tol, r):
     return contour(t), contour.closed
 
 
-def separate_regions(contour, r: float, inside: bool, tol: float) -> list:
+def separate_regions(contour, r: float, inside: bool, tol: float):
     """Regions the tool center can reach but one closed path cannot join.
 
     The tool center of an inside cut may stand anywhere in the contour
@@ -226,23 +226,36 @@ def separate_regions(contour, r: float, inside: bool, tol: float) -> list:
     the tool diameter the shrunk region falls apart into pieces, and one
     closed path cuts only one of them.  Outside, a cavity of the outline
     wider than the tool behind a mouth narrower than it is a hole in the
-    outline grown by r: the tool never gets in.  Returns (area mm², a point
-    inside) of every piece beyond the first (inside) or every such hole
-    (outside) whose area is more than ``tol · r``; those would be left
-    uncut by a single path."""
+    outline grown by r: the tool never gets in.  Returns ``(left, widest)``:
+    ``left`` the (area mm², a point inside) of every piece beyond the
+    largest (inside) or every such hole (outside) whose area is more than
+    ``tol · r`` (what a single path would leave uncut), and ``widest`` the
+    largest tool diameter that keeps one region (bisection on the radius to
+    within ``tol``; None when nothing is left)."""
     import shapely
 
     pts, _ = _contour_polyline(contour, 10.0 * tol, r)
     poly = shapely.make_valid(shapely.Polygon(pts))
-    if inside:
-        grown = poly.buffer(-r, quad_segs=16)
-        pieces = list(getattr(grown, "geoms", [grown]))
-        pieces = sorted((g for g in pieces if g.area > tol * r), key=lambda g: -g.area)[1:]
-    else:
-        grown = poly.buffer(r, quad_segs=16)
-        pieces = [shapely.Polygon(ring) for g in getattr(grown, "geoms", [grown]) for ring in g.interiors]
-        pieces = [g for g in pieces if g.area > tol * r]
-    return [(float(g.area), tuple(np.asarray(g.representative_point().coords)[0])) for g in pieces]
+
+    def left_at(radius):
+        if inside:
+            grown = poly.buffer(-radius, quad_segs=16)
+            pieces = sorted((g for g in getattr(grown, "geoms", [grown]) if g.area > tol * radius),
+                            key=lambda g: -g.area)[1:]
+        else:
+            grown = poly.buffer(radius, quad_segs=16)
+            pieces = [shapely.Polygon(ring) for g in getattr(grown, "geoms", [grown]) for ring in g.interiors]
+            pieces = [g for g in pieces if g.area > tol * radius]
+        return [(float(g.area), tuple(np.asarray(g.representative_point().coords)[0])) for g in pieces]
+
+    left = left_at(r)
+    if not left:
+        return [], None
+    lo, hi = 0.0, r
+    while hi - lo > tol:
+        mid = 0.5 * (lo + hi)
+        lo, hi = (lo, mid) if left_at(mid) else (mid, hi)
+    return left, 2.0 * lo
 
 
 class distance_to_contour:
