@@ -599,14 +599,21 @@ def _cmd_demo(a, out, err) -> int:
     return _emit_rows(rows, a, out, err, footer)
 
 
-def _verify_text(facts, result, a) -> list[str]:
-    """The verify command's plain lines (figures in the program's units)."""
+def _program_lengths(facts):
+    """(units, mm per unit, formatter of a length in mm) for verify's lines:
+    figures are said in the program's own units."""
     u = facts["units"]
     f = 25.4 if u == "inch" else 1.0
 
     def L(v):
         return "-" if v is None else f"{v / f:.5f} {u}"
 
+    return u, f, L
+
+
+def _verify_text(facts, result, a) -> list[str]:
+    """The verify command's plain lines (figures in the program's units)."""
+    u, f, L = _program_lengths(facts)
     tol = facts["tolerance"]
     lines = [f"{facts['program']} against {result.source}: {len(result.toolpath)} moves expected, "
              f"{facts['moves_measured']} cutting moves along the part measured"]
@@ -660,12 +667,7 @@ def _verify_text(facts, result, a) -> list[str]:
 
 def _verify_part_text(facts, result) -> list[str]:
     """The verify command's lines for a part (figures in the program's units)."""
-    u = facts["units"]
-    f = 25.4 if u == "inch" else 1.0
-
-    def L(v):
-        return "-" if v is None else f"{v / f:.5f} {u}"
-
+    u, f, L = _program_lengths(facts)
     rows = facts["outlines"]
     lines = [f"{facts['program']} against {result.source}: a part of {len(rows)} outlines, "
              f"tolerance {L(facts['tolerance'])}"]

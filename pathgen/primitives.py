@@ -356,16 +356,10 @@ def _runs(p, bound, size, limit=None):
             i = max(i + 1, tried - MIN_POINTS) if tried else i + 1
             continue
         j, (kind, params, err) = best
-        lo, hi = (out[-1].last if out else 0), i  # the earliest start that still fits
-        if hi > lo:
-            while hi - lo > 0:
-                mid = (lo + hi) // 2
-                g = _test(p[mid:j + 1], kind, bound, size)
-                if g is None:
-                    lo = mid + 1
-                else:
-                    hi, params, err = mid, g[1], g[2]
-            i = hi
+        # the earliest start that still fits
+        i, g = _earliest_start(p, out[-1].last if out else 0, i, j, kind, bound, size)
+        if g is not None:
+            params, err = g[1], g[2]
         if kind == "line":
             out.append(Piece("line", i, j, line=(tuple(params[0]), tuple(params[1])), error=err))
         else:
@@ -374,6 +368,21 @@ def _runs(p, bound, size, limit=None):
             break
         i = j
     return out
+
+
+def _earliest_start(p, lo, hi, j, kind, bound, size):
+    """Bisection for the earliest start in [lo, hi] from which the points up
+    to ``j`` still fit one ``kind``; ``hi`` fits.  Returns (start, the fit
+    there, or None when ``hi`` itself is kept)."""
+    fit = None
+    while hi > lo:
+        mid = (lo + hi) // 2
+        g = _test(p[mid:j + 1], kind, bound, size)
+        if g is None:
+            lo = mid + 1
+        else:
+            hi, fit = mid, g
+    return hi, fit
 
 
 def _refined_runs(p, bound, size, limit):
@@ -393,15 +402,10 @@ def _refined_runs(p, bound, size, limit):
             j, f = _longest(p, i0, n - 1, kind, bound, size)
         if j is None or not _meaningful(p, i0, j, f, bound, size):
             continue
-        lo, hi = max(prev, i0 - m), i0  # the earliest start that still fits: bisection
-        while hi - lo > 0:
-            mid = (lo + hi) // 2
-            g = _test(p[mid:j + 1], kind, bound, size)
-            if g is None:
-                lo = mid + 1
-            else:
-                hi, f = mid, g
-        i0 = hi
+        # the earliest start that still fits
+        i0, g = _earliest_start(p, max(prev, i0 - m), i0, j, kind, bound, size)
+        if g is not None:
+            f = g
         kind, params, err = f
         if kind == "line":
             out.append(Piece("line", i0, j, line=(tuple(params[0]), tuple(params[1])), error=err))
