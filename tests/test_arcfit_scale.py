@@ -99,3 +99,49 @@ def test_scaled_arcs_keep_the_tolerance_both_ways(scale, monkeypatch):
     measured, slack = _two_sided(contour, chain)
     assert measured <= TOL + slack, (measured, slack)
     assert slack < 0.05 * TOL
+
+
+def test_replay_polyline_follows_the_sagitta_not_the_size():
+    # The replay measures the written program against a polyline of the
+    # curve whose chords stray by at most 0.5 % of the tolerance.  The
+    # fewest chords for sagitta e number about ∫√(κ/(8e)) ds (Levien,
+    # "Flattening quadratic Béziers", 2019; McClure & Vitale, "Polygonal
+    # approximation of plane convex bodies", J. Math. Anal. Appl. 51, 1975),
+    # which for a shape scaled by s grows as √s: 10× for ×100, where a
+    # fixed 0.25 mm spacing grew 50× (82 000 vertices on the 8 m ellipse).
+    from pathgen.verify.replay import tool_center_polyline
+
+    counts = {}
+    for scale in (1.0, 100.0):
+        contour = fit(ellipse_points(40.0 * scale, 25.0 * scale, 100), closed=True)
+        pts, joined = tool_center_polyline(contour, 0.0, TOL)
+        counts[scale] = len(pts)
+        # every chord within its sagitta budget: the midpoint of each chord
+        # lies within 0.5 % of the tolerance (plus rounding) of the curve,
+        # measured against a dense polyline of the curve (see _to_polyline)
+        lo, hi = contour.domain
+        dense = contour(np.linspace(lo, hi, 400_001))[:-1]
+        mid = 0.5 * (pts[1:] + pts[:-1])[joined]
+        step = float(np.max(np.hypot(*np.diff(dense, axis=0).T)))
+        kmax = float(np.max(np.abs(contour.curvature(np.linspace(lo, hi, 100_001)))))
+        assert _to_polyline(mid, dense).max() <= 0.005 * TOL + step**2 * kmax / 8.0 + 1e-9 * scale
+    assert counts[100.0] <= 2.0 * 10.0 * counts[1.0], counts
+
+
+def test_clearance_samples_of_a_large_gentle_path_follow_its_curvature(monkeypatch):
+    # The tool path's clearance from the contour is tested at steps
+    # h = √(2·tol·R) with R the tightest radius near the path: the sagitta
+    # h²/(8R) (common practice) is then tol/4.  On the 8 m ellipse (radii
+    # 1562 mm and more) that is about 5.6 mm, not the √(2·tol·r) = 0.245 mm
+    # of a 3 mm tool radius, which is kept for parts of ordinary size.
+    from pathgen.path.offset import _clear_step
+
+    _, chain, _, _ = _fit_counted(100.0, monkeypatch)
+    r = 3.0
+    step = _clear_step(fit(ellipse_points(4000.0, 2500.0, 100), closed=True), chain, r, TOL)
+    r_min = 2500.0**2 / 4000.0  # b²/a, the ellipse's smallest radius (handbook)
+    assert step <= np.sqrt(2.0 * TOL * r_min) * (1.0 + 1e-6)
+    assert step >= 0.5 * np.sqrt(2.0 * TOL * r_min)
+    _, chain1, _, _ = _fit_counted(1.0, monkeypatch)
+    step1 = _clear_step(fit(ellipse_points(40.0, 25.0, 100), closed=True), chain1, r, TOL)
+    assert step1 == pytest.approx(np.sqrt(2.0 * r * TOL), rel=1e-12)
