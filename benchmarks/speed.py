@@ -12,9 +12,9 @@ every stage's log-log slope between the smallest and the largest size.
 
 Then the small job (``pathgen check`` on a 200-point outline against
 ``python -c "import numpy"`` + 0.1 s, medians of 5) and the arc fit's
-scaling (one 100-point ellipse scaled ×1, ×10, ×100, ×1000 through
-``pathgen gcode``; pathgen refuses outlines over 10 m across, so ×1000,
-94 m, is refused).
+scaling (one 100-point ellipse scaled ×1, ×10, ×100 through ``pathgen
+gcode``, interleaved, medians of --repeat; pathgen refuses outlines over
+10 m across, so ×100, 8 m, is the largest).
 
     PYTHONPATH=. python3 benchmarks/speed.py                     # all
     PYTHONPATH=. python3 benchmarks/speed.py --sizes 100000 --repeat 1
@@ -188,25 +188,39 @@ def small_job(workdir: Path, repeat: int = 5) -> None:
           f"pathgen check (200 points) {b:.3f} s; ratio to (numpy + 0.1 s) {b / (a + 0.1):.2f} (target 1.3)")
 
 
-def scaled_ellipse(workdir: Path, scales=(1, 10, 100, 1000)) -> None:
+def scaled_ellipse(workdir: Path, scales=(1, 10, 100), repeat: int = 3) -> None:
+    """One 100-point ellipse scaled (pathgen takes outlines up to 10 m across,
+    so x100, 8 m, is the largest): runs interleaved, medians of ``repeat``."""
     import numpy as np
 
     th = np.linspace(0.0, 2 * np.pi, 100, endpoint=False)
     base = np.column_stack([40.0 * np.cos(th), 25.0 * np.sin(th)])
-    times = {}
+    runs = {s: [] for s in scales}
     for s in scales:
-        csv = workdir / f"ellipse_x{s}.csv"
-        np.savetxt(csv, base * s, fmt="%.6f", delimiter=",", header="x,y", comments="")
-        res = run_command(["gcode", str(csv), "--closed", "--tool-diameter", "6", "-o",
-                           str(workdir / f"e{s}.nc"), "--force", "--quiet"], workdir)
-        if res.get("failed"):
-            print(f"  ellipse x{s:<5} refused: {res['failed'][0]}")
+        np.savetxt(workdir / f"ellipse_x{s}.csv", base * s, fmt="%.6f", delimiter=",", header="x,y",
+                   comments="")
+    for _ in range(repeat):
+        for s in scales:
+            res = run_command(["gcode", str(workdir / f"ellipse_x{s}.csv"), "--closed", "--tool-diameter", "6",
+                               "-o", str(workdir / f"e{s}.nc"), "--force", "--quiet"], workdir)
+            if res.get("failed"):
+                print(f"  ellipse x{s:<5} refused: {res['failed'][0]}")
+                continue
+            res["blocks"] = sum(1 for ln in (workdir / f"e{s}.nc").read_text().splitlines()
+                                if ln[:2] in ("G1", "G2", "G3"))
+            runs[s].append(res)
+    base_wall = None
+    for s in scales:
+        if not runs[s]:
             continue
-        blocks = sum(1 for ln in (workdir / f"e{s}.nc").read_text().splitlines() if ln[:2] in ("G1", "G2", "G3"))
-        times[s] = res
-        top = max(res["stages"], key=res["stages"].get)
-        print(f"  ellipse x{s:<5} {res['wall']:8.2f} s  ({res['wall'] / times[scales[0]]['wall']:6.2f}x of x1)"
-              f"  peak {res['peak_mb']:6.0f} MB  {blocks} moves; slowest stage {top} {res['stages'][top]:.2f} s")
+        wall = _median(runs[s], "wall")
+        base_wall = wall if base_wall is None else base_wall
+        stages = {k: statistics.median(r["stages"].get(k, 0.0) for r in runs[s]) for k in runs[s][0]["stages"]}
+        top = max(stages, key=stages.get)
+        print(f"  ellipse x{s:<5} {wall:8.2f} s  ({wall / base_wall:6.2f}x of x1)"
+              f"  peak {_median(runs[s], 'peak_mb'):6.0f} MB  {runs[s][0]['blocks']} moves;"
+              f" toolpath {stages.get('toolpath', 0.0):.2f} s, gcode {stages.get('gcode', 0.0):.2f} s,"
+              f" slowest stage {top}")
 
 
 def main() -> None:
@@ -223,8 +237,9 @@ def main() -> None:
         if "small" in only:
             small_job(d)
         if "scale" in only:
-            print("\nArc fit: one 100-point ellipse 80 x 50 mm scaled, pathgen gcode at 0.01 mm, 6 mm tool")
-            scaled_ellipse(d)
+            print(f"\nArc fit: one 100-point ellipse 80 x 50 mm scaled, pathgen gcode at 0.01 mm, 6 mm tool,"
+                  f" median of {a.repeat}")
+            scaled_ellipse(d, repeat=a.repeat)
 
 
 if __name__ == "__main__":

@@ -55,6 +55,11 @@ _BANDS = (0.97, 0.9, 0.75)
 _CAP = 0.75 * np.pi
 #: sagitta of the sample polyline, as a fraction of the tolerance
 _SAMPLE_SAG = 0.01
+#: the first rule sizes a window's samples while it asks for at most this
+#: many (ordinary parts keep their samples and outputs); beyond, the step
+#: sized by geometry replaces it wherever it is _WIDER times longer
+_FIRST_RULE_MAX = 8192
+_WIDER = 2.0
 #: moves are accepted at this fraction of the tolerance (as in flatten)
 _TARGET = 0.99
 #: mm: an arc of larger radius is tried as a line (a 208 mm straight side
@@ -74,12 +79,30 @@ _BEAM = 6
 
 
 def _samples(contour, a, b, d, tol):
-    """Parameters t, points X = q(t), unit tangents and their unwrapped angle.
+    """Parameters t, points X = q(t), unit tangents, their unwrapped angle,
+    and per sample the curvature band (κ_q, D) arcs tested there must keep.
 
     Steps h = min(√(8·0.01·tol/κ_q), 20·tol): the polyline's sagitta stays
     below 1 % of the tolerance, with κ_q the largest curvature at the breaks
     and quarter points of pieces a step spans; no step is longer than 20·tol (the
     resolution of an arc's end).
+
+    On a large, gently curved part that rule makes the samples grow with
+    size ÷ tolerance although the arcs written grow far slower.  Where the
+    step sized by geometry is longer, it is taken instead:
+    h_g = √(8·0.01·tol/D) with D = 17·tol^(1/3)·|κ_q'|^(2/3), the spread of
+    curvature an arc in the band needs against the curve (an arc of length
+    ℓ ≈ (tol/|κ_q'|)^(1/3) meets curvature changing by |κ_q'|·ℓ, and its
+    band lets it differ by about 16·tol/ℓ² more), never beyond 2 % of the
+    radius or 1/64 of the window, where it is more than twice the first
+    rule's step and the first rule would ask for more than 8192 samples
+    (ordinary parts keep their samples, and their outputs).  The distance from a point of q to an arc
+    of curvature k bends between samples by about |κ_q − k|·h²/8, so such
+    samples are only a test of arcs with |k − κ_q| ≤ D = 8·0.01·tol/h²
+    there; :meth:`_Band.intervals` adds that to each sample's interval (D
+    is infinite on samples the first rule sizes, which keeps what it fits).
+    For a shape scaled by s, |κ_q'| goes as s⁻², h_g as s^(2/3), and the
+    samples as s^(1/3), as the arcs do.
     """
     brk = contour.breaks
     if contour.closed:
@@ -106,6 +129,12 @@ def _samples(contour, a, b, d, tol):
     with np.errstate(divide="ignore"):
         h = np.minimum(np.sqrt(8.0 * _SAMPLE_SAG * tol / kmax), 20.0 * tol)
     length = 0.5 * (ds[1:] + ds[:-1]) * np.diff(g)
+    if np.sum(length / h) <= _FIRST_RULE_MAX:
+        wide = np.zeros(len(h), bool)  # parts of ordinary size: the first rule
+    else:
+        h_g = _geometric_steps(kappa / stretch, kmax, length, tol)
+        wide = h_g > _WIDER * h
+        h = np.where(wide, h_g, h)
     # samples evenly in U = ∫ ds / h: one per step h (pieces shorter than h
     # share a sample; h comes from the largest curvature at any break or
     # midpoint it spans, so wiggles between samples are accounted for)
@@ -125,14 +154,48 @@ def _samples(contour, a, b, d, tol):
         X[0] += d * _left(tan[0])
         X[-1] += d * _left(tan[-1])
     theta = np.unwrap(np.arctan2(tan[:, 1], tan[:, 0]))
-    return t, X, tan, theta
+    # the curvature band of arcs these samples can test (see above)
+    kq_t = np.zeros(len(t))
+    spread = np.full(len(t), np.inf)
+    if np.any(wide):
+        step = np.clip(np.searchsorted(g, t, side="right") - 1, 0, len(h) - 1)
+        D = np.where(wide, 8.0 * _SAMPLE_SAG * tol / h**2, np.inf)
+        spread = np.minimum(D[step], np.minimum(D[np.maximum(step - 1, 0)], D[np.minimum(step + 1, len(D) - 1)]))
+        d1t, d2t = contour(t, 1), contour(t, 2)
+        sp = np.hypot(d1t[:, 0], d1t[:, 1])
+        kt = (d1t[:, 0] * d2t[:, 1] - d1t[:, 1] * d2t[:, 0]) / sp**3
+        kq_t = kt / np.maximum(1.0 - d * kt, 1e-3)
+        kq_t = np.where(np.isfinite(spread), kq_t, 0.0)
+    return t, X, tan, theta, kq_t, spread
+
+
+def _geometric_steps(kq, kmax, length, tol):
+    """Steps sized by the curvature's change (see :func:`_samples`), mm.
+
+    ``kq``: signed curvature of q at the grid points; ``kmax``: the largest
+    |κ_q| near each step; ``length``: each step's length along q.
+    """
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.abs(np.diff(kq)) / length
+    slope = np.where(np.isfinite(slope), slope, np.inf)
+    # the largest change near each step (its neighbours' too)
+    slope = np.maximum(slope, np.maximum(np.r_[slope[1:], slope[-1]], np.r_[slope[0], slope[:-1]]))
+    D = 17.0 * np.cbrt(tol) * slope ** (2.0 / 3.0)
+    with np.errstate(divide="ignore"):
+        h_g = np.sqrt(8.0 * _SAMPLE_SAG * tol / D)
+        h_g = np.minimum(h_g, 0.02 / kmax)
+    return np.minimum(h_g, max(float(length.sum()) / 64.0, 20.0 * tol))
 
 
 class _Band:
     """The samples of one window and the reach of arcs inside the band."""
 
-    def __init__(self, t, X, tan, theta, e):
+    def __init__(self, t, X, tan, theta, e, kq=None, spread=None):
         self.t, self.X, self.tan, self.theta, self.e = t, X, tan, theta, e
+        # per sample: arcs tested there keep |k - kq| <= spread (see _samples)
+        self.kq = np.zeros(len(t)) if kq is None else kq
+        self.spread = np.full(len(t), np.inf) if spread is None else spread
+        self.banded = bool(np.isfinite(self.spread).any())
         self.n = len(t)
         self.chunk = 64
 
@@ -150,6 +213,9 @@ class _Band:
         Bs = np.where(test, B, 1.0)
         lo = np.where(test, 2.0 * (a - e) / Bs, -np.inf)
         hi = np.where(test, 2.0 * (a + e) / Bs, np.inf)
+        if self.banded:
+            lo = np.maximum(lo, self.kq[idx] - self.spread[idx])
+            hi = np.minimum(hi, self.kq[idx] + self.spread[idx])
         turn = np.abs(self.theta[idx] - self.theta[i0][:, None])
         stop = past | (turn > _CAP) | (_dot(w, T[:, None, :]) < -e)
         lo = np.where(stop, np.inf, lo)
@@ -387,8 +453,8 @@ def _fit_window(contour, a, b, d, tol, frac, free_end, beam_width=None):
     time).  Returns (Chain, restarts).
     """
     beam_width = _BEAM if beam_width is None else beam_width
-    t, X, tan, theta = _samples(contour, a, b, d, tol)
-    band = _Band(t, X, tan, theta, frac * tol)
+    t, X, tan, theta, kq, spread = _samples(contour, a, b, d, tol)
+    band = _Band(t, X, tan, theta, frac * tol, kq, spread)
     n = band.n
     # a node: (S, T, i0, move Chain or None, parent node)
     beam = [(X[0], tan[0], 0, None, None)]

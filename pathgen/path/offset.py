@@ -480,7 +480,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     # 2. anything still closer to the contour than the tool radius (narrow gaps)
     dist = distance_to_contour(contour, tol, r)
     cur = Chain(chain.kind, ks, ke, chain.center, chain.t0, chain.t1)
-    step = np.sqrt(2.0 * r * tol)
+    step = _clear_step(contour, cur, r, tol)
     counts = np.clip(np.ceil(_lengths(cur) / step) + 2, 4, 4096).astype(np.int64)
     pts, _, _ = sample_chain(cur, counts)
     first = np.cumsum(counts) - counts
@@ -527,6 +527,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     # where noise makes many tiny tight spots) is cut at the crossing
     cut, more = _remove_loops(cut, closed, dist, r, tol)
     # 4. safety net: the finished path must stay clear of the contour
+    step = _clear_step(contour, cut, r, tol)
     counts = np.clip(np.ceil(_lengths(cut) / step) + 2, 4, 4096).astype(np.int64)
     pts, _, _ = sample_chain(cut, counts)
     dd = dist(pts)
@@ -625,6 +626,35 @@ def _remove_loops(chain, closed, dist, r, tol, max_rounds=200):
 
 def _spot(x, reason):
     return {"x": float(x[0]), "y": float(x[1]), "reason": reason}
+
+
+#: samples of the clearance test that today's rule may take before the
+#: step follows the curvature (ordinary parts keep their samples)
+_CLEAR_ORDINARY = 8192
+
+
+def _clear_step(contour, chain, r, tol):
+    """Step (mm) of the samples that test the path's clearance from the
+    contour.  Between samples the distance to the contour bends by at most
+    about h²·K/2 with K the largest curvature near the path: h = √(2·tol/K)
+    keeps that to tol/4 (the sagitta h²K/8, doubled for the two curves).
+    Today's rule takes K = 1/r (no part of the contour the tool reaches
+    bends tighter than the tool); on a long path whose contour and arcs all
+    bend gentler than that (a large part), K is their largest curvature, so
+    the samples follow the shape, not its size."""
+    step = math.sqrt(2.0 * r * tol)
+    if float(np.sum(_lengths(chain))) / step <= _CLEAR_ORDINARY:
+        return step
+    b = contour.breaks
+    t = np.concatenate([b, 0.5 * (b[:-1] + b[1:])])
+    k = float(np.max(np.abs(contour.curvature(t)), initial=0.0))
+    arcs = chain.kind != LINE
+    if np.any(arcs):
+        rad, _, _ = arc_geometry(chain.start[arcs], chain.end[arcs], chain.center[arcs], chain.kind[arcs] == ARC_CCW)
+        k = max(k, float(np.max(1.0 / rad)))
+    if not k * r < 0.5:  # anything tight (or NaN): today's rule
+        return step
+    return math.sqrt(2.0 * tol / k)
 
 
 def _lengths(chain):

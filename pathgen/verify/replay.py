@@ -47,7 +47,11 @@ _MIN_DECIMALS = {"mm": 4, "inch": 5}
 _MAX_DECIMALS = 8
 _MM_PER_INCH = 25.4
 _SAG_SHARE = 0.005  # polyline sagitta, share of the tolerance
-_MAX_STEP = 0.25  # mm between polyline vertices
+_MAX_STEP = 0.25  # mm between polyline vertices (see _resolution)
+#: vertices that a polyline's spacing cap allows along the whole length: the
+#: cap is _MAX_STEP up to a length of 0.25 mm x 8192 (2 m), and grows with the
+#: length beyond, so a large part is sampled by the sagitta, not its size
+_VERTICES = 8192
 _K = 8  # nearest vertices examined per point
 
 
@@ -128,10 +132,20 @@ def budget(tolerance_mm: float, *, decimals: int, units: str = "mm", residual=(0
 
 
 # ---------------------------------------------------------------------------- polylines
-def _arc_counts(radius, sweep, tol, length):
+def _resolution(total_length):
+    """Largest spacing of polyline vertices (mm) over curves and arcs of this
+    total length: _MAX_STEP, or total/_VERTICES on longer paths.  The
+    spacing that bounds the measurement is the sagitta step (_SAG_SHARE of
+    the tolerance), taken wherever it is shorter; this cap only keeps the
+    candidate search fine, and on a large part it follows the part's size
+    instead of a fixed 0.25 mm (a 20 m outline had 82 000 vertices)."""
+    return max(_MAX_STEP, float(total_length) / _VERTICES)
+
+
+def _arc_counts(radius, sweep, tol, length, cap=_MAX_STEP):
     sag = _SAG_SHARE * tol
     step = np.sqrt(8.0 * np.maximum(radius, 1e-12) * sag)
-    n = np.ceil(np.maximum(np.abs(sweep) * radius / np.minimum(step, _MAX_STEP), length / _MAX_STEP))
+    n = np.ceil(np.maximum(np.abs(sweep) * radius / np.minimum(step, cap), length / cap))
     return np.clip(n, 1, 200_000).astype(np.int64) + 1
 
 
@@ -139,6 +153,10 @@ def move_polylines(kind, start, end, center, tol):
     """Dense points along moves (xy): arcs with their radius interpolated
     from the start radius to the end radius (a written arc's two radii may
     differ by the rounding), lines straight.
+
+    Lines are sampled every _MAX_STEP at most (a line's distance to a curve
+    bends with the curve, which this function does not see); arcs by their
+    sagitta, at most :func:`_resolution` of the moves' length apart.
 
     Returns (points (n, 2), owner (n,), last (n,) bool: the point ends its move).
     """
@@ -152,8 +170,9 @@ def move_polylines(kind, start, end, center, tol):
     r1 = np.hypot(*(e - c).T)
     _, a0, sweep = arc_geometry(s, e, c, kind == 3)  # a closed arc sweeps a full turn
     if arcs.any():
-        counts[arcs] = np.maximum(counts[arcs], _arc_counts(np.maximum(r0, r1)[arcs], sweep[arcs], tol,
-                                                            length[arcs]))
+        along = np.where(arcs, np.maximum(r0, r1) * np.abs(sweep), length)
+        cap = _resolution(along.sum())
+        counts[arcs] = np.maximum(2, _arc_counts(np.maximum(r0, r1)[arcs], sweep[arcs], tol, length[arcs], cap))
     owner = np.repeat(np.arange(k), counts)
     first = np.cumsum(counts) - counts
     j = np.arange(owner.size) - np.repeat(first, counts)
@@ -185,6 +204,7 @@ def tool_center_polyline(contour, d: float, tol: float):
     cuts = sorted(set(int(i) for i in contour.corners) | {0, len(b) - 1})
     pts_all = []
     sag = _SAG_SHARE * tol
+    cap = _resolution(np.hypot(*np.diff(contour(b), axis=0).T).sum())
     for a_i, b_i in zip(cuts[:-1], cuts[1:]):
         tb = b[a_i : b_i + 1]
         mid = 0.5 * (tb[:-1] + tb[1:])
@@ -195,7 +215,7 @@ def tool_center_polyline(contour, d: float, tol: float):
         speed = np.hypot(*contour(mid, 1).T)
         stretch = np.abs(1.0 - d * contour.curvature(mid))
         lq = speed * np.diff(tb) * np.maximum(stretch, 1e-3)
-        step = np.minimum(np.sqrt(8.0 * sag / np.maximum(kq_piece, 1e-12)), _MAX_STEP)
+        step = np.minimum(np.sqrt(8.0 * sag / np.maximum(kq_piece, 1e-12)), cap)
         need = lq / step  # samples per piece
         cum = np.concatenate([[0.0], np.cumsum(need)])
         n = max(2, int(math.ceil(cum[-1])) + 1)
@@ -281,8 +301,9 @@ class _Moves:
     """Lines and arcs (xy) with an exact distance query.
 
     Candidates come from a k-d tree over points spaced at most 0.25 mm
-    along every move (ends included), so a long move is never hidden
-    behind a densely sampled short one; the distance to each candidate is
+    (on moves longer than 2 m in all, 1/8192 of their length) along every
+    move alike (ends included), so a long move is never hidden behind a
+    densely sampled short one; the distance to each candidate is
     then exact: to the segment, or to the arc whose radius runs from its
     start radius to its end radius (a written arc's two radii may differ by
     the rounding).
@@ -304,7 +325,7 @@ class _Moves:
         self.sweep = arc_sweep(self.s, self.e, c, ccw)  # unsigned; read for arcs only
         self.ccw = ccw
         length = np.where(self.arc, np.maximum(self.r0, self.r1) * self.sweep, np.hypot(*(self.e - self.s).T))
-        counts = np.maximum(2, np.ceil(length / _MAX_STEP).astype(np.int64) + 1)
+        counts = np.maximum(2, np.ceil(length / _resolution(length.sum())).astype(np.int64) + 1)
         owner = np.repeat(np.arange(len(self.kind)), counts)
         first = np.cumsum(counts) - counts
         f = (np.arange(owner.size) - np.repeat(first, counts)) / np.repeat(counts - 1.0, counts)
