@@ -4,7 +4,7 @@ Promise: on every primitive the measured curve → move deviation is within
 1 % of the tolerance of the true maximum distance of the curve span from
 its move.  Derivation: between samples h apart on a curve with |q''| <= M
 the curve leaves the chord by at most h²·M/8 (the linear interpolation
-error bound; de Boor, A Practical Guide to Splines, rev. ed. 2001, ch. II),
+error bound; de Boor, A Practical Guide to Splines, rev. ed. 2001, ch. III, broken line interpolation),
 and the distance to a line or arc is 1-Lipschitz.  The "true maximum" here
 is measured independently on a grid 400 times finer per spline piece.
 """
