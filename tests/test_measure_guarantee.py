@@ -4,8 +4,8 @@ Promise: on every primitive the measured curve → move deviation is within
 1 % of the tolerance of the true maximum distance of the curve span from
 its move.  Derivation: between samples h apart on a curve with |q''| <= M
 the curve leaves the chord by at most h²·M/8 (the linear interpolation
-error bound; de Boor, A Practical Guide to Splines, rev. ed. 2001, ch. III, broken line interpolation),
-and the distance to a line or arc is 1-Lipschitz.  The "true maximum" here
+error bound; de Boor, A Practical Guide to Splines, rev. ed. 2001, ch. III,
+broken line interpolation), and the distance to a line or arc is 1-Lipschitz.  The "true maximum" here
 is measured independently on a grid 400 times finer per spline piece.
 """
 
@@ -122,5 +122,6 @@ def test_second_derivative_bound_holds_on_a_fine_grid(d):
     assert np.all(mag <= bound * (1 + 1e-3) + 1e-6)
     if d == 0.0:
         # exact for the contour itself: |P''| is largest at a piece end
-        ends = np.maximum(np.hypot(*contour(b[:-1], 2).T), np.hypot(*(contour(b[1:] - 1e-12 * np.diff(b), 2)).T))
+        left_end = contour(b[1:] - 1e-12 * np.diff(b), 2)
+        ends = np.maximum(np.hypot(*contour(b[:-1], 2).T), np.hypot(*left_end.T))
         np.testing.assert_allclose(bound, ends, rtol=1e-6, atol=1e-9)

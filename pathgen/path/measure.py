@@ -20,8 +20,8 @@ Guarantee (curve → primitive): the measured value is within 1 % of the
 tolerance of the true maximum distance of the span's curve from its
 primitive.  Between samples h apart on a curve with |q''| <= M the curve
 leaves their chord by at most h²·M/8 (linear interpolation error; de Boor,
-A Practical Guide to Splines, rev. ed. 2001, ch. III, broken line interpolation) and distance to a line
-or arc is 1-Lipschitz; M is bounded per spline piece
+A Practical Guide to Splines, rev. ed. 2001, ch. III, broken line
+interpolation) and distance to a line or arc is 1-Lipschitz; M is bounded per spline piece
 (:func:`piece_second_derivative_bound`), and every piece where the evenly
 spread samples leave h²·M/8 above 1 % of the tolerance is sampled on its
 own (see :func:`_dense_extras`).
@@ -319,8 +319,8 @@ def _dense_extras(contour, chain: Chain, counts: np.ndarray, d: float, tol: floa
     apart.  Between two samples h apart on a curve with |q''| <= M the
     curve leaves the chord by at most h²·M/8 (the linear interpolation
     error bound; de Boor, A Practical Guide to Splines, rev. ed. 2001,
-    ch. III, broken line interpolation), and the distance to a move is 1-Lipschitz, so the largest
-    distance between two samples exceeds the larger of theirs by at most
+    ch. III, broken line interpolation), and the distance to a move is
+    1-Lipschitz, so the largest distance between two samples exceeds the larger of theirs by at most
     that.  Pieces where D_i²·M/8 > _GUARANTEE·tol get samples of their own:
     both ends and evenly between at a step that meets the bound.
 
