@@ -24,7 +24,9 @@ A Practical Guide to Splines, rev. ed. 2001, ch. III, broken line
 interpolation) and distance to a line or arc is 1-Lipschitz; M is bounded per spline piece
 (:func:`piece_second_derivative_bound`), and every piece where the evenly
 spread samples leave h²·M/8 above 1 % of the tolerance is sampled on its
-own (see :func:`_dense_extras`).
+own (see :func:`_dense_extras`).  The bound needs q without kinks
+between samples: it holds for spans that do not cross a corner of the
+contour (the path stage ends spans at corners).
 
 Primitives are held in a :class:`Chain` (2-D, z-free): column arrays with
 ``kind`` LINE / ARC_CW / ARC_CCW as in :mod:`pathgen.path.model`.
