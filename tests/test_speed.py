@@ -209,8 +209,6 @@ def test_a_move_over_many_pieces_is_sampled_on_every_piece():
     assert len(hit) == len(b) - 1
 
 
-@pytest.mark.xfail(strict=True, reason="known gap, not fixed yet: the samples are spread evenly in the "
-                   "parameter, one or more per piece, not at the readings; this spike measures 0.047 mm")
 def test_a_spike_on_one_short_piece_of_a_long_move_is_measured():
     # A straight run of 40 000 readings 3 mm apart with one reading pair
     # 0.01 mm apart raised 0.05 mm: the curve's bump there is narrow; the
