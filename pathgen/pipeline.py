@@ -391,6 +391,7 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
     tp = drawn = None
     plan = None
     if make_path or makes_path:
+        from .moves import toolpath_in_units
         from .path.build import make_toolpath
 
         kw = {"moves": o.moves, "lead": o.lead, "seam": seam, "units": units, "direction": direction}
@@ -417,13 +418,9 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
                        register=frame.register, seam=seam, moves=o.moves, units=units)
             # the drawing and the picture show where the tool's center goes
             drawn = center_mm
-            if units == "inch":
-                from .path.build import _to_inch
-
-                drawn = _to_inch(center_mm, {k: getattr(center_mm, k) for k in (
-                    "units", "tool_diameter", "side", "tolerance", "deviation", "time", "info")})
+            drawn = toolpath_in_units(center_mm, units)
         else:
-            tp = timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **kw)
+            tp = toolpath_in_units(timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **kw), units)
         import dataclasses
 
         tp = dataclasses.replace(tp, tolerance=tol_mm / scale,

@@ -34,7 +34,8 @@ import math
 import numpy as np
 
 from ..errors import InputError
-from .build import approximate_all, close_chain, start_at, tangent_at, _to_inch, choose_seam
+from ..moves import toolpath_in_units
+from .build import approximate_all, close_chain, start_at, tangent_at, choose_seam
 from .flatten import drop_tiny
 from .measure import Chain
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
@@ -231,7 +232,7 @@ def part_line_toolpath(contour, tool_center: Toolpath, tool, cut, machine, *, re
                 deviation=float(dev), time=float(time_s), info=info)
     path = Toolpath(kind, start, end, center, planned)
     if units == "inch":
-        out = _to_inch(path, meta)
+        out = toolpath_in_units(Toolpath(path.kind, path.start, path.end, path.center, path.feed, **meta), "inch")
         info = dict(out.info)
         info["compensation"] = {**info["compensation"], "radius": r / 25.4}
         return Toolpath(out.kind, out.start, out.end, out.center, out.feed, units="inch",
