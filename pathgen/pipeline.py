@@ -391,7 +391,6 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
     tp = drawn = None
     plan = None
     if make_path or makes_path:
-        from .moves import toolpath_in_units
         from .path.build import make_toolpath
 
         kw = {"moves": o.moves, "lead": o.lead, "seam": seam, "units": units, "direction": direction}
@@ -418,19 +417,19 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
                        register=frame.register, seam=seam, moves=o.moves, units=units)
             # the drawing and the picture show where the tool's center goes
             drawn = center_mm
-            drawn = toolpath_in_units(center_mm, units)
+            drawn = center_mm
         else:
-            tp = toolpath_in_units(timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **kw), units)
+            tp = timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **kw)
         import dataclasses
 
-        tp = dataclasses.replace(tp, tolerance=tol_mm / scale,
-                                 info={**tp.info, "approximation_target": plan["approximation_target"] / scale})
+        tp = dataclasses.replace(tp, tolerance=tol_mm,
+                                 info={**tp.info, "approximation_target": plan["approximation_target"]})
         if direction != o.direction:  # the program states the milling direction asked for
             tp = dataclasses.replace(tp, info={**tp.info, "direction": o.direction,
                                                "spindle": "counter-clockwise"})
         if drawn is None:
             drawn = tp
-        plan["approximation"] = float(tp.deviation) * scale
+        plan["approximation"] = float(tp.deviation)
         plan["total"] = plan["points"] + plan["approximation"] + plan["rounding"]
 
     # -- write -----------------------------------------------------------------
@@ -454,7 +453,7 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
                   notes=tuple(f"note: {n}" for n in feed_notes) + ((_NOT_REPLAYED,) if o.compensation == "machine"
                                                                      else ()),
                   check=(_replay_compensated if o.compensation == "machine" else _replay)(
-                      contour, tp, tool_mm, side, tol_mm, plan, mach, replayed))
+                      contour, tp, tool_mm, side, tol_mm, plan, mach, replayed, units), units=units)
             files["gcode"] = final["gcode"]
         if "report" in targets:
             from .export.report import write_report
@@ -469,7 +468,7 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
             program = None if not comp or replayed else {
                 "compensation": "machine", "word": comp["word"], "register": comp["register"],
                 "side": "left of travel" if comp["word"] == "G41" else "right of travel",
-                "radius": comp["radius"]}
+                "radius": comp["radius"] / scale}
             timed("report", write_report, stated, targets["report"], units=units, force=True, program=program,
                   toolpath=tp, notes=feed_notes)
             files["report"], files["report_text"] = final["report"], final["report_text"]
@@ -588,9 +587,10 @@ def _budget(contour, tol_mm: float, units: str, smoothed: bool) -> dict:
     return plan
 
 
-def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
+def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict, units: str = "mm"):
     """The check run on the program's text before it is renamed into place:
-    read back, measured against the part; its figures go into ``out``."""
+    read back, measured against the part; its figures go into ``out`` and
+    its header lines speak ``units`` (the program's)."""
     from .verify.check import Moves, check_program, header_lines
 
     f = MM_PER_INCH if tp.units == "inch" else 1.0
@@ -601,12 +601,12 @@ def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
         facts = check_program(text, contour, offset=offset, tool_radius=radius, side=side, tolerance=tol_mm,
                               expected=Moves.from_toolpath(tp), budget=plan, machine=machine)
         out.update(facts)
-        return header_lines(facts, tp.units)
+        return header_lines(facts, units)
 
     return check
 
 
-def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
+def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict, units: str = "mm"):
     """The check run on a program for cutter compensation at the control
     before it is renamed into place (:mod:`pathgen.verify.compensated`):
     read back with G41/G42, the part line's deviation, the entry and exit,
@@ -641,7 +641,7 @@ def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: 
             raise InternalCheckError("internal check failed: the written compensated program, read back: "
                                      + "; ".join(bad) + f" (chord tolerance {tol_mm:g} mm); nothing was written")
         out.update(facts)
-        return header_lines(facts, tp.units)
+        return header_lines(facts, units)
 
     return check
 
