@@ -214,8 +214,7 @@ def move_lengths(path: Toolpath) -> np.ndarray:
 
 #: Keys of ``Toolpath.info`` that hold one length (or a feed, a length per minute).
 _INFO_LENGTHS = ("offset", "depth", "step_down", "safe_height", "plunge_feed", "feed", "lead_length",
-                 "lead_in_length", "lead_out_length", "helix_radius", "retract_height", "overlap",
-                 "approximation_target")
+                 "lead_in_length", "lead_out_length", "helix_radius", "retract_height", "overlap")
 #: Keys of ``Toolpath.info`` that hold one point (x, y).
 _INFO_POINTS = ("seam", "entry_xy", "helix_center")
 
@@ -225,14 +224,16 @@ def toolpath_in_units(path: Toolpath, units: str) -> Toolpath:
 
     Toolpaths are made and kept in mm; the writers call this at the edge,
     when they write a program, a drawing or a report in inch: coordinates,
-    arc centers, feeds (per minute), tool diameter, tolerance, deviation and
-    the lengths of ``info`` are multiplied by 1/25.4 (1 inch = 25.4 mm
-    exactly); ``time`` (s) and counts stay.  A path already in ``units`` is
-    returned as it is.
+    arc centers, feeds (per minute), tool diameter, deviation and the
+    lengths of ``info`` are multiplied by 1/25.4 (1 inch = 25.4 mm exactly;
+    within an ulp of dividing, and what the programs were always written
+    from), the tolerance and the approximation target divided by 25.4;
+    ``time`` (s) and counts stay.  A path already in ``units`` is returned
+    as it is.
 
     >>> tp = Toolpath.from_moves([Line((0.0, 0.0, 0.0), (25.4, 0.0, 0.0), 254.0)])
     >>> t2 = toolpath_in_units(tp, "inch")
-    >>> t2.units, float(t2.end[0, 0]), float(t2.feed[0])
+    >>> t2.units, round(float(t2.end[0, 0]), 12), round(float(t2.feed[0]), 12)
     ('inch', 1.0, 10.0)
     """
     if units not in ("mm", "inch"):
@@ -240,7 +241,13 @@ def toolpath_in_units(path: Toolpath, units: str) -> Toolpath:
     if path.units == units:
         return path
     f = 1.0 / 25.4 if units == "inch" else 25.4
+
+    def per(v):  # the tolerances are divided, as the job divides the user's tolerance
+        return v / 25.4 if units == "inch" else v * 25.4
+
     info = dict(path.info)
+    if info.get("approximation_target") is not None:
+        info["approximation_target"] = per(info["approximation_target"])
     for key in _INFO_LENGTHS:
         if info.get(key) is not None:
             info[key] = info[key] * f
@@ -255,5 +262,5 @@ def toolpath_in_units(path: Toolpath, units: str) -> Toolpath:
     if info.get("compensation"):
         info["compensation"] = {**info["compensation"], "radius": info["compensation"]["radius"] * f}
     return Toolpath(path.kind, path.start * f, path.end * f, path.center * f, path.feed * f, units=units,
-                    tool_diameter=path.tool_diameter * f, side=path.side, tolerance=path.tolerance * f,
+                    tool_diameter=path.tool_diameter * f, side=path.side, tolerance=per(path.tolerance),
                     deviation=path.deviation * f, time=path.time, info=info)
