@@ -539,8 +539,7 @@ def verify(program, points, options=None, **kwargs) -> tuple:
     compensated = o.compensation == "machine"
     prog = read_gcode_file(program, compensation=compensated)
     result = run(points, o, make_path=True)
-    tp = result.toolpath
-    f = MM_PER_INCH if tp.units == "inch" else 1.0
+    tp = result.toolpath  # one outline's toolpath: mm (a part's is checked by verify_part)
     mach = load_job_machine(o)
     if getattr(result, "specs", ()):  # a part of several outlines
         from .verify.part import verify_part
@@ -551,7 +550,7 @@ def verify(program, points, options=None, **kwargs) -> tuple:
         from .verify.replay import program_time
 
         facts = compensated_facts(prog, result.contour, tool_radius=0.5 * float(o.tool_diameter),
-                                  side=o.side, tolerance=float(tp.tolerance) * f,
+                                  side=o.side, tolerance=float(tp.tolerance),
                                   expected=part_line_moves(tp))
         facts["time"] = program_time(prog, mach)
         facts["units"] = prog.units
@@ -560,9 +559,9 @@ def verify(program, points, options=None, **kwargs) -> tuple:
         facts["feed_moves_without_f"] = [p.line for p in prog.problems if p.rule == "no feed"]
         facts["status"] = 1 if (not facts["within_tolerance"] or facts["gouges"] or facts["problems"]) else 0
         return facts, result
-    facts = verify_program(prog, result.contour, offset=float(tp.info.get("offset", 0.0)) * f,
+    facts = verify_program(prog, result.contour, offset=float(tp.info.get("offset", 0.0)),
                            tool_radius=0.5 * o.tool_diameter if o.tool_diameter else 0.0,
-                           side=o.side, tolerance=float(tp.tolerance) * f,
+                           side=o.side, tolerance=float(tp.tolerance),
                            expected=Moves.from_toolpath(tp), machine=mach)
     return facts, result
 
@@ -593,8 +592,7 @@ def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict, units:
     its header lines speak ``units`` (the program's)."""
     from .verify.check import Moves, check_program, header_lines
 
-    f = MM_PER_INCH if tp.units == "inch" else 1.0
-    offset = float(tp.info.get("offset", 0.0)) * f
+    offset = float(tp.info.get("offset", 0.0))  # the toolpath is mm
     radius = 0.5 * (tool_mm or 0.0)
 
     def check(text):

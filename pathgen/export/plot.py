@@ -66,8 +66,8 @@ def tool_lines(tp: Toolpath, k: float):
     from .dxf import polyline_vertices
 
     runs = []
-    tp = toolpath_in_units(tp, "mm")  # cuts and rapids alike: mm, then display units
-    for verts, closed in polyline_vertices(tp, scale=k, final_pass=True):
+    to_mm = 1.0 if tp.units == "mm" else MM_PER_INCH  # cuts and rapids alike: mm, then display units
+    for verts, closed in polyline_vertices(tp, scale=to_mm * k, final_pass=True):
         v = np.vstack([verts, verts[:1]]) if closed else verts
         p, q, b = v[:-1, :2], v[1:, :2], v[:-1, 4]
         nseg = len(p)
@@ -92,7 +92,7 @@ def tool_lines(tp: Toolpath, k: float):
     rapid = tp.kind == RAPID
     moves_xy = np.any(tp.start[:, :2] != tp.end[:, :2], axis=1)
     sel = rapid & moves_xy
-    segs = np.stack([tp.start[sel, :2], tp.end[sel, :2]], axis=1) * k
+    segs = np.stack([tp.start[sel, :2], tp.end[sel, :2]], axis=1) * to_mm * k
     return runs, segs
 
 
@@ -102,9 +102,7 @@ def _start_marks(tp: Toolpath, k: float):
     info = tp.info
     if "entry_xy" not in info or "seam" not in info:
         return None
-    tp = toolpath_in_units(tp, "mm")
-    info = tp.info
-    scale = k
+    scale = (1.0 if tp.units == "mm" else MM_PER_INCH) * k
     seam = np.asarray(info["seam"], float)
     cut = np.flatnonzero((tp.kind != RAPID) & np.any(tp.start[:, :2] != tp.end[:, :2], axis=1)
                          & (np.hypot(*(tp.start[:, :2] - seam).T) <= 1e-6 * max(1.0, float(np.abs(seam).max())))
