@@ -311,7 +311,10 @@ def _summary_lines(result) -> list[str]:
             f"  smallest radius {_fmt_len(f['min_radius'])}{where}",
         ]
     tp = result.toolpath
-    if tp is not None:
+    if tp is not None:  # the toolpath is mm; the summary speaks the job's units
+        from .moves import toolpath_in_units
+
+        tp = toolpath_in_units(tp, result.units)
         lines.append(f"program: {tp.block_count} blocks, estimated time {_fmt_time(tp.time)} with rapids "
                      f"and plunges, measured deviation {tp.deviation:.4f} {tp.units} "
                      f"(tolerance {tp.tolerance:.4f} {tp.units})")

@@ -35,7 +35,7 @@ from .errors import InputError
 from .geometry import arc_sweep
 
 __all__ = ["RAPID", "LINE", "ARC_CW", "ARC_CCW", "Rapid", "Line", "Arc", "Toolpath", "move_lengths",
-           "lengths"]
+           "lengths", "toolpath_in_units"]
 
 RAPID, LINE, ARC_CW, ARC_CCW = 0, 1, 2, 3
 
@@ -210,3 +210,57 @@ def lengths(kind, start, end, center) -> np.ndarray:
 def move_lengths(path: Toolpath) -> np.ndarray:
     """Length of each move of ``path`` (see :func:`lengths`)."""
     return lengths(path.kind, path.start, path.end, path.center)
+
+
+#: Keys of ``Toolpath.info`` that hold one length (or a feed, a length per minute).
+_INFO_LENGTHS = ("offset", "depth", "step_down", "safe_height", "plunge_feed", "feed", "lead_length",
+                 "lead_in_length", "lead_out_length", "helix_radius", "retract_height", "overlap")
+#: Keys of ``Toolpath.info`` that hold one point (x, y).
+_INFO_POINTS = ("seam", "entry_xy", "helix_center")
+
+
+def toolpath_in_units(path: Toolpath, units: str) -> Toolpath:
+    """The same toolpath with its lengths in ``units`` ("mm" or "inch").
+
+    Toolpaths are made and kept in mm; the writers call this at the edge,
+    when they write a program, a drawing or a report in inch: coordinates,
+    arc centers, feeds (per minute), tool diameter, deviation and the
+    lengths of ``info`` are multiplied by 1/25.4 (1 inch = 25.4 mm exactly;
+    within an ulp of dividing, and what the programs were always written
+    from), the tolerance and the approximation target divided by 25.4;
+    ``time`` (s) and counts stay.  A path already in ``units`` is returned
+    as it is.
+
+    >>> tp = Toolpath.from_moves([Line((0.0, 0.0, 0.0), (25.4, 0.0, 0.0), 254.0)])
+    >>> t2 = toolpath_in_units(tp, "inch")
+    >>> t2.units, round(float(t2.end[0, 0]), 12), round(float(t2.feed[0]), 12)
+    ('inch', 1.0, 10.0)
+    """
+    if units not in ("mm", "inch"):
+        raise InputError(f"units={units!r} is not one of: 'mm', 'inch'")
+    if path.units == units:
+        return path
+    f = 1.0 / 25.4 if units == "inch" else 25.4
+
+    def per(v):  # the tolerances are divided, as the job divides the user's tolerance
+        return v / 25.4 if units == "inch" else v * 25.4
+
+    info = dict(path.info)
+    if info.get("approximation_target") is not None:
+        info["approximation_target"] = per(info["approximation_target"])
+    for key in _INFO_LENGTHS:
+        if info.get(key) is not None:
+            info[key] = info[key] * f
+    for key in _INFO_POINTS:
+        if info.get(key) is not None:
+            info[key] = (info[key][0] * f, info[key][1] * f)
+    if info.get("clearance"):
+        info["clearance"] = {k: (v * f if k in ("min", "margin", "tool_radius", "x", "y", "z") else v)
+                             for k, v in info["clearance"].items()}
+    if "trimmed" in info:
+        info["trimmed"] = [{**s, **{k: s[k] * f for k in ("x", "y", "radius") if k in s}} for s in info["trimmed"]]
+    if info.get("compensation"):
+        info["compensation"] = {**info["compensation"], "radius": info["compensation"]["radius"] * f}
+    return Toolpath(path.kind, path.start * f, path.end * f, path.center * f, path.feed * f, units=units,
+                    tool_diameter=path.tool_diameter * f, side=path.side, tolerance=per(path.tolerance),
+                    deviation=path.deviation * f, time=path.time, info=info)

@@ -202,6 +202,7 @@ def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes
     tool disc would enter the part's material by more than the tolerance
     (a long lead-in in a narrow slot crosses to the far side); measured on
     the exact geometry.  Raises when even without leads it would."""
+    from .moves import toolpath_in_units
     from .path.build import make_toolpath
     from .path.join import intrusion
 
@@ -214,7 +215,7 @@ def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes
     for k2 in tries:
         if kw.get("lead") == "none" and k2.get("lead") != "none":
             continue
-        tp = make_toolpath(contour, tool, cut, mach, **k2)
+        tp = toolpath_in_units(make_toolpath(contour, tool, cut, mach, **k2), k2.get("units", "mm"))
         depth, at = intrusion(tp, material)
         if depth <= tol + 1e-9:
             what = "no lead" if k2.get("lead") == "none" else f"a {k2['lead_length']:.4g} mm lead"
@@ -499,6 +500,7 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
             if makes_path:
                 import dataclasses
 
+                from .moves import toolpath_in_units
                 from .path.build import make_toolpath
 
                 # the tolerance budget: rounding to the written decimals takes at most 5 %, the moves the rest
@@ -510,7 +512,7 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
                 for name in ("depth", "step_down", "safe_height", "plunge_feed"):
                     if getattr(opts, name) is not None:
                         kw[name] = getattr(opts, name)
-                tp = timed("toolpath", make_toolpath, c, tool, cut, mach, **kw)
+                tp = toolpath_in_units(timed("toolpath", make_toolpath, c, tool, cut, mach, **kw), units)
                 if s != "on":
                     tp = timed("clearance", _clear_leads, tp, c, tool, cut, mach, kw, material, tol_mm,
                                o, lead_notes)

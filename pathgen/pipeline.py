@@ -417,23 +417,19 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
                        register=frame.register, seam=seam, moves=o.moves, units=units)
             # the drawing and the picture show where the tool's center goes
             drawn = center_mm
-            if units == "inch":
-                from .path.build import _to_inch
-
-                drawn = _to_inch(center_mm, {k: getattr(center_mm, k) for k in (
-                    "units", "tool_diameter", "side", "tolerance", "deviation", "time", "info")})
+            drawn = center_mm
         else:
             tp = timed("toolpath", make_toolpath, contour, tool, cut_moves, mach, **kw)
         import dataclasses
 
-        tp = dataclasses.replace(tp, tolerance=tol_mm / scale,
-                                 info={**tp.info, "approximation_target": plan["approximation_target"] / scale})
+        tp = dataclasses.replace(tp, tolerance=tol_mm,
+                                 info={**tp.info, "approximation_target": plan["approximation_target"]})
         if direction != o.direction:  # the program states the milling direction asked for
             tp = dataclasses.replace(tp, info={**tp.info, "direction": o.direction,
                                                "spindle": "counter-clockwise"})
         if drawn is None:
             drawn = tp
-        plan["approximation"] = float(tp.deviation) * scale
+        plan["approximation"] = float(tp.deviation)
         plan["total"] = plan["points"] + plan["approximation"] + plan["rounding"]
 
     # -- write -----------------------------------------------------------------
@@ -457,7 +453,7 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
                   notes=tuple(f"note: {n}" for n in feed_notes) + ((_NOT_REPLAYED,) if o.compensation == "machine"
                                                                      else ()),
                   check=(_replay_compensated if o.compensation == "machine" else _replay)(
-                      contour, tp, tool_mm, side, tol_mm, plan, mach, replayed))
+                      contour, tp, tool_mm, side, tol_mm, plan, mach, replayed, units), units=units)
             files["gcode"] = final["gcode"]
         if "report" in targets:
             from .export.report import write_report
@@ -472,7 +468,7 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
             program = None if not comp or replayed else {
                 "compensation": "machine", "word": comp["word"], "register": comp["register"],
                 "side": "left of travel" if comp["word"] == "G41" else "right of travel",
-                "radius": comp["radius"]}
+                "radius": comp["radius"] / scale}
             timed("report", write_report, stated, targets["report"], units=units, force=True, program=program,
                   toolpath=tp, notes=feed_notes)
             files["report"], files["report_text"] = final["report"], final["report_text"]
@@ -543,8 +539,7 @@ def verify(program, points, options=None, **kwargs) -> tuple:
     compensated = o.compensation == "machine"
     prog = read_gcode_file(program, compensation=compensated)
     result = run(points, o, make_path=True)
-    tp = result.toolpath
-    f = MM_PER_INCH if tp.units == "inch" else 1.0
+    tp = result.toolpath  # one outline's toolpath: mm (a part's is checked by verify_part)
     mach = load_job_machine(o)
     if getattr(result, "specs", ()):  # a part of several outlines
         from .verify.part import verify_part
@@ -555,7 +550,7 @@ def verify(program, points, options=None, **kwargs) -> tuple:
         from .verify.replay import program_time
 
         facts = compensated_facts(prog, result.contour, tool_radius=0.5 * float(o.tool_diameter),
-                                  side=o.side, tolerance=float(tp.tolerance) * f,
+                                  side=o.side, tolerance=float(tp.tolerance),
                                   expected=part_line_moves(tp))
         facts["time"] = program_time(prog, mach)
         facts["units"] = prog.units
@@ -564,9 +559,9 @@ def verify(program, points, options=None, **kwargs) -> tuple:
         facts["feed_moves_without_f"] = [p.line for p in prog.problems if p.rule == "no feed"]
         facts["status"] = 1 if (not facts["within_tolerance"] or facts["gouges"] or facts["problems"]) else 0
         return facts, result
-    facts = verify_program(prog, result.contour, offset=float(tp.info.get("offset", 0.0)) * f,
+    facts = verify_program(prog, result.contour, offset=float(tp.info.get("offset", 0.0)),
                            tool_radius=0.5 * o.tool_diameter if o.tool_diameter else 0.0,
-                           side=o.side, tolerance=float(tp.tolerance) * f,
+                           side=o.side, tolerance=float(tp.tolerance),
                            expected=Moves.from_toolpath(tp), machine=mach)
     return facts, result
 
@@ -591,25 +586,25 @@ def _budget(contour, tol_mm: float, units: str, smoothed: bool) -> dict:
     return plan
 
 
-def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
+def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict, units: str = "mm"):
     """The check run on the program's text before it is renamed into place:
-    read back, measured against the part; its figures go into ``out``."""
+    read back, measured against the part; its figures go into ``out`` and
+    its header lines speak ``units`` (the program's)."""
     from .verify.check import Moves, check_program, header_lines
 
-    f = MM_PER_INCH if tp.units == "inch" else 1.0
-    offset = float(tp.info.get("offset", 0.0)) * f
+    offset = float(tp.info.get("offset", 0.0))  # the toolpath is mm
     radius = 0.5 * (tool_mm or 0.0)
 
     def check(text):
         facts = check_program(text, contour, offset=offset, tool_radius=radius, side=side, tolerance=tol_mm,
                               expected=Moves.from_toolpath(tp), budget=plan, machine=machine)
         out.update(facts)
-        return header_lines(facts, tp.units)
+        return header_lines(facts, units)
 
     return check
 
 
-def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict):
+def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict, units: str = "mm"):
     """The check run on a program for cutter compensation at the control
     before it is renamed into place (:mod:`pathgen.verify.compensated`):
     read back with G41/G42, the part line's deviation, the entry and exit,
@@ -644,7 +639,7 @@ def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: 
             raise InternalCheckError("internal check failed: the written compensated program, read back: "
                                      + "; ".join(bad) + f" (chord tolerance {tol_mm:g} mm); nothing was written")
         out.update(facts)
-        return header_lines(facts, tp.units)
+        return header_lines(facts, units)
 
     return check
 

@@ -351,7 +351,8 @@ def test_inch_program_keeps_clear(tmp_path):
     runs = [r * 25.4 for r in below_stock_runs(prog)]
     dist, inside_part, path, part = shapely_clearance(runs, res.contour, "inside")
     assert not inside_part and dist >= 2.0 - TOL - 1e-3
-    assert res.toolpath.info["retract_height"] == pytest.approx(0.04)
+    # the toolpath is mm (units are converted only when written): 0.04 in
+    assert res.toolpath.info["retract_height"] == pytest.approx(0.04 * 25.4)
     notes = res.toolpath.info["notes"]
     assert notes and all(" inch to fit at " in n for n in notes if "shrunk" in n)
     assert "smallest clearance of the tool center to the part: 0.07" in text

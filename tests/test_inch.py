@@ -96,3 +96,55 @@ def test_inch_part_program_header_speaks_inch(tmp_path):
     header = [ln for ln in (tmp_path / "plate.nc").read_text().splitlines() if ln.startswith("(")]
     assert any("units: inch" in ln for ln in header)
     assert not [ln for ln in header if re.search(r"\d mm\b|\bmm\)", ln)], header
+
+
+
+def test_toolpath_is_mm_whatever_the_job_units_and_is_written_in_inch(jobs):
+    # the contract: lengths are mm inside; units are converted only where
+    # input is read and output written (1 inch = 25.4 mm exactly, Taylor &
+    # Thompson, Guide for the Use of the SI, NIST SP 811, 2008, appendix B.8;
+    # sources: inch).  The API's toolpath of the inch job is in mm ...
+    from scipy.spatial import cKDTree
+
+    from pathgen.export.gcode import gcode_text
+    from pathgen.moves import RAPID
+
+    tp_mm, tp_in = jobs["mm"][2].toolpath, jobs["in"][2].toolpath
+    assert tp_mm.units == "mm" and tp_in.units == "mm"
+    assert tp_in.tool_diameter == pytest.approx(6.0, rel=1e-12)
+    assert tp_in.tolerance == pytest.approx(0.01, rel=1e-12)
+    assert tp_in.info["depth"] == pytest.approx(2.0, rel=1e-12)
+    assert tp_in.info["offset"] == pytest.approx(tp_mm.info["offset"], rel=1e-12)
+    # ... and traces the mm job's path: both lie within the tolerance (0.01
+    # mm) of the same tool-center curve, so every end of a cutting move of
+    # one lies within twice that of the other's moves (sampled every STEP).
+    # (The moves are not the same ones: an inch program rounds to 5 decimals,
+    # a mm one to 4, so the two budgets leave the arc fit different targets.)
+    dense = _cutting_path(gcode_text(tp_mm), 1.0)
+    for z in (-1.0, -2.0):
+        on = (tp_in.kind != RAPID) & np.isclose(tp_in.end[:, 2], z, atol=1e-9)
+        ref = dense[np.isclose(dense[:, 2], z, atol=1e-3), :2]
+        assert on.sum() > 20 and len(ref) > 1000
+        assert cKDTree(ref).query(tp_in.end[on, :2])[0].max() <= 2 * 0.01 + STEP
+
+    # written in inch (G20) and in mm (G21) from that one mm toolpath, read
+    # back by the independent reader (NISTIR 6556 rules; sources:
+    # nistir-6556): the same moves, ending at the same places in mm within
+    # the written rounding (half a unit of the 5th inch decimal, 0.000127 mm,
+    # plus half of the 4th mm decimal, 0.00005 mm), at the same feeds
+    text_in, text_mm = gcode_text(tp_in, units="inch"), gcode_text(tp_in, units="mm")
+    assert "G20" in text_in and "G21" not in text_in and "G21" in text_mm and "G20" not in text_mm
+    p_in, p_mm = gr.read(text_in), gr.read(text_mm)
+    assert p_in.units == "inch" and p_mm.units == "mm"
+    assert [m.g for m in p_in.moves] == [m.g for m in p_mm.moves]
+    ends_in = np.array([[np.nan if v is None else v for v in m.end] for m in p_in.moves], float) * IN
+    ends_mm = np.array([[np.nan if v is None else v for v in m.end] for m in p_mm.moves], float)
+    np.testing.assert_allclose(ends_in, ends_mm, rtol=0, atol=0.5e-5 * IN + 0.5e-4 + 1e-9)
+    feeds_in = np.array([m.feed for m in p_in.moves if m.g != 0]) * IN
+    feeds_mm = np.array([m.feed for m in p_mm.moves if m.g != 0])
+    np.testing.assert_allclose(feeds_in, feeds_mm, rtol=1e-3)  # feeds are rounded: 1 mm/min, 0.1 in/min
+    # and the moves of the inch program end on the API's (mm) toolpath
+    cut = np.array([m.g != 0 and m.start[0] is not None for m in p_in.moves])
+    assert cut.sum() > 50
+    tree = cKDTree(tp_in.end[tp_in.kind != RAPID])
+    assert tree.query(ends_in[cut])[0].max() <= np.sqrt(3) * 0.5e-5 * IN + 1e-9

@@ -76,13 +76,15 @@ def test_the_limits_themselves():
 def test_default_tolerance_is_one_length_in_mm_and_inch(tmp_path):
     # 0.01 mm = 0.000393701 inch (1 in = 25.4 mm, by definition): an inch job
     # without --tolerance once took 0.01 inch, 25.4 times coarser
+    from pathgen.moves import toolpath_in_units
     from pathgen.pipeline import run
 
     pts = np.loadtxt(circle_file(tmp_path, 20.0), delimiter=",", skiprows=1)
     mm = run(pts, closed=True, tool_diameter=6, gcode=tmp_path / "mm.nc")
     inch = run(pts / 25.4, closed=True, units="inch", tool_diameter=6 / 25.4, gcode=tmp_path / "in.nc")
     assert mm.toolpath.tolerance == pytest.approx(0.01)
-    assert inch.toolpath.tolerance == pytest.approx(0.01 / 25.4)
+    assert inch.toolpath.tolerance == pytest.approx(0.01)  # the toolpath is mm, whatever the job's units
+    assert toolpath_in_units(inch.toolpath, "inch").tolerance == pytest.approx(0.01 / 25.4)
 
 
 def test_a_drawings_units_win_and_a_disagreeing_units_option_is_an_error(tmp_path):

@@ -15,6 +15,7 @@ from hypothesis import strategies as st
 from conftest import circle_points, ellipse_distance, ellipse_points
 from pathgen.checks.machine import Cut, Tool
 from pathgen.errors import InputError
+from pathgen.moves import toolpath_in_units
 from pathgen.path.biarc import biarc
 from pathgen.path.build import contour_moves, make_toolpath
 from pathgen.path.measure import Chain, sample_chain
@@ -476,7 +477,14 @@ def test_open_profile_and_inch_units():
     x = np.linspace(0, 50, 60)
     c = fit(np.c_[x, 5 * np.sin(x / 8)])
     mm = make_toolpath(c, Tool(4.0), Cut(side="outside"), lead="line")
-    inch = make_toolpath(c, Tool(4.0), Cut(side="outside"), lead="line", units="inch")
+    # an inch job's toolpath is in mm too (units only word its notes); a
+    # writer converts it when it writes inch (1 inch = 25.4 mm exactly: Taylor
+    # & Thompson, Guide for the Use of the SI, NIST SP 811, 2008, appendix B.8;
+    # sources: inch)
+    worded = make_toolpath(c, Tool(4.0), Cut(side="outside"), lead="line", units="inch")
+    assert worded.units == "mm"
+    np.testing.assert_array_equal(worded.start, mm.start)
+    inch = toolpath_in_units(worded, "inch")
     assert inch.units == "inch"
     np.testing.assert_allclose(inch.start * 25.4, mm.start, atol=1e-9)  # exact inch definition
     assert inch.deviation * 25.4 == pytest.approx(mm.deviation)

@@ -212,13 +212,14 @@ def test_inch_toolpath_is_drawn_where_the_mm_one_is():
     from matplotlib.collections import LineCollection
 
     from pathgen.checks.machine import Cut, Tool
+    from pathgen.moves import toolpath_in_units
     from pathgen.path.build import make_toolpath
 
     contour = _part()
     tool, cut = Tool(6.0), Cut(side="outside")
     pictures = []
     for units in ("mm", "inch"):
-        tp = make_toolpath(contour, tool, cut, units=units)
+        tp = toolpath_in_units(make_toolpath(contour, tool, cut), units)
         fig = plot_figure(contour, toolpath=tp, units="inch")
         ax = fig.axes[0]
         lines = [np.asarray(l.get_xydata()) for l in ax.get_lines()]

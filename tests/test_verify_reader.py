@@ -147,13 +147,14 @@ def test_file_errors(tmp_path):
 def test_same_moves_as_the_independent_test_reader():
     from pathgen.checks.machine import Cut, Tool
     from pathgen.export.gcode import gcode_text
+    from pathgen.moves import toolpath_in_units
     from pathgen.path.build import make_toolpath
     from pathgen.spline import fit
 
     t = np.linspace(0, 2 * np.pi, 90, endpoint=False)
     c = fit(np.c_[40 * np.cos(t), 25 * np.sin(t) + 3 * np.sin(3 * t)], closed=True)
     for units in ("mm", "inch"):
-        tp = make_toolpath(c, Tool(6.0), Cut(side="outside"), depth=2.0, step_down=1.0, units=units)
+        tp = toolpath_in_units(make_toolpath(c, Tool(6.0), Cut(side="outside"), depth=2.0, step_down=1.0), units)
         text = gcode_text(tp, line_numbers=True, spindle_speed=12000)
         ours = read_gcode(text, strict=True)
         theirs = gr.read(text)

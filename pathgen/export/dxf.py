@@ -33,6 +33,7 @@ from pathlib import Path
 import numpy as np
 
 from .._options import CAUTION, MM_PER_INCH, UNITS, check_option
+from ..moves import toolpath_in_units
 from ..errors import ExportError, InputError
 from ..path.model import ARC_CCW, ARC_CW, RAPID, Toolpath, arc_sweep
 from ._atomic import atomic_paths
@@ -272,11 +273,7 @@ def _build(contour, points, toolpath, arcs, report, units):
     import ezdxf
 
     k = 1.0 / MM_PER_INCH if units == "inch" else 1.0  # contour, points and report are mm
-
-    def tp_scale(tp):
-        if tp.units == units:
-            return 1.0
-        return MM_PER_INCH if tp.units == "inch" else 1.0 / MM_PER_INCH
+    tp_scale = k  # the contour's arcs are mm: scaled as their vertices are made
 
     doc = ezdxf.new("R2010", setup=False)
     doc.units = ezdxf.units.IN if units == "inch" else ezdxf.units.MM
@@ -315,7 +312,10 @@ def _build(contour, points, toolpath, arcs, report, units):
             continue
         if not isinstance(tp, Toolpath):
             raise InputError(f"{'arcs' if layer == 'CONTOUR-ARCS' else 'toolpath'} must be a Toolpath, got {type(tp).__name__}")
-        for verts, closed in polyline_vertices(tp, scale=tp_scale(tp), final_pass=(layer == "TOOL-CENTER")):
+        scale = tp_scale
+        if layer == "TOOL-CENTER":  # the tool path is mm: converted here, as written
+            tp, scale = toolpath_in_units(tp, units), 1.0
+        for verts, closed in polyline_vertices(tp, scale=scale, final_pass=(layer == "TOOL-CENTER")):
             lw = msp.add_lwpolyline([], dxfattribs={"layer": layer})
             lw.lwpoints.values = verts  # all vertices at once (add_lwpolyline appends one by one)
             lw.closed = closed

@@ -41,6 +41,7 @@ import numpy as np
 
 from .._options import CAUTION_LINES, duration_text
 from ..errors import ExportError, InputError
+from ..moves import toolpath_in_units
 from ..path.model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath, arc_sweep
 from ._atomic import atomic_write
 
@@ -470,14 +471,15 @@ def gcode_text(
     decimals: int | None = None,
     notes=(),
     frame=None,
+    units: str | None = None,
 ) -> str:
     """The G-code program for ``toolpath``, as text ending in a newline.
 
     Parameters
     ----------
     toolpath : Toolpath
-        Moves in ``toolpath.units`` (mm → G21, inch → G20; coordinates are
-        written as they are, without conversion), feeds in units/min.
+        Moves in ``toolpath.units`` (pathgen's toolpaths are in mm), feeds
+        in units/min.
     program_name : str
         Name in the header comment.
     source : str
@@ -500,6 +502,11 @@ def gcode_text(
         What surrounds the moves (program number, tool, offsets, coolant,
         end code, numbering, comment style); None: the default frame, the
         program above.  The moves are the same with any frame.
+    units : "mm", "inch" or None
+        Units of the program: mm → G21, inch → G20; the toolpath is
+        converted here, when it is written
+        (:func:`pathgen.moves.toolpath_in_units`, 1 inch = 25.4 mm exactly).
+        None: the toolpath's own units, written as they are.
 
     Returns
     -------
@@ -529,6 +536,8 @@ def gcode_text(
     G0 Z5
     M2
     """
+    if units is not None:
+        toolpath = toolpath_in_units(toolpath, units)
     units, decimals, spindle_speed = _options(toolpath, decimals, spindle_speed)
     from .frame import Frame, lines_for_wide_arcs
 
@@ -640,7 +649,7 @@ def write_gcode(toolpath: Toolpath, path, *, force: bool = False, check=None, **
         The path written.  Nothing is written if any check fails.
     """
     unknown = set(options) - {"program_name", "source", "spindle_speed", "line_numbers", "single_feed", "decimals",
-                              "frame", "notes"}
+                              "frame", "notes", "units"}
     if unknown:
         raise InputError(f"write_gcode got unknown option(s): {', '.join(sorted(unknown))}")
     p = Path(os.fspath(path))

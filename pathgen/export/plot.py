@@ -20,6 +20,7 @@ from pathlib import Path
 import numpy as np
 
 from .._options import CAUTION, CAUTION_LINES, MM_PER_INCH, UNITS, check_option, duration_text
+from ..moves import toolpath_in_units
 from ..errors import InputError
 from ..path.model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
 from ._atomic import atomic_paths
@@ -229,6 +230,7 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
 
     # tool-center path
     if toolpath is not None:
+        toolpath = toolpath_in_units(toolpath, "mm")  # drawn from mm, in the picture's units
         runs, rapids = tool_lines(toolpath, k)
         for run in runs:
             ax.plot(run[:, 0], run[:, 1], color=_COLORS["tool"], lw=1.6, ls="-", zorder=2)
@@ -237,7 +239,7 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
                                              linestyles=(0, (4, 3)), zorder=2))
             legend.append(Line2D([], [], color=_COLORS["rapid"], lw=1.0, ls=(0, (4, 3)), label="rapid moves"))
         if runs:
-            d = toolpath.tool_diameter * (1.0 if toolpath.units == "mm" else MM_PER_INCH) * k
+            d = toolpath.tool_diameter * k
             legend.append(Line2D([], [], color=_COLORS["tool"], lw=1.6,
                                  label=f"tool center, {_fmt(d)} {u} tool, {toolpath.side}"))
         marks = _start_marks(toolpath, k)
@@ -246,7 +248,7 @@ def plot_figure(contour, *, points=None, toolpath=None, report=None, units: str 
             ax.plot([ex], [ey], "v", ms=11, color="#6a1b9a", zorder=8, gid="entry")
             hc, hr = toolpath.info.get("helix_center"), toolpath.info.get("helix_radius") or 0.0
             if hc is not None and hr > 0:
-                sc = (1.0 if toolpath.units == "mm" else MM_PER_INCH) * k
+                sc = k
                 ax.add_patch(Circle((hc[0] * sc, hc[1] * sc), hr * sc, fill=False, ec="#6a1b9a", lw=1.2,
                                     ls=(0, (2, 2)), zorder=8, gid="helix"))
             legend.append(Line2D([], [], marker="v", ls="", ms=9, color="#6a1b9a", label=f"entry: {entry}"))

@@ -19,6 +19,7 @@ import numpy as np
 
 from .._options import UNITS, check_option
 from ..errors import ExportError
+from ..moves import toolpath_in_units
 from ._atomic import atomic_paths
 
 __all__ = ["write_report", "report_paths_for", "report_json", "toolpath_section", "toolpath_text"]
@@ -76,7 +77,8 @@ def _plain(value, where: str):
 
 def toolpath_section(tp) -> dict:
     """The program's entry, leads, heights and measured clearance, in the
-    toolpath's units (the ``toolpath`` field of the report; docs/report.md)."""
+    toolpath's units (the ``toolpath`` field of the report; docs/report.md);
+    the report writers pass it the toolpath converted to the report's units."""
     info = tp.info
     c = info.get("clearance")
     return {
@@ -153,7 +155,7 @@ def report_json(report, *, units: str = "mm", toolpath=None) -> str:
     if not isinstance(data, dict):
         raise ExportError(f"report.to_dict() gave a {type(data).__name__}, not a dict")
     if toolpath is not None:
-        data = {**data, "toolpath": toolpath_section(toolpath)}
+        data = {**data, "toolpath": toolpath_section(toolpath_in_units(toolpath, units))}
     return json.dumps(_plain(data, ""), allow_nan=False, sort_keys=True, indent=2, ensure_ascii=False) + "\n"
 
 
@@ -197,7 +199,7 @@ def write_report(report, path, *, units: str = "mm", force: bool = False,
     if not isinstance(text, str):
         raise ExportError(f"report.to_text() gave a {type(text).__name__}, not text")
     if toolpath is not None:
-        text = text.rstrip("\n") + "\n" + toolpath_text(toolpath)
+        text = text.rstrip("\n") + "\n" + toolpath_text(toolpath_in_units(toolpath, units))
     if not text.endswith("\n"):
         text += "\n"
     if program:

@@ -457,8 +457,9 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
         one pass); passes are equal, each at most ``step_down``.
     safe_height : z of rapid moves, mm.  plunge_feed : mm/min for the
         vertical feed moves (None → half the cutting feed).
-    units : "mm" or "inch": units of the returned toolpath (converted at
-        the end; all inputs are mm).
+    units : "mm" or "inch": the units its notes and messages are worded in
+        (the user's units); the toolpath itself is always in mm (a writer
+        converts it when it writes inch: :func:`pathgen.moves.toolpath_in_units`).
 
     Returns
     -------
@@ -726,26 +727,4 @@ def make_toolpath(contour, tool=None, cut=None, machine=None, *, moves: str = "a
     }
     meta = dict(units="mm", tool_diameter=float(tool.diameter), side=cut.side, tolerance=float(tol),
                 deviation=float(dev), time=float(time_s), info=info)
-    if units == "inch":
-        return _to_inch(Toolpath(kind, start, end, center, feed_arr), meta)
     return Toolpath(kind, start, end, center, feed_arr, **meta)
-
-
-def _to_inch(path: Toolpath, meta: dict) -> Toolpath:
-    f = 1.0 / MM_PER_INCH
-    info = dict(meta["info"])
-    for key in ("offset", "depth", "step_down", "safe_height", "plunge_feed", "feed", "lead_length",
-                "lead_in_length", "lead_out_length", "helix_radius", "retract_height", "overlap"):
-        info[key] = info[key] * f
-    info["seam"] = (info["seam"][0] * f, info["seam"][1] * f)
-    info["entry_xy"] = (info["entry_xy"][0] * f, info["entry_xy"][1] * f)
-    if info.get("helix_center") is not None:
-        info["helix_center"] = (info["helix_center"][0] * f, info["helix_center"][1] * f)
-    if info.get("clearance"):
-        info["clearance"] = {k: (v * f if k in ("min", "margin", "tool_radius", "x", "y", "z") else v)
-                             for k, v in info["clearance"].items()}
-    info["trimmed"] = [{**s, **{k: s[k] * f for k in ("x", "y", "radius") if k in s}} for s in info["trimmed"]]
-    meta = {**meta, "units": "inch", "info": info}
-    for key in ("tool_diameter", "tolerance", "deviation"):
-        meta[key] = meta[key] * f
-    return Toolpath(path.kind, path.start * f, path.end * f, path.center * f, path.feed * f, **meta)

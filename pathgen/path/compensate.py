@@ -34,7 +34,7 @@ import math
 import numpy as np
 
 from ..errors import InputError
-from .build import approximate_all, close_chain, start_at, tangent_at, _to_inch, choose_seam
+from .build import approximate_all, close_chain, start_at, tangent_at, choose_seam
 from .flatten import drop_tiny
 from .measure import Chain
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
@@ -62,7 +62,8 @@ def part_line_toolpath(contour, tool_center: Toolpath, tool, cut, machine, *, re
     register : the D register (0 to 99).
     seam : the seam point asked for (mm), as given to ``make_toolpath``.
     moves : "arcs" or "lines".
-    units : "mm" or "inch" for the returned toolpath.
+    units : "mm" or "inch": kept for callers; the toolpath is in mm (a
+        writer converts it when it writes inch).
 
     Returns
     -------
@@ -229,12 +230,4 @@ def part_line_toolpath(contour, tool_center: Toolpath, tool, cut, machine, *, re
     })
     meta = dict(units="mm", tool_diameter=float(tool.diameter), side=cut.side, tolerance=tol,
                 deviation=float(dev), time=float(time_s), info=info)
-    path = Toolpath(kind, start, end, center, planned)
-    if units == "inch":
-        out = _to_inch(path, meta)
-        info = dict(out.info)
-        info["compensation"] = {**info["compensation"], "radius": r / 25.4}
-        return Toolpath(out.kind, out.start, out.end, out.center, out.feed, units="inch",
-                        tool_diameter=out.tool_diameter, side=out.side, tolerance=out.tolerance,
-                        deviation=out.deviation, time=out.time, info=info)
     return Toolpath(kind, start, end, center, planned, **meta)
