@@ -696,3 +696,14 @@ def test_part_program_is_replayed_from_its_text(plate_program):
     said = [ln for ln in head if ln.startswith("(replayed from this text:")]
     assert len(said) == 1 and "none enters the part by more than the tolerance" in said[0]
     assert all(len(ln) <= 256 for ln in head)
+
+
+def test_part_drawing_is_the_same_bytes_every_run(tmp_path):
+    # same input, same output: no creation dates, random GUIDs or time
+    # stamps in the part's DXF (common practice for reproducible files)
+    src = plate_dxf(tmp_path / "plate.dxf")
+    outs = []
+    for k in range(2):
+        run(src, tool_diameter=6.0, depth=3.0, step_down=1.5, dxf=tmp_path / f"out{k}.dxf")
+        outs.append((tmp_path / f"out{k}.dxf").read_bytes())
+    assert outs[0] == outs[1]

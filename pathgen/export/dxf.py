@@ -25,6 +25,7 @@ stamps and GUIDs are fixed to its constants while writing.
 
 from __future__ import annotations
 
+import contextlib
 import math
 import os
 import warnings
@@ -426,10 +427,21 @@ def write_dxf(path, contour, *, points=None, toolpath=None, arcs=None, report=No
     import ezdxf
 
     units = check_option("units", units, UNITS)
-    old = ezdxf.options.write_fixed_meta_data_for_testing
-    ezdxf.options.write_fixed_meta_data_for_testing = True  # no dates or random GUIDs, at creation and save
-    try:
+    with fixed_metadata():
         return _write(path, contour, points, toolpath, arcs, report, units, force)
+
+
+@contextlib.contextmanager
+def fixed_metadata():
+    """While a drawing is made and saved: no creation dates, random GUIDs or
+    time stamps (ezdxf's fixed meta data), so the same job writes the same
+    bytes (single outline and part drawings)."""
+    import ezdxf
+
+    old = ezdxf.options.write_fixed_meta_data_for_testing
+    ezdxf.options.write_fixed_meta_data_for_testing = True
+    try:
+        yield
     finally:
         ezdxf.options.write_fixed_meta_data_for_testing = old
 

@@ -57,6 +57,13 @@ def _shape_vertices(shape, k):
 def write_part_dxf(path, outlines, contours, rows, *, toolpaths=None, units="mm", tolerance=0.01,
                    tabs=None, force: bool = True) -> Path:
     """Write the part's drawing (see the module notes); lengths mm in, ``units`` out."""
+    from .dxf import fixed_metadata
+
+    with fixed_metadata():  # the same part, the same bytes
+        return _write_part_dxf(path, outlines, contours, rows, toolpaths, units, tolerance, tabs, force)
+
+
+def _write_part_dxf(path, outlines, contours, rows, toolpaths, units, tolerance, tabs, force) -> Path:
     import ezdxf
 
     from ..path.build import contour_moves
