@@ -614,6 +614,15 @@ def _program_lengths(facts):
     return u, f, L
 
 
+def _verify_verdict(facts) -> list[str]:
+    """verify's last lines: the time as written and the verdict."""
+    t = facts["time"]
+    return ["estimated cycle time as written: " + ("not known (a feed move has no F)" if t is None
+                                                   else _fmt_time(t)),
+            "clean" if facts["status"] == 0 else
+            "NOT clean (exit status 1): fix the lines named above before cutting"]
+
+
 def _verify_text(facts, result, a) -> list[str]:
     """The verify command's plain lines (figures in the program's units)."""
     u, f, L = _program_lengths(facts)
@@ -660,12 +669,7 @@ def _verify_text(facts, result, a) -> list[str]:
         return ", ".join(f"{z / f:g}" for z in v) or "none"
 
     lines.append(f"cutting depths: {zs(got)} {u} (the path made from the points: {zs(want)} {u})")
-    t = facts["time"]
-    lines.append("estimated cycle time as written: " + ("not known (a feed move has no F)" if t is None
-                                                        else _fmt_time(t)))
-    lines.append("clean" if facts["status"] == 0 else
-                 "NOT clean (exit status 1): fix the lines named above before cutting")
-    return lines
+    return lines + _verify_verdict(facts)
 
 
 def _verify_part_text(facts, result) -> list[str]:
@@ -716,12 +720,7 @@ def _verify_part_text(facts, result) -> list[str]:
     if nof:
         shown = ", ".join(str(n) for n in nof[:10]) + (" ..." if len(nof) > 10 else "")
         lines.append(f"feed moves without F: {len(nof)} (lines {shown})")
-    t = facts["time"]
-    lines.append("estimated cycle time as written: " + ("not known (a feed move has no F)" if t is None
-                                                        else _fmt_time(t)))
-    lines.append("clean" if facts["status"] == 0 else
-                 "NOT clean (exit status 1): fix the lines named above before cutting")
-    return lines
+    return lines + _verify_verdict(facts)
 
 
 def _cmd_verify(a, out, err) -> int:
