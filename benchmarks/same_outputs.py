@@ -90,9 +90,11 @@ def write_all(out: Path) -> None:
                 print(f"{name}: exit {rc}", file=sys.stderr)
 
 
-def compare(before: Path) -> int:
+def compare(before: Path, write=None) -> int:
+    """Write the outputs again (with ``write``, default this script's) into a
+    fresh folder and list the files whose bytes differ from ``before``."""
     after = Path(tempfile.mkdtemp(prefix="after-"))
-    write_all(after)
+    (write or write_all)(after)
     names = sorted({p.name for p in before.iterdir()} | {p.name for p in after.iterdir()})
     bad = []
     for n in names:
@@ -105,17 +107,19 @@ def compare(before: Path) -> int:
     return 1 if bad else 0
 
 
-def main() -> int:
-    ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+def main(write=None, doc=None) -> int:
+    """--write DIR or --compare DIR with ``write`` (default this script's)."""
+    write = write or write_all
+    ap = argparse.ArgumentParser(description=(doc or __doc__).splitlines()[0])
     g = ap.add_mutually_exclusive_group(required=True)
     g.add_argument("--write", type=Path)
     g.add_argument("--compare", type=Path)
     a = ap.parse_args()
     if a.write:
-        write_all(a.write)
+        write(a.write)
         print(f"written to {a.write}")
         return 0
-    return compare(a.compare)
+    return compare(a.compare, write)
 
 
 if __name__ == "__main__":
