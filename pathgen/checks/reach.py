@@ -185,7 +185,7 @@ def largest_tool_diameter(samples, sign: int):
     closes on it (any tool reaches), or ``sign`` = 0 (cutting on the line).
 
     Gaps are measured between samples of the contour (pairs searched on at
-    most 3000 of them, then refined on all samples near the narrowest pairs),
+    most 1500 of them, then refined on every sample around the narrowest pairs),
     so a gap reads at most about a sample spacing's sagitta wide of its true
     width.  A tool of exactly this diameter touches with no margin: pick a
     smaller one.
@@ -223,10 +223,15 @@ def _disc_radii(p, n, q, sp, sq, length, closed, skip):
     return out
 
 
-def _narrowest_disc(S, sign, most: int = 3000) -> float:
+def _narrowest_disc(S, sign, most: int = 1500) -> float:
     """Smallest ρ (see :func:`largest_tool_diameter`) over the samples, from
     contour points more than two sample spacings apart along the contour
-    (closer ones measure the curvature, which is counted exactly)."""
+    (closer ones measure the curvature, which is counted exactly).
+
+    Pairs are searched on at most ``most`` evenly spread samples; around the
+    16 narrowest, the point and its contact are searched again, on finer
+    and finer samples down to every one (the cost stays about most²
+    whatever the number of samples)."""
     n_all = len(S.xy)
     if n_all < 4 or not S.length > 0:
         return math.inf
@@ -241,15 +246,38 @@ def _narrowest_disc(S, sign, most: int = 3000) -> float:
     best = float(rho.min())
     if step == 1:
         return best
-    # refine near the narrowest pairs on every sample
-    for k in np.argsort(rho)[:8]:
+
+    def around(i, half, stride):
+        win = np.arange(i - half, i + half + 1, stride)
+        return win % n_all if S.closed else win[(win >= 0) & (win < n_all)]
+
+    for k in np.argsort(rho)[:16]:
         if not np.isfinite(rho[k]):
             break
-        i = int(sub[k])
-        win = np.arange(i - step, i + step + 1)
-        win = win % n_all if S.closed else win[(win >= 0) & (win < n_all)]
-        r = _disc_radii(S.xy[win], normal[win], S.xy, S.s[win], S.s, *args)
-        best = min(best, float(r.min()))
+        # the contact on the coarse samples
+        d = S.xy[sub] - S.xy[sub[k]]
+        ahead = d @ normal[sub[k]]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            r = np.where(ahead > 0, (d * d).sum(axis=1) / (2 * ahead), np.inf)
+        ds = np.abs(S.s[sub] - S.s[sub[k]])
+        r[np.minimum(ds, S.length - ds) <= skip if S.closed else ds <= skip] = np.inf
+        pi, qi, half = int(sub[k]), int(sub[int(np.argmin(r))]), step
+        # then around the point and its contact, ever finer down to every sample
+        while True:
+            stride = max(1, half // 64)
+            p, q = around(pi, half, stride), around(qi, half, stride)
+            found = _disc_radii(S.xy[p], normal[p], S.xy[q], S.s[p], S.s[q], *args)
+            j = int(np.argmin(found))
+            if not np.isfinite(found[j]):
+                break
+            best = min(best, float(found[j]))
+            if stride == 1:
+                break
+            d = S.xy[q] - S.xy[p[j]]
+            ahead = d @ normal[p[j]]
+            with np.errstate(divide="ignore", invalid="ignore"):
+                r = np.where(ahead > 0, (d * d).sum(axis=1) / (2 * ahead), np.inf)
+            pi, qi, half = int(p[j]), int(q[int(np.argmin(r))]), stride
     return best
 
 
