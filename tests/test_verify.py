@@ -139,7 +139,7 @@ def test_budget_is_in_the_header_and_the_report(tmp_path):
     assert len(budget) == 1
     assert "[interpolating]" in budget[0] and "[4 decimals]" in budget[0] and "<= 0.01 mm" in budget[0]
     assert any(ln.startswith("(replayed from this text: deviation") for ln in head)
-    assert any(ln.startswith("(replayed clearance: no gouge") for ln in head)
+    assert any(ln.startswith("(replayed clearance: the tool center keeps") for ln in head)
     data = json.loads((tmp_path / "cam.report.json").read_text())
     assert data["program"]["within_tolerance"] is True
     assert data["program"]["budget"]["decimals"] == 4
@@ -308,3 +308,41 @@ def test_verify_reads_an_inch_program_against_inch_points(tmp_path, capsys):
                  "--tolerance", "0.0004", "--quiet"]) == 0
     code, out, err = _verify(capsys, nc, p, "--units", "inch", "--tool-diameter", "0.25", "--tolerance", "0.0004")
     assert code == 0 and " inch" in out
+
+
+def test_the_clearance_line_says_how_far_the_tool_cuts_into_the_part():
+    # arithmetic of the line itself: the tool cuts into the part by its radius
+    # less the tool center's distance (a disc of radius r about a center at
+    # distance c from a line reaches r - c past it: handbook geometry)
+    from pathgen.verify.check import clearance_words
+
+    within = clearance_words({"smallest": 2.99071, "tool_radius": 3.0}, 0.01, "mm")
+    assert within.endswith("so the tool cuts up to 0.00929 mm into it, within the 0.01 mm tolerance")
+    clear = clearance_words({"smallest": 3.2, "tool_radius": 3.0}, 0.01, "mm")
+    assert clear.endswith("so the tool never cuts into it")
+    gouge = clearance_words({"smallest": 2.5, "tool_radius": 3.0}, 0.01, "mm")
+    assert gouge.endswith("so the tool cuts up to 0.5 mm into it, beyond the 0.01 mm tolerance: a gouge")
+    inch = clearance_words({"smallest": 2.99071, "tool_radius": 3.0}, 0.01, "inch")
+    assert "0.000365748 inch into it" in inch  # 0.00929 mm / 25.4 mm per inch (exact since 1959, from memory)
+
+
+def test_the_header_lines_shown_in_docs_gcode_are_the_real_ones(tmp_path):
+    # docs/gcode.md shows the bracket's budget and replay lines: the same
+    # command must write the same lines
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parent.parent
+    doc = (root / "docs" / "gcode.md").read_text()
+    block = re.search(r"`pathgen gcode (samples/bracket\.csv[^`]*)`\)\n\n```\n(.*?)```", doc, re.S)
+    assert block, "docs/gcode.md lost its header example"
+    argv = block.group(1).split()
+    argv[0] = str(root / argv[0])
+    argv[argv.index("-o") + 1] = str(tmp_path / "bracket.nc")
+    import io
+
+    assert main(["gcode", *argv], out=io.StringIO(), err=io.StringIO()) == 0
+    written = (tmp_path / "bracket.nc").read_text().splitlines()
+    shown = block.group(2).splitlines()
+    assert len(shown) == 3
+    for line in shown:
+        assert line in written

@@ -215,9 +215,23 @@ def header_lines(facts: dict, units: str) -> list[str]:
     out.append(line)
     cl = facts.get("clearance")
     if cl is not None:
-        out.append(f"replayed clearance: no gouge; the tool center keeps {_num(_u(cl['smallest'], u))} {u} from the "
-                   f"part [tool radius {_num(_u(cl['tool_radius'], u))}]")
+        out.append("replayed clearance: " + clearance_words(cl, facts["tolerance"], u))
     return out
+
+
+def clearance_words(cl: dict, tolerance: float, units: str) -> str:
+    """What the replayed clearance means for the part: the smallest distance
+    of the tool center from it, and how far the tool then cuts into the part
+    (a toolpath within a chord tolerance may come that close; more is a gouge)."""
+    u = units
+    smallest, r = cl["smallest"], cl["tool_radius"]
+    said = f"the tool center keeps {_num(_u(smallest, u))} {u} from the part [tool radius {_num(_u(r, u))}]"
+    into = r - smallest
+    if into <= 1e-9:
+        return said + ", so the tool never cuts into it"
+    word = "within" if into <= tolerance + 1e-12 else "beyond"
+    return (said + f", so the tool cuts up to {_num(_u(into, u))} {u} into it, {word} the "
+            f"{_num(_u(tolerance, u))} {u} tolerance" + ("" if word == "within" else ": a gouge"))
 
 
 def summary_lines(facts: dict, units: str) -> list[str]:
