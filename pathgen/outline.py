@@ -476,11 +476,22 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
         if found is not None:
             return found
     hgl = np.diff(parameters(p, param, closed))  # one step per interval
+    span = 1
+    if sigma is not None and param == "chord":
+        from .noise import chord_parameter, chord_span
+
+        span = chord_span(noise.sigma, noise.spacing_median, n)
+        if span > 1:
+            # noise comparable with the spacing moves the chord lengths: the
+            # parameter comes from chords many points long instead
+            hgl = np.diff(chord_parameter(p, closed, span))
     facts = {"corner_angle": corner_angle, "smooth": smooth, "smoothing": mode}
     if noise is not None:
         facts["noise"] = noise
     if sigma is not None:
         facts.update(sigma=sigma, dof=0.0, dof_error=0.0)
+        if span > 1:
+            facts["chord_span"] = span
 
     if closed and len(cs) == 0:
         # rotate to the sharpest point so a straight run is not cut by the seam
@@ -576,17 +587,22 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
                 if j == b - a:
                     c_stop = seam_tangent
             if smoothing and len(sub) >= 3:
-                from .smooth import fit_noise, fit_within
+                from .smooth import CURVATURE_NOISE_SHARE, fit_noise, fit_within
 
                 fixed = np.zeros(len(sub), bool)
                 fixed[0] = fixed[-1] = True
                 if sigma is not None:
                     if corner_free_loop:
-                        c_sm, f = fit_noise(tsub, sub[:-1], sigma, periodic=True)
+                        c_sm, f = fit_noise(tsub, sub[:-1], sigma, periodic=True,
+                                            curvature_share=CURVATURE_NOISE_SHARE)
                     else:
-                        c_sm, f = fit_noise(tsub, sub, sigma, fixed=fixed)
+                        c_sm, f = fit_noise(tsub, sub, sigma, fixed=fixed, curvature_share=CURVATURE_NOISE_SHARE)
                     facts["dof"] += f["dof"]
                     facts["dof_error"] = math.hypot(facts["dof_error"], f["dof_error"])
+                    if f["lambda_steps"]:
+                        # smoothed beyond the residual criterion (smooth.CURVATURE_NOISE_SHARE)
+                        facts["curvature_noise_share"] = max(facts.get("curvature_noise_share", 0.0),
+                                                             f["curvature_noise_share"])
                 elif corner_free_loop:
                     c_sm, f = fit_within(tsub, sub[:-1], smooth, periodic=True)
                 else:

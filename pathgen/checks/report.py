@@ -492,7 +492,8 @@ def fit_facts(contour) -> dict | None:
         return None
     out = {"smoothing": info["smoothing"], "tolerance": info.get("smooth"),
            "max_residual": info.get("max_residual"), "rms_residual": info.get("rms_residual"),
-           "sigma_used": info.get("sigma"), "dof": info.get("dof"), "dof_error": info.get("dof_error")}
+           "sigma_used": info.get("sigma"), "dof": info.get("dof"), "dof_error": info.get("dof_error"),
+           "chord_span": info.get("chord_span"), "curvature_noise_share": info.get("curvature_noise_share")}
     if "recognised" in info:
         rec = info["recognised"]
         out["recognised"] = {"lines": rec["lines"], "arcs": rec["arcs"], "free": rec["free"],
@@ -609,6 +610,15 @@ def _fit_lines(fit, k, u) -> list:
             dof = f", about {fit['dof']:.0f} ± {max(fit['dof_error'], 1.0):.0f} degrees of freedom kept"
         lines.append(f"fit: smoothed to the points' noise (σ {_g(fit['sigma_used'], k)} {u} aimed at): "
                      f"{within}{dof}; exact interpolation: --smooth off")
+        further = []
+        if fit.get("chord_span"):
+            further.append(f"the parameter from chords {fit['chord_span']} points long (the noise is not small "
+                           "against the spacing)")
+        if fit.get("curvature_noise_share") is not None:
+            further.append(f"smoothed beyond the noise until the curvature the noise leaves is "
+                           f"{100 * fit['curvature_noise_share']:.1f} % of the largest")
+        if further:
+            lines.append("fit: dense noisy points: " + "; ".join(further))
     elif mode == "tolerance":
         lines.append(f"fit: smoothed within {_g(fit['tolerance'], k)} {u} (--smooth): {within}")
     elif mode == "none":
