@@ -313,11 +313,12 @@ def _summary_lines(result) -> list[str]:
     tp = result.toolpath
     if tp is not None:  # the toolpath is mm; the summary speaks the job's units
         from .moves import toolpath_in_units
+        from .verify.check import _num
 
         tp = toolpath_in_units(tp, result.units)
         lines.append(f"program: {tp.block_count} blocks, estimated time {_fmt_time(tp.time)} with rapids "
-                     f"and plunges, measured deviation {tp.deviation:.4f} {tp.units} "
-                     f"(tolerance {tp.tolerance:.4f} {tp.units})")
+                     f"and plunges, measured deviation {_num(tp.deviation, 4)} {tp.units} "
+                     f"(tolerance {_num(tp.tolerance, 4)} {tp.units})")
     if getattr(result, "program", None):
         from .verify.check import summary_lines
 

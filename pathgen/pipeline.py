@@ -175,12 +175,12 @@ def _profile_tables(machine):
     return Frame(), {}
 
 
-def _refuse_crossing(outline, side, allow_crossing, scale, units) -> list[str]:
+def _refuse_crossing(outline, side, allow_crossing, scale, units, step=1) -> list[str]:
     """A closed outline that crosses itself is not cut (unless asked, on the
-    line); returns the notes to pass on."""
+    line); returns the notes to pass on.  ``step``: see ``simple.crossing``."""
     from .simple import crossing
 
-    c = crossing(outline.points)
+    c = crossing(outline.points, step=step)
     if c is None:
         return []
     u = "inch" if units == "inch" else "mm"
@@ -359,16 +359,20 @@ def run(points, options=None, *, gcode=None, dxf=None, report=None, plot=None, f
     _check_work(outline.points, tol_mm, tool_mm, o.depth, o.step_down, units)
     makes_path = "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
     early_notes = [str(w.message) for w in machine_notes] + list(feed_notes)
-    if closed and makes_path:
-        early_notes += _refuse_crossing(outline, side, o.allow_crossing, scale, units)
-
-    # -- fit -----------------------------------------------------------------
-    from .outline import fit_outline
-
-    from .noise import estimate_noise
+    from .noise import chord_span, estimate_noise
 
     noise = timed("noise", estimate_noise, outline.points, outline.closed,
                   quantization=getattr(outline, "quantization", None))
+    if closed and makes_path:
+        # points to be smoothed whose noise is not small against their
+        # spacing cross their own path in small loops; the outline they
+        # trace is looked at on chords as long as the fit's parameter uses
+        step = chord_span(noise.sigma, noise.spacing_median, len(outline.points)) \
+            if o.smooth == "auto" and noise.smooth else 1
+        early_notes += _refuse_crossing(outline, side, o.allow_crossing, scale, units, step)
+
+    # -- fit -----------------------------------------------------------------
+    from .outline import fit_outline
     kw = {"end": o.end, "param": o.param, "smooth": o.smooth, "noise": noise,
           "corner_angle": o.corner_angle_degrees, "find_arcs": o.find_arcs}
     contour = timed("fit", fit_outline, outline, **kw)

@@ -458,6 +458,11 @@ def read_points(path, *, units: str = "mm", layer=None, closed=None) -> Outline:
 # -- cleaning -----------------------------------------------------------------
 
 
+def _g4(v: float) -> str:
+    """Four significant digits, never in exponent notation (0.00001, not 1e-05)."""
+    return np.format_float_positional(float(v), precision=4, unique=False, fractional=False, trim="-")
+
+
 def clean_points(points, *, closed=None, units: str = "mm", source: str = "array",
                  line_numbers=None, steps=(), warnings=(), merge_tol=None,
                  check_crossing: bool = True, quantization=None) -> Outline:
@@ -598,28 +603,38 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
     d = np.hypot(*np.diff(q, axis=0).T)
     if len(d) >= 4:
         med = float(np.median(d))
+        # the notes speak the file's units (the points are mm from here on)
+        per, u = (MM_PER_INCH, "inch") if units == "inch" else (1.0, "mm")
 
         def odd_step(found, i, what, ratio, plural, advice):
             n_more = f" ({len(found)} such {plural})" if len(found) > 1 else ""
             warnings.append(f"{where(i)}: {what} to the next point ({label((i + 1) % len(p))}), "
-                            f"{ratio} the median spacing {med:.4g} mm{n_more}; {advice}")
+                            f"{ratio} the median spacing {_g4(med / per)} {u}{n_more}; {advice}")
 
         jumps = np.flatnonzero(d > JUMP_RATIO * med)
         if len(jumps):
             i = int(jumps[np.argmax(d[jumps])])
-            odd_step(jumps, i, f"a gap of {d[i]:.4g} mm", f"{d[i] / med:.0f}x", "gaps",
+            odd_step(jumps, i, f"a gap of {_g4(d[i] / per)} {u}", f"{d[i] / med:.0f}x", "gaps",
                      "check that the points are in order along the outline (a long straight edge is fine)")
         crowded = np.flatnonzero(d < CROWD_RATIO * med)
         if len(crowded):
             i = int(crowded[np.argmin(d[crowded])])
-            odd_step(crowded, i, f"only {d[i]:.4g} mm", f"1/{med / d[i]:.0f} of", "pairs",
+            odd_step(crowded, i, f"only {_g4(d[i] / per)} {u}", f"1/{med / d[i]:.0f} of", "pairs",
                      "a curve through two points this close swings wide when they disagree "
                      "(a repeated reading?): drop one, or smooth (--smooth)")
     if closed and check_crossing and len(p) >= 4 and not _clearly_simple(p):
         import shapely
 
         if not shapely.is_simple(shapely.linearrings(p)):
-            warnings.append(f"{source}: the closed outline crosses itself")
+            from .simple import crossing
+
+            c = crossing(p)
+            if c is not None and c.local:
+                loops = "a small loop" if c.count == 1 else f"{c.count} small loops"
+                warnings.append(f"{source}: the points cross their own path in {loops}, each within {c.span} "
+                                "points (noise as large as their spacing, or points out of order there?)")
+            else:
+                warnings.append(f"{source}: the closed outline crosses itself")
     return Outline(points=p, closed=closed, source=source, units=units,
                    steps=tuple(steps), warnings=tuple(warnings), line_numbers=nums,
                    quantization=quantization)

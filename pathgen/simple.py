@@ -21,6 +21,7 @@ figure-eight (turning zero times).
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -47,6 +48,18 @@ class Crossing:
     count: int
     turns: int
     cause: str
+    #: the most points between two segments that cross (along the outline,
+    #: the shorter way round): a few for the small loops of noise larger
+    #: than the spacing, many for a figure-eight or a second lap
+    span: int = 0
+    #: the points of the polygon looked at
+    points: int = 0
+
+    @property
+    def local(self) -> bool:
+        """Every crossing closes a loop of at most LOCAL_LOOP points, and of
+        at most 1/32 of the outline's points."""
+        return self.span <= LOCAL_LOOP and 32 * self.span <= self.points
 
     def hint(self) -> str:
         return {
@@ -76,11 +89,18 @@ def turning_number(points) -> int:
     return int(round(float(phi.sum()) / (2 * np.pi)))
 
 
-def crossing(points) -> Crossing | None:
+#: Loops of at most this many points count as local (see Crossing.span).
+LOCAL_LOOP = 16
+
+
+def crossing(points, *, step: int = 1) -> Crossing | None:
     """The first crossing of the closed polygon through ``points`` (mm), or None.
 
     Touching segments count as crossing; neighbouring segments (which share
-    a point) do not.
+    a point) do not.  ``step`` > 1 looks at every step-th point only (the
+    rows given are still indices into ``points``): for points whose noise is
+    as large as their spacing, whose own polygon crosses itself in loops a
+    few points long while the outline they trace does not.
 
     Examples
     --------
@@ -93,6 +113,12 @@ def crossing(points) -> Crossing | None:
     import shapely
 
     p = np.asarray(points, dtype=np.float64)
+    if step > 1 and len(p) >= 8 * step:
+        c = crossing(p[::step])
+        if c is None:
+            return None
+        return dataclasses.replace(c, rows=(c.rows[0] * step, c.rows[1] * step), span=c.span * step,
+                                   points=len(p))
     n = len(p)
     if n < 4:
         return None
@@ -119,4 +145,5 @@ def crossing(points) -> Crossing | None:
         cause = "laps"
     else:
         cause = "figure"
-    return Crossing(float(x), float(y), (a, b), count, turns, cause)
+    span = int(np.minimum(gap[keep], n - gap[keep]).max())
+    return Crossing(float(x), float(y), (a, b), count, turns, cause, span, n)

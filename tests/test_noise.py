@@ -424,3 +424,19 @@ def test_the_curvature_rule_stops_before_it_rounds_a_real_corner_off():
     # bump A·exp(−x²/w²), A = 0.3, w = 0.5), is read at 80 % or more
     # (2.05 measured: the noise leaves no sharper detail to be told apart)
     assert c.curvature(s).max() >= 0.8 * 2.4
+
+
+def test_a_program_is_made_from_a_dense_noisy_scan(tmp_path):
+    # the polygon through such points crosses itself in noise loops; the
+    # outline they trace does not, so the program is written, and what it
+    # says holds (its replayed deviation within the tolerance: the reading
+    # back follows the G-code word rules, ISO 6983-1)
+    from pathgen.pipeline import run
+
+    p = _lobed(20_000, 0.004, 7, decimals=3)
+    src = tmp_path / "scan.csv"
+    np.savetxt(src, p, fmt="%.3f", delimiter=",", header="x,y", comments="")
+    res = run(src, closed=True, tool_diameter=10.0, side="inside", gcode=tmp_path / "scan.nc")
+    assert res.program["within_tolerance"]
+    assert res.report.tool_cannot_reach == 0 or not res.report.tool_cannot_reach
+    assert (tmp_path / "scan.nc").read_text().count("G2") + (tmp_path / "scan.nc").read_text().count("G3") > 10

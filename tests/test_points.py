@@ -367,3 +367,47 @@ def test_crowded_points_warned():
     assert o.warnings == ()
     c = fit_outline(o)
     assert np.abs(np.hypot(*c(np.linspace(*c.domain, 20001)).T) - 20.0).max() < 1e-4
+
+
+def test_notes_on_crowded_points_speak_the_files_units():
+    # an inch file: the same crowded pair as in mm, stated in inch (25.4 mm
+    # per inch exactly, the international inch of 1959; from memory) and
+    # never in exponent notation
+    th = np.linspace(0, 2 * np.pi, 120, endpoint=False)
+    p = np.c_[20 * np.cos(th), 20 * np.sin(th)] / 25.4
+    along = np.array([-np.sin(th[30]), np.cos(th[30])])
+    p = np.insert(p, 31, p[30] + 0.00001 * along, axis=0)
+    o = clean_points(p, closed=True, units="inch")
+    assert len(o.warnings) == 1
+    assert o.warnings[0].startswith("array point 30: only 0.00001 inch to the next point (point 31)")
+    med = 2 * 20 * np.sin(np.pi / 120) / 25.4  # the chord of a 3° step on R 20 mm, in inch
+    assert f"the median spacing {med:.4g} inch" in o.warnings[0]
+    assert "e-" not in o.warnings[0]
+
+
+def test_noise_loops_are_told_from_a_crossing_outline():
+    # a ring of 20 000 points 0.0063 mm apart with noise σ = 0.004 mm: the
+    # polygon through the points crosses itself in loops a few points long
+    # (shapely, the reference, says it is not simple), while the ring it
+    # traces does not; a figure-eight (the lemniscate of Gerono, x = sin 2t / 2,
+    # y = sin t, crossing at the origin: handbook curve) is found on
+    # every step-th point as well
+    import shapely
+
+    from pathgen.simple import crossing
+
+    n = 20_000
+    th = np.linspace(0, 2 * np.pi, n, endpoint=False)
+    p = np.c_[20 * np.cos(th), 20 * np.sin(th)] + np.random.default_rng(4).normal(0, 0.004, (n, 2))
+    assert not shapely.is_simple(shapely.linearrings(p))
+    c = crossing(p)
+    assert c is not None and c.local and c.span <= 4
+    assert crossing(p, step=32) is None
+    o = clean_points(p, closed=True)
+    assert any("cross their own path in" in w and "small loops" in w for w in o.warnings)
+    assert not any("the closed outline crosses itself" in w for w in o.warnings)
+    t = np.linspace(0, 2 * np.pi, n, endpoint=False) + 0.1
+    eight = np.c_[np.sin(2 * t) / 2, np.sin(t)] * 20
+    c8 = crossing(eight, step=32)
+    assert c8 is not None and not c8.local
+    assert np.hypot(c8.x, c8.y) < 0.01
