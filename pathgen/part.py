@@ -295,7 +295,20 @@ def nest(outlines, *, step: float = 1e-3) -> list[int]:
     import shapely
 
     polys = [shapely.Polygon(o.polygon_points(step)) for o in outlines]
-    for o, p in zip(outlines, polys):
+    for k, (o, p) in enumerate(zip(outlines, polys)):
+        if not p.is_valid and o.shape is None:
+            # points whose noise is as large as their spacing cross their own
+            # path in small loops: the outline they trace is looked at on
+            # every k-th point, k the points per chord of the fit's parameter
+            from .noise import chord_span, estimate_noise
+            from .simple import crossing
+
+            pts = np.asarray(o.outline.points)
+            noise = estimate_noise(pts, True, quantization=getattr(o.outline, "quantization", None))
+            span = chord_span(noise.sigma, noise.spacing_median, len(pts)) if noise.smooth else 1
+            c = crossing(pts)
+            if span > 1 and c is not None and c.local and crossing(pts, step=span) is None:
+                polys[k] = p = shapely.Polygon(pts[::span])
         if not p.is_valid:
             raise InputError(f"{o.where}: outline {o.number} crosses itself; a program cannot cut it")
     shapely.prepare(polys)

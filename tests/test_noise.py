@@ -393,7 +393,7 @@ def test_dense_noisy_scan_reads_the_true_radii_and_inflections():
     r_left, r_right, inflections, length = _lobed_truth()
     c = fit_outline(clean_points(_lobed(20_000, 0.004, 7, decimals=3), closed=True), smooth="auto")
     assert c.info["smoothing"] == "noise"
-    assert c.info["curvature_noise_share"] <= 0.05
+    assert c.info["curvature_noise_share"] <= 0.02
     s = np.linspace(c.breaks[0], c.breaks[-1], 400_000, endpoint=False)
     k = c.curvature(s)
     assert 1 / k.max() == pytest.approx(r_left, rel=0.03)
