@@ -178,14 +178,20 @@ def _sides(outlines, levels, sides) -> list[str]:
     return out
 
 
-def _material(outlines, contours):
+def _material(outlines, contours, levels=None, sides=None):
     """The part's material (shapely, mm): outlines by the even-odd rule
     (an outer outline's inside, less its holes, plus their islands); drawn
-    outlines within 1e-4 mm of the drawing, fitted ones 16 samples a piece."""
+    outlines within 1e-4 mm of the drawing, fitted ones 16 samples a piece.
+
+    With ``levels`` and ``sides``: the region just inside an outline (less
+    the outlines directly inside it) is material when that outline is cut
+    outside, and not when it is cut inside, whatever its level; when every
+    outer outline is cut inside (a pocket drawn on its own), the stock around
+    them is material too (a margin of the drawing's size)."""
     import numpy as np
     import shapely
 
-    m = None
+    polys = []
     for o, c in zip(outlines, contours):
         if o.shape is not None:
             p = shapely.Polygon(o.polygon_points(1e-4))
@@ -193,8 +199,28 @@ def _material(outlines, contours):
             b = c.breaks
             t = (b[:-1, None] + np.diff(b)[:, None] * (np.arange(16) / 16)).ravel()
             p = shapely.Polygon(c(t))
-        m = p if m is None else m.symmetric_difference(p)
-    return m
+        polys.append(p)
+    parity = [("outside" if lev % 2 == 0 else "inside") for lev in (levels or [0] * len(polys))]
+    if sides is None or list(sides) == parity or levels is None:
+        m = None
+        for p in polys:
+            m = p if m is None else m.symmetric_difference(p)
+        return m
+    faces = []
+    for i, p in enumerate(polys):
+        inner = [polys[j] for j in range(len(polys))
+                 if levels[j] == levels[i] + 1 and p.contains(polys[j])]
+        face = p.difference(shapely.union_all(inner)) if inner else p
+        side = sides[i] if sides[i] != "on" else parity[i]
+        if side == "outside":
+            faces.append(face)
+    outer = [i for i in range(len(polys)) if levels[i] == 0]
+    if all((sides[i] if sides[i] != "on" else parity[i]) == "inside" for i in outer):
+        x0, y0, x1, y1 = shapely.union_all([polys[i] for i in outer]).bounds
+        grow = max(x1 - x0, y1 - y0)
+        stock = shapely.box(x0 - grow, y0 - grow, x1 + grow, y1 + grow)
+        faces.append(stock.difference(shapely.union_all([polys[i] for i in outer])))
+    return shapely.union_all(faces) if faces else shapely.Polygon()
 
 
 def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes):
@@ -417,9 +443,9 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
         raise InputError("a part's outlines are closed; closed=False (--open) applies to one outline")
     if opts.seam is not None:
         raise InputError("seam applies to one outline; a part's outlines each start at their flattest stretch")
-    if opts.side != "outside":
-        raise InputError(f"side={opts.side!r} applies to one outline; a part's sides come from the nesting "
-                         "(holes inside, outer outlines outside): set them per outline or layer with sides=")
+    if opts.side != "outside" and opts.sides:
+        raise InputError(f"side={opts.side!r} and sides= both given: give the sides per outline or layer "
+                         "(sides=, --outline-side KEY=SIDE) only")
     scale = opts.scale
     tol_mm = opts.tolerance
     tool_mm = opts.tool_diameter
@@ -456,7 +482,15 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
     allpts = np.vstack([o.polygon_points(0.01) for o in outlines])
     _check_work(allpts, tol_mm, tool_mm, opts.depth, opts.step_down, units)
     levels = timed("nest", nest, outlines)
-    side_list = _sides(outlines, levels, opts.sides)
+    sides = opts.sides
+    if opts.side != "outside":
+        # one drawn outline: the side asked for is its side (a pocket, say)
+        if len(outlines) != 1:
+            raise InputError(f"side={opts.side!r} applies to one outline and {source} holds {len(outlines)}; a "
+                             "part's sides come from the nesting (holes inside, outer outlines outside): set "
+                             "them per outline or layer with sides= (--outline-side KEY=SIDE)")
+        sides = {outlines[0].number: opts.side}
+    side_list = _sides(outlines, levels, sides)
     makes_path = make_path or "gcode" in targets or (tool_mm is not None and ("dxf" in targets or "plot" in targets))
     if "gcode" in targets and tool_mm is None and any(s != "on" for s in side_list):
         raise InputError("a program cutting a part needs the tool diameter (tool_diameter=, --tool-diameter)")
@@ -489,7 +523,7 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
                             opts.depth)
     if tab_opts and not makes_path:
         tab_opts = None  # tabs belong to a program
-    material = _material(outlines, contours) if makes_path else None
+    material = _material(outlines, contours, levels, side_list) if makes_path else None
     lead_notes = []
     plans = []
     for o, s, c in zip(outlines, side_list, contours):

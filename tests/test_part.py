@@ -733,3 +733,68 @@ def test_a_part_scanned_densely_with_noise_is_cut(tmp_path):
     radii = sorted(rep.min_radius.radius for rep in res.reports)
     assert radii[0] == pytest.approx(10.0, rel=0.03)
     assert radii[1] == pytest.approx(30.0, rel=0.03)
+
+
+def _pocket_drawing(path, bulge):
+    """A 60 × 40 mm pocket with R 10 corners drawn as one polyline with
+    bulges (invented part)."""
+    d = ezdxf.new("R2010")
+    pts = [(10, 0, 0), (50, 0, bulge), (60, 10, 0), (60, 30, bulge), (50, 40, 0), (10, 40, bulge),
+           (0, 30, 0), (0, 10, bulge)]
+    d.modelspace().add_lwpolyline(pts, format="xyb", close=True)
+    d.saveas(path)
+
+
+def test_a_pocket_drawn_with_four_digit_bulges_is_cut_inside(tmp_path):
+    # A bulge is tan(sweep/4) (the DXF reference's definition of LWPOLYLINE
+    # bulges); written as 0.4142 for a quarter circle (tan(π/8) =
+    # 0.41421356...) each arc sweeps 4·atan(0.4142), and meets its lines
+    # with a kink of (4·atan(0.4142) − π/2)/2 rad, 2.3e-5 rad.  A tool of
+    # radius r leaves r(1/cos(θ/2) − 1) there (a circle tangent to two
+    # lines, handbook geometry): 2e-10 mm, so no "tool cannot reach", and
+    # the one drawn outline is cut inside as asked (side=, --side)
+    src = tmp_path / "pocket.dxf"
+    _pocket_drawing(src, 0.4142)
+    res = run(src, tool_diameter=6.0, side="inside", gcode=tmp_path / "pocket.nc")
+    (rep,) = res.reports
+    kink = (4 * math.atan(0.4142) - math.pi / 2) / 2
+    assert rep.corners == () and rep.tight_spots == ()
+    assert len(rep.kinks) == 8
+    assert max(abs(a) for *_, a in rep.kinks) == pytest.approx(math.degrees(abs(kink)), rel=1e-3)
+    radius = 10 * math.sqrt(2) / (2 * math.sin(4 * math.atan(0.4142) / 2))  # chord 10√2 = 2R sin(sweep/2)
+    # twice the fillet radius, read from samples (a gap reads up to a
+    # sample's sagitta narrow: 19.965 of 20.0005 measured)
+    assert rep.largest_tool_diameter == pytest.approx(2 * radius, rel=2e-3)
+    assert rep.largest_tool_diameter <= 2 * radius
+    # the program: every move inside the pocket, keeping the tool radius
+    # less the tolerance from its wall (shapely's distance, the reference)
+    prog = read_gcode((tmp_path / "pocket.nc").read_text())
+    pocket = shapely.Polygon(read_part(src)[0][0].polygon_points(1e-4))
+    pts = np.vstack([sample_move(m, 0.2) for m in prog.moves if m.g in (1, 2, 3) and m.end[2] < 0
+                     and m.start[2] < 0])
+    assert all(pocket.contains(shapely.Point(x, y)) for x, y in pts[::7, :2])
+    wall = shapely.LinearRing(pocket.exterior.coords)
+    assert min(wall.distance(shapely.Point(x, y)) for x, y in pts[::3, :2]) >= 3.0 - 0.01
+
+
+def test_side_for_a_drawing_of_several_outlines_is_refused(tmp_path):
+    d = ezdxf.new("R2010")
+    d.modelspace().add_lwpolyline([(0, 0), (50, 0), (50, 30), (0, 30)], close=True)
+    d.modelspace().add_circle((10, 10), 3)
+    d.saveas(tmp_path / "two.dxf")
+    with pytest.raises(InputError, match="applies to one outline and .* holds 2"):
+        run(tmp_path / "two.dxf", tool_diameter=2.0, side="inside")
+
+
+def test_a_convex_part_cut_outside_takes_any_tool(tmp_path):
+    # nothing bends toward a tool outside a convex outline and no gap closes
+    # on it: the largest tool is "any" (None), not the 1e12 mm that points of
+    # one straight edge, 1e-16 mm "ahead" of each other, made of it
+    d = ezdxf.new("R2010")
+    d.modelspace().add_lwpolyline([(0, 0), (100, 0), (100, 60), (0, 60)], close=True)
+    d.modelspace().add_circle((30, 30), 5)
+    d.saveas(tmp_path / "plate.dxf")
+    res = run(tmp_path / "plate.dxf", tool_diameter=6.0)
+    by_side = dict(zip(res.sides, res.reports))
+    assert by_side["outside"].largest_tool_diameter is None
+    assert by_side["inside"].largest_tool_diameter == pytest.approx(10.0, rel=1e-3)  # the hole's diameter

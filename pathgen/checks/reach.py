@@ -168,6 +168,12 @@ def _cancel_wiggles(S, s, before, after, corner_count, min_bow):
     return np.sort(np.asarray(out, dtype=np.float64))
 
 
+#: Tangent discs wider than this many times the contour's length are not
+#: gaps (no tool that size exists; they come from points on one straight
+#: edge, whose distance ahead of each other is rounding).
+GAP_DISC_LIMIT = 1000.0
+
+
 def largest_tool_diameter(samples, sign: int):
     """Largest tool diameter (mm) that reaches everywhere on the side ``sign``.
 
@@ -199,6 +205,10 @@ def largest_tool_diameter(samples, sign: int):
     qmax = float(q.max()) if len(q) else 0.0
     bend = 2.0 / qmax if qmax > 0 else math.inf
     gap = 2.0 * _narrowest_disc(S, sign)
+    if gap > GAP_DISC_LIMIT * S.length:
+        # a disc that large is rounding, not a gap: points on one straight
+        # edge seen from each other 1e-16 "ahead" read 1.1e12 inch
+        gap = math.inf
     best = min(bend, gap)
     return best if math.isfinite(best) else None
 

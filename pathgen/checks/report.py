@@ -150,6 +150,7 @@ class CheckReport:
     feed_plan: FeedPlan
     fit: dict | None = None
     noise_spots: tuple = ()
+    kinks: tuple = ()
 
     @property
     def cycle_time(self) -> float:
@@ -310,7 +311,7 @@ def check(contour, machine=None, tool=None, cut=None, *, noise_reference=None) -
     from .sampling import sample_contour
 
     machine, tool, cut = tool_cut(machine, tool, cut)
-    S = sample_contour(contour)
+    S, kinks = _smooth_kinks(sample_contour(contour))
     closed = S.closed
     area = orientation = None
     if closed:
@@ -436,6 +437,7 @@ def check(contour, machine=None, tool=None, cut=None, *, noise_reference=None) -
         feed_plan=plan,
         fit=fit_facts(contour),
         noise_spots=tuple(noise_spots),
+        kinks=tuple((*at(i), math.degrees(a)) for i, a in kinks),
     )
 
 
@@ -476,6 +478,32 @@ def _noise_bow(contour) -> float:
     if sigma is None and est is not None and est.resolved:
         sigma = est.sigma_used
     return 2.0 * float(sigma) if sigma else 0.0
+
+
+#: Corners turning less than this (radians) are taken as smooth joins by the
+#: checks: a tool of radius r leaves at most r(1/cos(θ/2) − 1) ≈ r·θ²/8 of
+#: material in such a corner toward it (6e-6 mm for r = 50 mm; handbook
+#: geometry of a circle tangent to two lines), and the feed changes
+#: direction by θ·v there (0.17 mm/s at 10 m/min), so neither the reach nor
+#: the feed is limited.  Drawings whose bulges are written with four digits
+#: kink by about 2e-5 rad where their lines and arcs meet.
+KINK_NEGLIGIBLE = 1e-3
+
+
+def _smooth_kinks(S):
+    """The samples with corners that turn less than KINK_NEGLIGIBLE taken as
+    smooth; returns (samples, [(index, turn radians), ...] of those kinks)."""
+    first = np.flatnonzero(S.corner & (S.turn != 0) & (np.abs(S.turn) < KINK_NEGLIGIBLE))
+    if first.size == 0:
+        return S, []
+    corner, turn = S.corner.copy(), S.turn.copy()
+    corner[first] = False
+    corner[(first + 1) % len(S) if S.closed else np.minimum(first + 1, len(S) - 1)] = False
+    turn[first] = 0.0
+    import dataclasses
+
+    return (dataclasses.replace(S, corner=corner, turn=turn),
+            [(int(i), float(S.turn[i])) for i in first])
 
 
 def fit_facts(contour) -> dict | None:
@@ -551,6 +579,8 @@ def _to_dict(rep: CheckReport, units: str) -> dict:
         "min_radius_right": _radius_dict(rep.min_radius_right, k),
         "corners": [{"x": _num(x, k), "y": _num(y, k), "s": _num(s, k), "turn": _num(a)}
                     for x, y, s, a in rep.corners],
+        "kinks": [{"x": _num(x, k), "y": _num(y, k), "s": _num(s, k), "turn": _num(a)}
+                  for x, y, s, a in rep.kinks],
         "inflections": [{"x": _num(x, k), "y": _num(y, k), "s": _num(s, k)}
                         for x, y, s in rep.inflections],
         "largest_tool_diameter": _num(rep.largest_tool_diameter, k),
@@ -702,6 +732,11 @@ def _to_text(rep: CheckReport, units: str) -> str:
             parts.append(f"{_g(r.radius, k)} {u} on {label} at ({_g(r.x, k, 6)}, {_g(r.y, k, 6)})")
     lines.append("smallest radius: " + ("; ".join(parts) if parts else "none (straight)"))
     lines.append(f"{len(rep.corners)} sharp corners, {len(rep.inflections)} inflections")
+    if rep.kinks:
+        worst = max(abs(a) for *_, a in rep.kinks)
+        lines.append(f"  {len(rep.kinks)} more joins kink by at most {_g(worst, 1.0)}° (under "
+                     f"{math.degrees(KINK_NEGLIGIBLE):.3g}°, e.g. bulges written with few digits): taken as "
+                     "smooth, a tool of radius r leaves at most r·θ²/8 there")
     if rep.largest_tool_diameter is None:
         big = "any (nothing bends toward the tool)" if cut.side != "on" else "- (cutting on the line)"
     else:

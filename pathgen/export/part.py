@@ -136,7 +136,7 @@ def plot_part(path, contours, rows, *, toolpaths=None, units="mm", tabs=None, fo
         ax.set_aspect("equal")
         ax.set_xlabel(f"x ({units})")
         ax.set_ylabel(f"y ({units})")
-        ax.set_title(f"{len(rows)} outlines: number, side, cutting order")
+        ax.set_title(f"{len(rows)} outline{'' if len(rows) == 1 else 's'}: number, side, cutting order")
         ax.legend(loc="best", fontsize=8)
         meta = {"Software": None} if fmt == "png" else {"Date": None, "Creator": None}
         with atomic_paths([p], force=force) as (tmp,):
