@@ -48,12 +48,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["NoiseEstimate", "estimate_noise", "quantization_step", "CLEAN_NOISE_MM",
+__all__ = ["NoiseEstimate", "estimate_noise", "quantization_step", "FLOAT_ULPS",
            "FAKE_RATIO", "MAX_DECIMALS"]
 
-#: Noise below this (mm) is taken as clean: no shop instrument resolves
-#: 0.01 µm, and points rounded to 8 or more decimals are treated as exact.
-CLEAN_NOISE_MM = 1e-8
+#: Noise below this many units in the last place of the largest
+#: coordinate is float64's own rounding, not the file's: taken as clean.
+#: Any noise above it is judged by the curvature it fakes alone (4σ/h²
+#: against ``FAKE_RATIO``): rounding to 10 decimals (σ = 2.9·10⁻¹¹ mm) on
+#: points 0.2 µm apart fakes radii of about 400 mm, 0.0025 /mm, a sixth of
+#: a 380 mm cam's mean curvature, so it is no longer "clean" there.
+FLOAT_ULPS = 16.0
 #: Noise matters when the curvature it can fake (4σ/h²) exceeds this
 #: share of the outline's mean curvature (2π / length for a closed
 #: outline, its coarse total turning / length for an open one).
@@ -89,7 +93,8 @@ class NoiseEstimate:
     reference_curvature : the outline's mean curvature, 1/mm (2π/length
         closed, coarse total turning/length open).
     smooth : True when the noise can fake the answers: resolved, above
-        ``CLEAN_NOISE_MM`` and fake_curvature > ``FAKE_RATIO`` × the
+        float64's own rounding of the coordinates (``FLOAT_ULPS`` units in
+        the last place) and fake_curvature > ``FAKE_RATIO`` × the
         reference curvature.
     """
 
@@ -272,7 +277,8 @@ def estimate_noise(points, closed: bool, *, quantization=None) -> NoiseEstimate:
     used = max(sigma, q / math.sqrt(12.0)) if resolved else 0.0
     fake = 4.0 * used / (h * h) if h > 0 else 0.0
     ref = _reference_curvature(p, closed, length) if length > 0 else 0.0
-    smooth = bool(resolved and used > CLEAN_NOISE_MM and fake > FAKE_RATIO * ref)
+    floor = FLOAT_ULPS * float(np.spacing(np.abs(p).max())) if n else 0.0
+    smooth = bool(resolved and used > floor and fake > FAKE_RATIO * ref)
     return NoiseEstimate(points=n, spacing_median=h, spacing_min=hmin, quantization=quantization,
                          sigma=sigma, resolved=bool(resolved), sigma_used=used,
                          fake_curvature=fake, reference_curvature=ref, smooth=smooth)
