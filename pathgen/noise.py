@@ -164,42 +164,65 @@ def quantization_step(values, *, max_decimals: int = MAX_DECIMALS) -> float | No
     return None
 
 
-def _pseudo_residuals(p, closed, lag):
+def _chords(p, closed):
+    """x, y (contiguous), the steps between neighbouring points (closed: n
+    of them, the last back to the first) and their running sum t (len + 1)."""
+    x, y = np.ascontiguousarray(p[:, 0]), np.ascontiguousarray(p[:, 1])
+    dx = np.diff(np.append(x, x[0]) if closed else x)
+    dy = np.diff(np.append(y, y[0]) if closed else y)
+    seg = np.hypot(dx, dy)
+    t = np.empty(len(seg) + 1)
+    t[0] = 0.0
+    np.cumsum(seg, out=t[1:])
+    return x, y, seg, t
+
+
+def _pseudo_residuals(p, closed, lag, chords=None):
     """Third divided differences of the normal component at ``lag``,
-    scaled to unit variance per unit noise (see the module notes)."""
+    scaled to unit variance per unit noise (see the module notes).
+
+    Every window P_i, P_{i+lag}, P_{i+2lag}, P_{i+3lag} at once, on shifted
+    slices of the coordinates (a closed outline's are continued past the
+    seam, its parameter by the loop's length), one array per term.
+    ``chords``: :func:`_chords` of ``p``, when already at hand."""
     n = len(p)
-    seg = np.hypot(*np.diff(np.vstack([p, p[:1]]) if closed else p, axis=0).T)
-    t = np.concatenate([[0.0], np.cumsum(seg)])
+    x, y, _, t = chords if chords is not None else _chords(p, closed)
     if closed:
-        i = np.arange(n)
-        idx = np.stack([(i + k * lag) % n for k in range(4)])
-        tt = np.stack([t[i] + (t[(i + k * lag) % n] - t[i]) % t[-1] for k in range(4)])
-        tt[0] = t[i]
+        reach = 3 * lag
+        if reach <= n:
+            xs, ys = np.concatenate([x, x[:reach]]), np.concatenate([y, y[:reach]])
+            ts = np.concatenate([t[:n], t[:reach] + t[n]])
+        else:  # tiny outlines: windows longer than the loop
+            turns = -(-reach // n) + 1
+            xs = np.tile(x, turns)[: n + reach]
+            ys = np.tile(y, turns)[: n + reach]
+            ts = np.concatenate([t[:n] + r * t[n] for r in range(turns)])[: n + reach]
+        m = n
     else:
-        i = np.arange(0, n - 3 * lag)
-        if len(i) == 0:
+        m = n - 3 * lag
+        if m <= 0:
             return np.zeros(0)
-        idx = np.stack([i + k * lag for k in range(4)])
-        tt = t[idx]
-    w = np.ones_like(tt)
-    for j in range(4):
-        for k in range(4):
-            if k != j:
-                w[j] = w[j] * (tt[j] - tt[k])
-    ok = np.all(w != 0, axis=0)
-    w = np.where(ok, 1.0 / np.where(w == 0, 1.0, w), 0.0)
-    pa, pd = p[idx[0]], p[idx[3]]
-    chord = pd - pa
-    length = np.hypot(chord[:, 0], chord[:, 1])
-    ok &= length > 0
-    nx = np.where(ok, -chord[:, 1] / np.where(ok, length, 1.0), 0.0)
-    ny = np.where(ok, chord[:, 0] / np.where(ok, length, 1.0), 0.0)
-    e = np.zeros(len(i))
-    for j in range(4):
-        q = p[idx[j]]
-        e += w[j] * ((q[:, 0] - pa[:, 0]) * nx + (q[:, 1] - pa[:, 1]) * ny)
-    norm = np.sqrt((w * w).sum(axis=0))
-    e = np.where(ok, e / np.where(ok, norm, 1.0), np.nan)
+        xs, ys, ts = x, y, t
+    X = [xs[j * lag: j * lag + m] for j in range(4)]
+    Y = [ys[j * lag: j * lag + m] for j in range(4)]
+    T = [ts[j * lag: j * lag + m] for j in range(4)]
+    d01, d02, d03 = T[0] - T[1], T[0] - T[2], T[0] - T[3]
+    d12, d13, d23 = T[1] - T[2], T[1] - T[3], T[2] - T[3]
+    # w_j = 1 / p_j, p_j = prod over k != j of (t_j - t_k)
+    p0 = d01 * d02 * d03
+    p1 = -d01 * d12 * d13
+    p2 = d02 * d12 * d23
+    p3 = -(d03 * d13 * d23)
+    cx, cy = X[3] - X[0], Y[3] - Y[0]
+    length = np.hypot(cx, cy)
+    ok = (p0 != 0) & (p1 != 0) & (p2 != 0) & (p3 != 0) & (length > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        nx, ny = -cy / length, cx / length
+        e = ((X[1] - X[0]) * nx + (Y[1] - Y[0]) * ny) / p1  # the j = 0 term is 0
+        e += ((X[2] - X[0]) * nx + (Y[2] - Y[0]) * ny) / p2
+        e += ((X[3] - X[0]) * nx + (Y[3] - Y[0]) * ny) / p3
+        e /= np.sqrt(1.0 / (p0 * p0) + 1.0 / (p1 * p1) + 1.0 / (p2 * p2) + 1.0 / (p3 * p3))
+    e = e[ok]
     return e[np.isfinite(e)]
 
 
@@ -262,12 +285,13 @@ def estimate_noise(points, closed: bool, *, quantization=None) -> NoiseEstimate:
     n = len(p)
     if quantization is None:
         quantization = quantization_step(p)
-    seg = np.hypot(*np.diff(np.vstack([p, p[:1]]) if closed else p, axis=0).T)
+    chords = _chords(p, closed) if n else (None, None, np.zeros(0), np.zeros(1))
+    seg = chords[2]
     h = float(np.median(seg)) if len(seg) else 0.0
     hmin = float(seg.min()) if len(seg) else 0.0
     length = float(seg.sum())
-    s1 = _robust_scale(_pseudo_residuals(p, closed, 1)) if n >= 8 else 0.0
-    s2 = _robust_scale(_pseudo_residuals(p, closed, 2)) if n >= 12 else 0.0
+    s1 = _robust_scale(_pseudo_residuals(p, closed, 1, chords)) if n >= 8 else 0.0
+    s2 = _robust_scale(_pseudo_residuals(p, closed, 2, chords)) if n >= 12 else 0.0
     resolved = s1 > 0 and s2 < 2.0 * s1
     if resolved:
         sigma = math.sqrt(max(64.0 * s1 * s1 - s2 * s2, 0.0) / 63.0)
