@@ -290,10 +290,10 @@ def _bearable_curvature(p, closed, o, noise) -> float:
 THIN_RMS = 1.5
 #: The thinned points are spaced so that their noise fakes this many times
 #: less curvature than ``FAKE_RATIO`` allows (the bound holds for the root
-#: mean square; the worst of 10⁶ pieces is about 5 times that): 4 times
+#: mean square; the worst of 10⁶ pieces is about 5 times that): 8 times
 #: the spacing.  Measured on the 380 mm cam of 2·10⁶ points rounded to
-#: 10 decimals: extreme curvatures within 0.1 % of the handbook values
-#: (1 at the bound itself: within 1 %).
+#: 10 decimals: extreme curvatures within 0.01 % of the polar formula
+#: with 64 (16: 0.05 %; at the bound itself, 1: 1 %).
 THIN_MARGIN = 64.0
 
 
@@ -302,17 +302,17 @@ def _thinned_fit(t, y, sigma, noise, periodic):
     rounding fakes curvature (4σ/h²) while the shape hardly bends between
     them; None when that does not apply (then the smoothing spline does).
 
-    k is the smallest step at which the noise fakes no more than
-    ``FAKE_RATIO`` of the outline's mean curvature (4σ/(k·h)² ≤ that
-    share, the test :func:`pathgen.noise.estimate_noise` applies), and at
-    least 2.  The interpolating spline through the kept points (periodic,
+    k is the smallest step at which the noise fakes ``THIN_MARGIN`` times
+    less than ``FAKE_RATIO`` of the outline's mean curvature (4σ/(k·h)²,
+    the test :func:`pathgen.noise.estimate_noise` applies), and at least 2.  The interpolating spline through the kept points (periodic,
     or natural ends pinned to the stretch's end points) is split at the
     left-out points' parameters, exactly (Taylor shift of each cubic), so
     the contour keeps one break per point.  Used only when the points it
     leaves out lie within ``THIN_RMS`` σ of it (root mean square, measured):
     then it fits the points as closely as their noise allows, at the cost
-    of two O(n) passes instead of the smoothing spline's repeated solves
-    (2·10⁶ points: about a second against 30 s and 1.6 GB).
+    of one spline fit through n/k points and one O(n) pass instead of the
+    smoothing spline's repeated solves (the cam of 2·10⁶ points rounded to
+    10 decimals, whole fit: 10 s and 1.1 GB against 31 s and 1.6 GB).
 
     Returns (coefficients (4, m, 2), facts) like :func:`pathgen.smooth.fit_noise`.
     """
@@ -345,21 +345,21 @@ def _thinned_fit(t, y, sigma, noise, periodic):
         M = _moments(hk, slopes, "natural", False, None)
     ck = _coefficients(hk, (yk[:, 0], yk[:, 1]), slopes, M)  # (2, 4, K) per coordinate
     # each original interval inside kept piece j, at offset u from its start
-    j = np.minimum(np.searchsorted(tk, t[:-1], side="right") - 1, len(hk) - 1)
-    u = (t[:-1] - tk[j])[None, :]
-    a3, a2, a1, a0 = (ck[:, i, j] for i in range(4))
+    counts = np.diff(np.append(keep, m) if periodic else keep)
+    u = t[:-1] - np.repeat(tk[:-1], counts)
+    a3, a2, a1, a0 = (np.repeat(ck[:, i], counts, axis=1) for i in range(4))
     c = np.empty((2, 4, m))
     c[:, 0] = a3
     c[:, 1] = 3.0 * a3 * u + a2
     c[:, 2] = (3.0 * a3 * u + 2.0 * a2) * u + a1
     c[:, 3] = ((a3 * u + a2) * u + a1) * u + a0
     # residual of every point at its own parameter (at least its distance to the curve)
-    ends = t[1:] - t[:-1]
-    at_end = ((c[:, 0] * ends + c[:, 1]) * ends + c[:, 2]) * ends + c[:, 3]  # P(t_{i+1})
-    g = np.concatenate([c[:, 3], at_end[:, -1:]], axis=1).T  # (m + 1, 2)
-    r = np.hypot(*(g - y).T) if len(y) == m + 1 else np.hypot(*(g[:m] - y).T)
-    if periodic and len(y) == m + 1:
-        r = r[:m]
+    last = t[m] - t[m - 1]
+    end = ((c[:, 0, -1] * last + c[:, 1, -1]) * last + c[:, 2, -1]) * last + c[:, 3, -1]
+    g = np.vstack([c[:, 3].T, end[None, :]])  # (m + 1, 2): the curve at every point's parameter
+    r = np.hypot(g[:, 0] - y[:, 0], g[:, 1] - y[:, 1])
+    if periodic:
+        r = r[:m]  # the last point is the first again
     rms = float(np.sqrt(np.mean(r * r)))
     if rms > THIN_RMS * sigma:
         return None
@@ -629,12 +629,14 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
     # a straight run inside a curved piece is kept only when the curve's
     # turn onto it stays below the curvature the points can bear (see
     # _join_curvature); a tolerance given by the caller is taken as it is
-    bear = None if straight_tol is not None else _bearable_curvature(p, closed, o, noise)
+    bear = []  # computed when a run is found
 
     def runs_in(pts):
         found = straight_runs(pts, tol, STRAIGHT_MIN_RATIO * size)
-        if bear is not None:
-            found = [r for r in found if _join_curvature(pts, *r) <= bear]
+        if found and straight_tol is None:
+            if not bear:
+                bear.append(_bearable_curvature(p, closed, o, noise))
+            found = [r for r in found if _join_curvature(pts, *r) <= bear[0]]
         return found
 
     if closed and len(cs) == 0 and not smoothing:
