@@ -244,3 +244,32 @@ def test_nearest_distance_with_a_tiny_bound_matches_the_kd_tree():
         with np.errstate(all="raise"):
             got = nearest_distance(ref, query, bound)
         np.testing.assert_array_equal(got, want)
+
+
+def test_spline_with_height_written_in_bulk_is_byte_identical_to_ezdxfs_own_way(tmp_path):
+    # The bulk writer's other branch (control points off the plane z = 0,
+    # signed zeros): against ezdxf's documented tag-by-tag export.
+    import ezdxf
+
+    import pathgen.export.dxf as dxf
+
+    rng = np.random.default_rng(5)
+    cp = np.c_[rng.normal(0, 50, (400, 2)), rng.normal(0, 1e-5, 400)]
+    cp[::7, 2] = -0.0
+    knots = np.concatenate([[0.0] * 4, np.sort(rng.uniform(0, 9, len(cp) - 4)), [9.0] * 4]).tolist()
+
+    def save(bulk, name):
+        with dxf.fixed_metadata():
+            doc = ezdxf.new("R2010", setup=False)
+            spline = doc.modelspace().add_spline()
+            spline.dxf.degree = 3
+            spline.control_points.set(cp)
+            spline.knots = knots
+            if bulk:
+                dxf._write_in_bulk(spline)
+            doc.saveas(tmp_path / name)
+        return (tmp_path / name).read_bytes()
+
+    a, b = save(True, "bulk.dxf"), save(False, "tagwise.dxf")
+    assert b"-0.0\n" in b
+    assert a == b
