@@ -102,6 +102,8 @@ def turning_angles(points, closed: bool, support: float = 0.0) -> np.ndarray:
     n = len(p)
     if n < 3:
         return np.zeros(n)
+    if 0 < support < 0.5 * _shortest_step(p, closed):
+        support = 0.0  # the neighbours are farther than the support: the same angles
     if support <= 0:
         back = np.arange(n) - 1
         fwd = np.arange(n) + 1
@@ -130,6 +132,12 @@ def turning_angles(points, closed: bool, support: float = 0.0) -> np.ndarray:
     if not closed:
         ang[0] = ang[-1] = 0.0
     return ang
+
+
+def _shortest_step(p, closed) -> float:
+    """The shortest distance between neighbouring points (closed: wrapping)."""
+    d = np.diff(np.vstack([p, p[:1]]) if closed else p, axis=0)
+    return float(np.sqrt((d * d).sum(axis=1).min())) if len(d) else 0.0
 
 
 def _robust_arc_length(p, closed, chord):
@@ -174,8 +182,8 @@ def find_corners(points, closed: bool, angle_deg=DEFAULT_CORNER_ANGLE,
     ang = np.abs(turning_angles(points, closed, support))
     hit = ang > math.radians(angle_deg)
     idx = np.flatnonzero(hit)
-    if support <= 0 or len(idx) == 0:
-        return idx
+    if support <= 0 or len(idx) == 0 or support < 0.5 * _shortest_step(np.asarray(points, np.float64), closed):
+        return idx  # (no two points closer than the support: every candidate its own corner)
     # clusters: candidates closer than ``support`` along the curve are one
     # corner (noise breaks a corner's run of hits); keep each one's sharpest
     p = np.asarray(points, np.float64)
@@ -346,13 +354,21 @@ def _thinned_fit(t, y, sigma, noise, periodic):
     ck = _coefficients(hk, (yk[:, 0], yk[:, 1]), slopes, M)  # (2, 4, K) per coordinate
     # each original interval inside kept piece j, at offset u from its start
     counts = np.diff(np.append(keep, m) if periodic else keep)
-    u = t[:-1] - np.repeat(tk[:-1], counts)
-    a3, a2, a1, a0 = (np.repeat(ck[:, i], counts, axis=1) for i in range(4))
+    j = np.repeat(np.arange(len(hk)), counts)
+    u = t[:-1] - tk[j]
     c = np.empty((2, 4, m))
-    c[:, 0] = a3
-    c[:, 1] = 3.0 * a3 * u + a2
-    c[:, 2] = (3.0 * a3 * u + 2.0 * a2) * u + a1
-    c[:, 3] = ((a3 * u + a2) * u + a1) * u + a0
+    for i in range(4):
+        np.take(ck[:, i], j, axis=1, out=c[:, i])
+    # Taylor shift to t_i by synthetic division (Horner's scheme, three
+    # passes): rows become a3, P''(u)/2, P'(u), P(u) of the kept piece
+    a3u = c[:, 0] * u
+    c[:, 1] += a3u
+    c[:, 2] += c[:, 1] * u
+    c[:, 3] += c[:, 2] * u
+    c[:, 1] += a3u
+    c[:, 2] += c[:, 1] * u
+    c[:, 1] += a3u
+    del a3u, j, u
     # residual of every point at its own parameter (at least its distance to the curve)
     last = t[m] - t[m - 1]
     end = ((c[:, 0, -1] * last + c[:, 1, -1]) * last + c[:, 2, -1]) * last + c[:, 3, -1]
