@@ -191,12 +191,12 @@ def _pseudo_residuals(p, closed, lag, chords=None):
         reach = 3 * lag
         if reach <= n:
             xs, ys = np.concatenate([x, x[:reach]]), np.concatenate([y, y[:reach]])
-            ts = np.concatenate([t[:n], t[:reach] + t[n]])
+            ts = np.concatenate([t[:n], t[:reach]])
         else:  # tiny outlines: windows longer than the loop
             turns = -(-reach // n) + 1
             xs = np.tile(x, turns)[: n + reach]
             ys = np.tile(y, turns)[: n + reach]
-            ts = np.concatenate([t[:n] + r * t[n] for r in range(turns)])[: n + reach]
+            ts = np.tile(t[:n], turns)[: n + reach]
         m = n
     else:
         m = n - 3 * lag
@@ -206,22 +206,26 @@ def _pseudo_residuals(p, closed, lag, chords=None):
     X = [xs[j * lag: j * lag + m] for j in range(4)]
     Y = [ys[j * lag: j * lag + m] for j in range(4)]
     T = [ts[j * lag: j * lag + m] for j in range(4)]
+    if closed:  # past the seam the parameter goes on by the loop's length
+        T = [T[0]] + [T[0] + np.mod(Tk - T[0], t[n]) for Tk in T[1:]]
     d01, d02, d03 = T[0] - T[1], T[0] - T[2], T[0] - T[3]
     d12, d13, d23 = T[1] - T[2], T[1] - T[3], T[2] - T[3]
-    # w_j = 1 / p_j, p_j = prod over k != j of (t_j - t_k)
-    p0 = d01 * d02 * d03
-    p1 = -d01 * d12 * d13
-    p2 = d02 * d12 * d23
-    p3 = -(d03 * d13 * d23)
+    # w_j = 1 / prod over k != j of (t_j - t_k)
+    w0 = d01 * d02 * d03
+    w1 = -d01 * d12 * d13
+    w2 = d02 * d12 * d23
+    w3 = -(d03 * d13 * d23)
     cx, cy = X[3] - X[0], Y[3] - Y[0]
     length = np.hypot(cx, cy)
-    ok = (p0 != 0) & (p1 != 0) & (p2 != 0) & (p3 != 0) & (length > 0)
+    ok = (w0 != 0) & (w1 != 0) & (w2 != 0) & (w3 != 0) & (length > 0)
     with np.errstate(divide="ignore", invalid="ignore"):
+        for w in (w0, w1, w2, w3):
+            np.divide(1.0, w, out=w)
         nx, ny = -cy / length, cx / length
-        e = ((X[1] - X[0]) * nx + (Y[1] - Y[0]) * ny) / p1  # the j = 0 term is 0
-        e += ((X[2] - X[0]) * nx + (Y[2] - Y[0]) * ny) / p2
-        e += ((X[3] - X[0]) * nx + (Y[3] - Y[0]) * ny) / p3
-        e /= np.sqrt(1.0 / (p0 * p0) + 1.0 / (p1 * p1) + 1.0 / (p2 * p2) + 1.0 / (p3 * p3))
+        e = w1 * ((X[1] - X[0]) * nx + (Y[1] - Y[0]) * ny)  # the j = 0 term is 0
+        e += w2 * ((X[2] - X[0]) * nx + (Y[2] - Y[0]) * ny)
+        e += w3 * ((X[3] - X[0]) * nx + (Y[3] - Y[0]) * ny)
+        e /= np.sqrt(w0 * w0 + w1 * w1 + w2 * w2 + w3 * w3)
     e = e[ok]
     return e[np.isfinite(e)]
 
