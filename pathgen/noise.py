@@ -207,7 +207,10 @@ def _pseudo_residuals(p, closed, lag, chords=None):
     Y = [ys[j * lag: j * lag + m] for j in range(4)]
     T = [ts[j * lag: j * lag + m] for j in range(4)]
     if closed:  # past the seam the parameter goes on by the loop's length
-        T = [T[0]] + [T[0] + np.mod(Tk - T[0], t[n]) for Tk in T[1:]]
+        T = [T[0]] + [Tk - T[0] for Tk in T[1:]]
+        for Tk in T[1:]:
+            np.mod(Tk[-reach:], t[n], out=Tk[-reach:])  # only the windows over the seam wrap
+            Tk += T[0]
     d01, d02, d03 = T[0] - T[1], T[0] - T[2], T[0] - T[3]
     d12, d13, d23 = T[1] - T[2], T[1] - T[3], T[2] - T[3]
     # w_j = 1 / prod over k != j of (t_j - t_k)
