@@ -44,6 +44,7 @@ import numpy as np
 from ._options import check_option, check_positive
 from .errors import InputError
 from .geometry import turn_angle
+from .noise import median
 
 __all__ = [
     "fit_outline",
@@ -151,7 +152,7 @@ def _robust_arc_length(p, closed, chord):
     m = 1
     while m < n // 8:
         lag = (np.roll(p, -m, axis=0) - p) if closed else (p[m:] - p[:-m])
-        if np.median(np.hypot(lag[:, 0], lag[:, 1])) >= chord:
+        if median(np.hypot(lag[:, 0], lag[:, 1])) >= chord:
             break
         m *= 2
     idx = np.arange(0, n, m)
@@ -262,7 +263,7 @@ def _join_curvature(pts, i, j) -> float:
     dev = float(_deviation(run).max())
     d = np.diff(run, axis=0)
     step = np.hypot(d[:, 0], d[:, 1])
-    h = float(np.median(step))
+    h = median(step)
     length = float(step.sum())
     if dev == 0.0:
         return 0.0
@@ -279,7 +280,7 @@ def _bearable_curvature(p, closed, o, noise) -> float:
     d = np.diff(np.vstack([p, p[:1]]) if closed else p, axis=0)
     step = np.hypot(d[:, 0], d[:, 1])
     length = float(step.sum())
-    h = float(np.median(step)) if len(step) else 0.0
+    h = median(step) if len(step) else 0.0
     if length <= 0 or h <= 0:
         return math.inf
     q = getattr(o, "quantization", None) or 0.0
@@ -332,7 +333,7 @@ def _thinned_fit(t, y, sigma, noise, periodic):
     t = np.asarray(t, np.float64)
     y = np.asarray(y, np.float64)
     m = len(t) - 1  # intervals
-    h = float(np.median(np.diff(t)))
+    h = median(np.diff(t))
     spacing = math.sqrt(4.0 * sigma * THIN_MARGIN / (FAKE_RATIO * noise.reference_curvature))
     k = int(math.ceil(spacing / h)) if h > 0 else 0
     if k < 2 or m // k < (4 if periodic else 3):
@@ -342,7 +343,7 @@ def _thinned_fit(t, y, sigma, noise, periodic):
         tk = np.append(t[keep], t[m])
         yk = np.vstack([y[keep], y[:1]])
     else:
-        keep = np.unique(np.append(np.arange(0, m, k), m))
+        keep = _unique(np.append(np.arange(0, m, k), m))
         tk, yk = t[keep], y[keep]
     hk = np.diff(tk)
     dk = np.diff(yk, axis=0)
@@ -615,7 +616,7 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
         cs = np.union1d(cs, forced)
     if not closed:
         cs = cs[(cs > 0) & (cs < n - 1)]
-    cs = np.unique(cs)
+    cs = _unique(cs)
     if find_arcs and corners is None and tan is None and straight_tol is None:
         found = _lines_and_arcs(o, p, closed, cs, end, mode, smoothing,
                                 {"corner_angle": corner_angle, "smooth": smooth, "noise": noise})
@@ -640,7 +641,7 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
     tq = np.concatenate([[0.0], np.cumsum(hq)])
     # piece boundaries (rotated indices): corners, ends
     bounds = np.sort((cs - start) % n) if len(cs) else np.zeros(0, np.int64)
-    bounds = np.unique(np.concatenate([[0], bounds, [m]]))
+    bounds = _unique(np.concatenate([[0], bounds, [m]]))
     search = not smoothing and corner_angle is not None  # straight runs inside pieces
     # a straight run inside a curved piece is kept only when the curve's
     # turn onto it stays below the curvature the points can bear (see
@@ -802,6 +803,14 @@ def _lines_and_arcs(o, p, closed, cs, end, mode, smoothing, facts):
     info["smoothing_asked"] = mode
     c.info.update(info)
     return c
+
+
+def _unique(a) -> np.ndarray:
+    """The sorted distinct values of an integer array, as ``numpy.unique``
+    gives them (which imports numpy.ma on its first call: a small job's
+    cost)."""
+    a = np.sort(np.asarray(a).ravel())
+    return a[np.concatenate([[True], a[1:] != a[:-1]])] if len(a) else a
 
 
 def _apart(runs):

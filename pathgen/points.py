@@ -612,7 +612,9 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
     q = np.vstack([p, p[:1]]) if closed else p
     d = np.hypot(*np.diff(q, axis=0).T)
     if len(d) >= 4:
-        med = float(np.median(d))
+        from .noise import median
+
+        med = median(d)
 
         def odd_step(found, i, what, ratio, plural, advice):
             n_more = f" ({len(found)} such {plural})" if len(found) > 1 else ""
