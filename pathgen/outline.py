@@ -534,7 +534,9 @@ def fit_outline(outline, *, end: str = "not-a-knot", param: str = "chord",
         "smoothing" ("off", "tolerance", "noise" or "none": auto found the
         points clean), "noise" (the NoiseEstimate, when estimated), and
         when smoothing to the noise "sigma" (mm, the σ aimed at), "dof"
-        and "dof_error" (degrees of freedom kept, estimated).
+        and "dof_error" (degrees of freedom kept, estimated), and
+        "thinned" (k) when points denser than their rounding supports were
+        fitted through every k-th (see :func:`_thinned_fit`).
 
     Examples
     --------
