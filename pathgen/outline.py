@@ -313,8 +313,10 @@ def _thinned_fit(t, y, sigma, noise, periodic):
 
     k is the smallest step at which the noise fakes ``THIN_MARGIN`` times
     less than ``FAKE_RATIO`` of the outline's mean curvature (4σ/(k·h)²,
-    the test :func:`pathgen.noise.estimate_noise` applies), and at least 2.  The interpolating spline through the kept points (periodic,
-    or natural ends pinned to the stretch's end points) is split at the
+    the test :func:`pathgen.noise.estimate_noise` applies), and at least 2.
+    The interpolating spline through the kept points (periodic, or through
+    the stretch's end points with not-a-knot ends, which follow the shape to
+    the end where natural ends would force it straight) is split at the
     left-out points' parameters, exactly (Taylor shift of each cubic), so
     the contour keeps one break per point.  Used only when the points it
     leaves out lie within ``THIN_RMS`` σ of it (root mean square, measured):
@@ -351,7 +353,7 @@ def _thinned_fit(t, y, sigma, noise, periodic):
     if periodic:
         M = _moments(hk, slopes, "not-a-knot", True, None)
     else:
-        M = _moments(hk, slopes, "natural", False, None)
+        M = _moments(hk, slopes, "not-a-knot", False, None)
     ck = _coefficients(hk, (yk[:, 0], yk[:, 1]), slopes, M)  # (2, 4, K) per coordinate
     # each original interval inside kept piece j, at offset u from its start
     counts = np.diff(np.append(keep, m) if periodic else keep)

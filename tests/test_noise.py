@@ -400,3 +400,27 @@ def test_dense_points_rounded_to_8_decimals_are_smoothed_to_the_true_radii():
             assert c.info["max_residual"] <= 3 * 1e-8  # the points stay within their rounding
     assert max(abs(v) for v in found["off"]) > 0.03  # the effect this test is about
     assert max(abs(v) for v in found["auto"]) <= 1e-3, found
+
+
+def test_dense_rounded_open_outline_with_a_corner_is_smoothed_to_the_ellipse():
+    # A quarter of an ellipse (a = 6, b = 4 mm) in 30 000 points rounded to
+    # 8 decimals, then a straight leg from a sharp corner: the rounding fakes
+    # curvature (est.smooth), the curved piece ends at the corner. Its
+    # curvature must follow ab/(a² sin²θ + b² cos²θ)^{3/2} [ellipse] to 0.5 %
+    # up to both ends; the exact fit is off by more than 100 %.
+    n = 30_000
+    th = np.linspace(0, np.pi / 2, n)
+    leg = np.c_[np.linspace(0, -3, 8000)[1:], np.linspace(4, 1, 8000)[1:]]
+    o = clean_points(np.round(np.vstack([np.c_[6 * np.cos(th), 4 * np.sin(th)], leg]), 8), closed=False)
+    est = estimate_noise(o.points, False, quantization=o.quantization)
+    assert est.smooth
+    err = {}
+    for mode in ("off", "auto"):
+        c = fit_outline(o, noise=est, smooth=mode)
+        assert c.corners == (n - 1,)
+        t = c.breaks[: n - 1] + 0.5 * np.diff(c.breaks[:n])
+        x, y = c(t).T
+        phi = np.arctan2(y / 4, x / 6)
+        err[mode] = np.abs(c.curvature(t) / (24 / (36 * np.sin(phi) ** 2 + 16 * np.cos(phi) ** 2) ** 1.5) - 1).max()
+    assert err["off"] > 1.0
+    assert err["auto"] <= 0.005, err
