@@ -352,8 +352,7 @@ def _write_in_bulk(spline) -> None:
     ezdxf writes a SPLINE's data one tag at a time (about 4·10^6 calls of
     the tag writer at 10^6 control points); this writes the same tags, the
     same text (each value as ``str`` of its float, as ezdxf's tag format
-    does), in bulk: the repr of a list of floats holds each as ``str``
-    gives it, and its separators become the group codes.  Other writers (binary DXF) and splines with weights or
+    does), in bulk.  Other writers (binary DXF) and splines with weights or
     fit points take ezdxf's own way.  Tested byte for byte against it.
     """
     from ezdxf.entities import Spline
@@ -362,29 +361,25 @@ def _write_in_bulk(spline) -> None:
     def export_spline_data(tagwriter):
         if type(tagwriter) is not TagWriter or len(spline.weights) or len(spline.fit_points):
             return Spline.export_spline_data(spline, tagwriter)
-        knots = np.asarray(spline.knots, np.float64)
-        if len(knots):
-            # repr of a list writes each float as str does, ", " between
-            tagwriter.write_str(" 40\n" + repr(knots.tolist())[1:-1].replace(", ", "\n 40\n") + "\n")
+        knots = np.asarray(spline.knots, np.float64).tolist()
+        if knots:
+            tagwriter.write_str(" 40\n" + "\n 40\n".join(map(str, knots)) + "\n")
         cv = np.asarray(spline.control_points.values, np.float64).reshape(-1, 3)
-        if len(cv) == 0:
+        n = len(cv)
+        if n == 0:
             return
-        z = cv[:, 2]
-        if np.any(z) or np.any(np.signbit(z)):  # not the flat drawing pathgen makes: one value at a time
-            parts = [""] * (6 * len(cv))  # code, value, code, value, code, value per point
-            parts[0::6] = ["\n 10\n"] * len(cv)
-            parts[0] = " 10\n"
-            parts[2::6] = ["\n 20\n"] * len(cv)
-            parts[4::6] = ["\n 30\n"] * len(cv)
-            for i in range(3):
-                parts[2 * i + 1::6] = map(str, cv[:, i].tolist())
-            tagwriter.write_str("".join(parts) + "\n")
-            return
-        # z all +0.0: "[[x, y], [x, y], ...]" with its separators turned into group codes
-        zero = "\n 30\n" + str(0.0)
-        text = repr(cv[:, :2].tolist())[2:-2]
-        text = text.replace("], [", zero + "\n 10\n").replace(", ", "\n 20\n")
-        tagwriter.write_str(" 10\n" + text + zero + "\n")
+        parts = [""] * (6 * n)  # code, value, code, value, code, value per point
+        parts[0::6] = ["\n 10\n"] * n
+        parts[0] = " 10\n"
+        parts[2::6] = ["\n 20\n"] * n
+        parts[4::6] = ["\n 30\n"] * n
+        for i in range(3):
+            col = cv[:, i]
+            if not np.any(col) and not np.any(np.signbit(col)):  # all +0.0 (the z column)
+                parts[2 * i + 1::6] = [str(0.0)] * n
+            else:
+                parts[2 * i + 1::6] = map(str, col.tolist())
+        tagwriter.write_str("".join(parts) + "\n")
 
     spline.export_spline_data = export_spline_data
 
