@@ -48,12 +48,16 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["NoiseEstimate", "estimate_noise", "quantization_step", "chord_span", "chord_parameter", "CLEAN_NOISE_MM",
+__all__ = ["NoiseEstimate", "estimate_noise", "quantization_step", "chord_span", "chord_parameter", "FLOAT_ULPS",
            "FAKE_RATIO", "MAX_DECIMALS"]
 
-#: Noise below this (mm) is taken as clean: no shop instrument resolves
-#: 0.01 µm, and points rounded to 8 or more decimals are treated as exact.
-CLEAN_NOISE_MM = 1e-8
+#: Noise below this many units in the last place of the largest
+#: coordinate is float64's own rounding, not the file's: taken as clean.
+#: Any noise above it is judged by the curvature it fakes alone (4σ/h²
+#: against ``FAKE_RATIO``): rounding to 10 decimals (σ = 2.9·10⁻¹¹ mm) on
+#: points 0.2 µm apart fakes radii of about 400 mm, 0.0025 /mm, a sixth of
+#: a 380 mm cam's mean curvature, so it is no longer "clean" there.
+FLOAT_ULPS = 16.0
 #: Noise matters when the curvature it can fake (4σ/h²) exceeds this
 #: share of the outline's mean curvature (2π / length for a closed
 #: outline, its coarse total turning / length for an open one).
@@ -95,7 +99,8 @@ class NoiseEstimate:
     reference_curvature : the outline's mean curvature, 1/mm (2π/length
         closed, coarse total turning/length open).
     smooth : True when the noise can fake the answers: resolved, above
-        ``CLEAN_NOISE_MM`` and fake_curvature > ``FAKE_RATIO`` × the
+        float64's own rounding of the coordinates (``FLOAT_ULPS`` units in
+        the last place) and fake_curvature > ``FAKE_RATIO`` × the
         reference curvature.
     """
 
@@ -165,6 +170,75 @@ def quantization_step(values, *, max_decimals: int = MAX_DECIMALS) -> float | No
     return None
 
 
+def _chords(p, closed):
+    """x, y (contiguous), the steps between neighbouring points (closed: n
+    of them, the last back to the first) and their running sum t (len + 1)."""
+    x, y = np.ascontiguousarray(p[:, 0]), np.ascontiguousarray(p[:, 1])
+    dx = np.diff(np.append(x, x[0]) if closed else x)
+    dy = np.diff(np.append(y, y[0]) if closed else y)
+    seg = np.hypot(dx, dy)
+    t = np.empty(len(seg) + 1)
+    t[0] = 0.0
+    np.cumsum(seg, out=t[1:])
+    return x, y, seg, t
+
+
+def _pseudo_residuals(p, closed, lag, chords=None):
+    """Third divided differences of the normal component at ``lag``,
+    scaled to unit variance per unit noise (see the module notes).
+
+    Every window P_i, P_{i+lag}, P_{i+2lag}, P_{i+3lag} at once, on shifted
+    slices of the coordinates (a closed outline's are continued past the
+    seam, its parameter by the loop's length), one array per term.
+    ``chords``: :func:`_chords` of ``p``, when already at hand."""
+    n = len(p)
+    x, y, _, t = chords if chords is not None else _chords(p, closed)
+    if closed:
+        reach = 3 * lag
+        if reach <= n:
+            xs, ys = np.concatenate([x, x[:reach]]), np.concatenate([y, y[:reach]])
+            ts = np.concatenate([t[:n], t[:reach]])
+        else:  # tiny outlines: windows longer than the loop
+            turns = -(-reach // n) + 1
+            xs = np.tile(x, turns)[: n + reach]
+            ys = np.tile(y, turns)[: n + reach]
+            ts = np.tile(t[:n], turns)[: n + reach]
+        m = n
+    else:
+        m = n - 3 * lag
+        if m <= 0:
+            return np.zeros(0)
+        xs, ys, ts = x, y, t
+    X = [xs[j * lag: j * lag + m] for j in range(4)]
+    Y = [ys[j * lag: j * lag + m] for j in range(4)]
+    T = [ts[j * lag: j * lag + m] for j in range(4)]
+    if closed:  # past the seam the parameter goes on by the loop's length
+        T = [T[0]] + [Tk - T[0] for Tk in T[1:]]
+        for Tk in T[1:]:
+            np.mod(Tk[-reach:], t[n], out=Tk[-reach:])  # only the windows over the seam wrap
+            Tk += T[0]
+    d01, d02, d03 = T[0] - T[1], T[0] - T[2], T[0] - T[3]
+    d12, d13, d23 = T[1] - T[2], T[1] - T[3], T[2] - T[3]
+    # w_j = 1 / prod over k != j of (t_j - t_k)
+    w0 = d01 * d02 * d03
+    w1 = -d01 * d12 * d13
+    w2 = d02 * d12 * d23
+    w3 = -(d03 * d13 * d23)
+    cx, cy = X[3] - X[0], Y[3] - Y[0]
+    length = np.hypot(cx, cy)
+    ok = (w0 != 0) & (w1 != 0) & (w2 != 0) & (w3 != 0) & (length > 0)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        for w in (w0, w1, w2, w3):
+            np.divide(1.0, w, out=w)
+        nx, ny = -cy / length, cx / length
+        e = w1 * ((X[1] - X[0]) * nx + (Y[1] - Y[0]) * ny)  # the j = 0 term is 0
+        e += w2 * ((X[2] - X[0]) * nx + (Y[2] - Y[0]) * ny)
+        e += w3 * ((X[3] - X[0]) * nx + (Y[3] - Y[0]) * ny)
+        e /= np.sqrt(w0 * w0 + w1 * w1 + w2 * w2 + w3 * w3)
+    e = e[ok]
+    return e[np.isfinite(e)]
+
+
 def _parameter(p, closed, span):
     """Chord-length parameter of the points (closed: n + 1 values, the last
     closing the loop), measured on chords ``span`` points long and spread
@@ -195,12 +269,11 @@ def chord_parameter(points, closed: bool, span: int) -> np.ndarray:
     return _parameter(np.asarray(points, dtype=np.float64), closed, span)
 
 
-def _pseudo_residuals(p, closed, lag, span=1):
-    """Third divided differences of the normal component at ``lag``,
-    scaled to unit variance per unit noise (see the module notes).
-    ``span`` > 1: the parameter from chords that many points long, and the
-    normal from a chord reaching ``span`` points beyond the run at each end
-    (for points so close that their noise shows in the short chords)."""
+def _pseudo_residuals_span(p, closed, lag, span):
+    """:func:`_pseudo_residuals` for points so close that their noise shows
+    in the short chords: the parameter from chords ``span`` points long, and
+    the normal from a chord reaching ``span`` points beyond the run at each
+    end."""
     n = len(p)
     t = _parameter(p, closed, span)
     m = span if span > 1 else 0
@@ -239,15 +312,34 @@ def _pseudo_residuals(p, closed, lag, span=1):
     return e[np.isfinite(e)]
 
 
+def median(a) -> float:
+    """The median of the values in ``a``, as ``numpy.median`` gives it (the
+    middle value, or the mean of the two middle ones), for finite values.
+
+    numpy.median imports numpy.ma on its first call (for a NaN check) and a
+    small job pays for that; this takes the same partition and the same
+    arithmetic without it.
+
+    >>> median([3.0, 1.0, 2.0]), median([4.0, 1.0, 2.0, 3.0])
+    (2.0, 2.5)
+    """
+    a = np.asarray(a, dtype=np.float64).ravel()
+    k = len(a) // 2
+    if len(a) % 2:
+        return float(np.partition(a, k)[k])
+    part = np.partition(a, [k - 1, k])
+    return float((part[k - 1] + part[k]) / 2.0)
+
+
 def _robust_scale(e):
     """Standard deviation of the bulk of ``e``: values farther than
     ``CLIP`` robust scales (MAD × 1.4826) from the median (corners, sharp
     features) are left out, the rest give a plain root mean square."""
     if len(e) < 8:
         return 0.0
-    mid = np.median(e)
+    mid = median(e)
     dev = np.abs(e - mid)
-    mad = float(MAD_SCALE * np.median(dev))
+    mad = float(MAD_SCALE * median(dev))
     if mad == 0.0:
         return 0.0
     kept = e[dev <= CLIP * mad]
@@ -298,19 +390,19 @@ def estimate_noise(points, closed: bool, *, quantization=None) -> NoiseEstimate:
     n = len(p)
     if quantization is None:
         quantization = quantization_step(p)
-    seg = np.hypot(*np.diff(np.vstack([p, p[:1]]) if closed else p, axis=0).T)
-    h = float(np.median(seg)) if len(seg) else 0.0
+    chords = _chords(p, closed) if n else (None, None, np.zeros(0), np.zeros(1))
+    seg = chords[2]
+    h = median(seg) if len(seg) else 0.0
     hmin = float(seg.min()) if len(seg) else 0.0
     length = float(seg.sum())
-    s1 = _robust_scale(_pseudo_residuals(p, closed, 1)) if n >= 8 else 0.0
-    s2 = _robust_scale(_pseudo_residuals(p, closed, 2)) if n >= 12 else 0.0
+    s1 = _robust_scale(_pseudo_residuals(p, closed, 1, chords)) if n >= 8 else 0.0
+    s2 = _robust_scale(_pseudo_residuals(p, closed, 2, chords)) if n >= 12 else 0.0
     span = chord_span(s1, h, n)
-    if span > 1:
+    if span > 1 and n >= 8 + 4 * span:
         # the noise shows in the chords themselves: a parameter and normals
         # from chords about 100 σ long (each reaching past the run)
-        if n >= 8 + 4 * span:
-            s1 = _robust_scale(_pseudo_residuals(p, closed, 1, span))
-            s2 = _robust_scale(_pseudo_residuals(p, closed, 2, span))
+        s1 = _robust_scale(_pseudo_residuals_span(p, closed, 1, span))
+        s2 = _robust_scale(_pseudo_residuals_span(p, closed, 2, span))
     resolved = s1 > 0 and s2 < 2.0 * s1
     if resolved:
         sigma = math.sqrt(max(64.0 * s1 * s1 - s2 * s2, 0.0) / 63.0)
@@ -320,7 +412,8 @@ def estimate_noise(points, closed: bool, *, quantization=None) -> NoiseEstimate:
     used = max(sigma, q / math.sqrt(12.0)) if resolved else 0.0
     fake = 4.0 * used / (h * h) if h > 0 else 0.0
     ref = _reference_curvature(p, closed, length) if length > 0 else 0.0
-    smooth = bool(resolved and used > CLEAN_NOISE_MM and fake > FAKE_RATIO * ref)
+    floor = FLOAT_ULPS * float(np.spacing(np.abs(p).max())) if n else 0.0
+    smooth = bool(resolved and used > floor and fake > FAKE_RATIO * ref)
     return NoiseEstimate(points=n, spacing_median=h, spacing_min=hmin, quantization=quantization,
                          sigma=sigma, resolved=bool(resolved), sigma_used=used,
                          fake_curvature=fake, reference_curvature=ref, smooth=smooth)

@@ -140,17 +140,22 @@ def _fail(name: str, line: int | None, message: str):
     raise InputError(f"{where}: {message}")
 
 
+#: Bytes allowed in a text file of points: tab, line feed, carriage return
+#: and everything from the space up, but DEL (0x7f).
+_NOT_CONTROL = bytes([9, 10, 13, *range(32, 127), *range(128, 256)])
+
+
 def _decode(raw: bytes, name: str) -> str:
     """Bytes to text; refuse binary data and very long lines, naming the line."""
     if raw.startswith(b"\xef\xbb\xbf"):
         raw = raw[3:]
-    buf = np.frombuffer(raw, dtype=np.uint8)
-    control = (buf < 32) & (buf != 9) & (buf != 10) & (buf != 13) | (buf == 127)
-    if control.any():
-        at = int(np.argmax(control))
+    control = raw.translate(None, _NOT_CONTROL)  # what is left: the control bytes
+    if control:
+        at = raw.find(control[:1])
         line = raw.count(b"\n", 0, at) + 1
-        what = "a NUL byte" if buf[at] == 0 else f"control byte 0x{buf[at]:02x}"
+        what = "a NUL byte" if raw[at] == 0 else f"control byte 0x{raw[at]:02x}"
         _fail(name, line, f"holds {what}: this is not a text file of points")
+    buf = np.frombuffer(raw, dtype=np.uint8)
     ends = np.flatnonzero(buf == 10)
     lengths = np.diff(ends, prepend=-1, append=len(buf)) - 1
     if len(lengths) and lengths.max() > MAX_LINE_CHARS:
@@ -221,7 +226,8 @@ def _read_text(path: str, name: str):
     except OSError as exc:
         raise InputError(f"{name}: cannot read the file ({exc.strerror})") from None
     text = _decode(raw, name)
-    if "\r" in text:
+    had_cr = "\r" in text
+    if had_cr:
         text = text.replace("\r\n", "\n").replace("\r", "\n")
     n_lines = text.count("\n") + (0 if text.endswith("\n") or not text else 1)
     steps = []
@@ -257,15 +263,22 @@ def _read_text(path: str, name: str):
         steps.append(f"skipped the header on line {header[0] + 1}: {header[1]!r}")
     body = text[pos:]
     decimal_commas = dec == "," and "," in body
+    quoted = '"' in body or "'" in body
+    # a plain file (nothing to rewrite) is read by numpy from the file itself
+    plain = not (decimal_commas or quoted or had_cr)
     if decimal_commas:
         body = body.replace(",", ".")
-    if '"' in body or "'" in body:
+    if quoted:
         body = body.replace('"', "").replace("'", "")
     data = None
     try:
-        data = np.loadtxt(io.StringIO(body), delimiter=sep, comments="#", ndmin=2,
-                          dtype=np.float64)
-    except ValueError:
+        if plain:
+            data = np.loadtxt(path, delimiter=sep, comments="#", ndmin=2, dtype=np.float64,
+                              skiprows=first, encoding="utf-8-sig")
+        else:
+            data = np.loadtxt(io.StringIO(body), delimiter=sep, comments="#", ndmin=2,
+                              dtype=np.float64)
+    except (ValueError, UnicodeDecodeError):
         pass
     if data is not None and data.shape == (n_lines - first, ncols):
         numbers = np.arange(first + 1, n_lines + 1)
@@ -585,10 +598,12 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
         raise InputError(f"{source}: a closed outline needs at least 3 distinct points, "
                          f"got {len(p)}")
     if closed:
-        c = p - p.mean(axis=0)
-        # distance of every point from the best line through them (principal axis)
-        _, _, vt = np.linalg.svd(c, full_matrices=False)
-        off = np.abs(c @ vt[1])
+        # distance of every point from the best line through them: the
+        # principal axis, the major eigenvector of the 2 x 2 scatter matrix
+        cx, cy = p[:, 0] - p[:, 0].mean(), p[:, 1] - p[:, 1].mean()
+        sxy = float(np.dot(cx, cy))
+        _, vec = np.linalg.eigh(np.array([[np.dot(cx, cx), sxy], [sxy, np.dot(cy, cy)]]))
+        off = np.abs(cx * vec[0, 0] + cy * vec[1, 0])
         if off.max() <= max(tol, 1e-12 * size):
             raise InputError(f"{source}: all {len(p)} points of the closed outline lie on "
                              "one straight line: it encloses no area")
@@ -602,7 +617,9 @@ def clean_points(points, *, closed=None, units: str = "mm", source: str = "array
     q = np.vstack([p, p[:1]]) if closed else p
     d = np.hypot(*np.diff(q, axis=0).T)
     if len(d) >= 4:
-        med = float(np.median(d))
+        from .noise import median
+
+        med = median(d)
         # the notes speak the file's units (the points are mm from here on)
         per, u = (MM_PER_INCH, "inch") if units == "inch" else (1.0, "mm")
 

@@ -440,3 +440,80 @@ def test_a_program_is_made_from_a_dense_noisy_scan(tmp_path):
     assert res.program["within_tolerance"]
     assert res.report.tool_cannot_reach == 0 or not res.report.tool_cannot_reach
     assert (tmp_path / "scan.nc").read_text().count("G2") + (tmp_path / "scan.nc").read_text().count("G3") > 10
+
+def _small_cam(n, decimals):
+    """The invented cam r(θ) = 6 + 0.8 sin 3θ + 0.3 cos 7θ (mm), n points
+    rounded to ``decimals``, and its curvature at them by the polar formula
+    κ = (r² + 2r′² − r r″)/(r² + r′²)^{3/2} ([curvature], for r(θ); derived)."""
+    th = np.linspace(0, 2 * np.pi, n, endpoint=False)
+    r = 6 + 0.8 * np.sin(3 * th) + 0.3 * np.cos(7 * th)
+    r1 = 2.4 * np.cos(3 * th) - 2.1 * np.sin(7 * th)
+    r2 = -7.2 * np.sin(3 * th) - 14.7 * np.cos(7 * th)
+    k = (r * r + 2 * r1 * r1 - r * r2) / (r * r + r1 * r1) ** 1.5
+    return np.round(np.c_[r * np.cos(th), r * np.sin(th)], decimals), k
+
+
+def test_rounding_on_points_closer_than_it_fakes_curvature_4_sigma_over_h2():
+    # Rounding to q (σ = q/√12 per coordinate, [quantization]) on points h
+    # apart fakes curvature of about 4σ/h² in an exact fit (the second
+    # difference of the noise over h²): measured on the cam at two roundings,
+    # the fit's error at its points is 1 to 2.5 times 4σ/h², growing tenfold
+    # with q, whatever the shape.
+    ratios = []
+    for decimals in (7, 8):
+        pts, k = _small_cam(40_000, decimals)
+        c = fit(pts, closed=True)
+        h = float(np.median(np.diff(c.breaks)))
+        err = np.sqrt(np.mean((c.curvature(c.breaks[:-1]) - k) ** 2))
+        ratios.append(err / (4 * 10.0**-decimals / math.sqrt(12) / h**2))
+    assert all(1.0 <= r <= 2.5 for r in ratios), ratios
+    assert ratios[0] == pytest.approx(ratios[1], rel=0.1)
+
+
+def test_dense_points_rounded_to_8_decimals_are_smoothed_to_the_true_radii():
+    # 40 000 points of a 38 mm cam rounded to 10 nm: σ = 2.9 nm, far below
+    # any instrument, yet at 0.95 µm spacing it fakes 7 % of the mean
+    # curvature, and an exact fit misses the smallest radius by about 8 %.
+    # --smooth auto must see it and come within 0.1 % of the polar formula.
+    pts, k = _small_cam(40_000, 8)
+    o = clean_points(pts, closed=True)
+    est = estimate_noise(o.points, True, quantization=o.quantization)
+    assert est.resolved and est.smooth
+    assert est.sigma_used == pytest.approx(1e-8 / math.sqrt(12), rel=0.05)  # [quantization]
+    at = None
+    found = {}
+    for mode in ("off", "auto"):
+        c = fit_outline(o, noise=est, smooth=mode)
+        at = (c.breaks[:-1, None] + np.diff(c.breaks)[:, None] * np.array([0.25, 0.75])).ravel()
+        kk = c.curvature(at)
+        found[mode] = (kk.max() / k.max() - 1, kk.min() / k.min() - 1)
+        if mode == "auto":
+            assert c.info["smoothing"] == "noise"
+            assert len(c.breaks) == len(o.points) + 1  # one break per point still
+            assert c.info["max_residual"] <= 3 * 1e-8  # the points stay within their rounding
+    assert max(abs(v) for v in found["off"]) > 0.03  # the effect this test is about
+    assert max(abs(v) for v in found["auto"]) <= 1e-3, found
+
+
+def test_dense_rounded_open_outline_with_a_corner_is_smoothed_to_the_ellipse():
+    # A quarter of an ellipse (a = 6, b = 4 mm) in 30 000 points rounded to
+    # 8 decimals, then a straight leg from a sharp corner: the rounding fakes
+    # curvature (est.smooth), the curved piece ends at the corner. Its
+    # curvature must follow ab/(a² sin²θ + b² cos²θ)^{3/2} [ellipse] to 0.5 %
+    # up to both ends; the exact fit is off by more than 100 %.
+    n = 30_000
+    th = np.linspace(0, np.pi / 2, n)
+    leg = np.c_[np.linspace(0, -3, 8000)[1:], np.linspace(4, 1, 8000)[1:]]
+    o = clean_points(np.round(np.vstack([np.c_[6 * np.cos(th), 4 * np.sin(th)], leg]), 8), closed=False)
+    est = estimate_noise(o.points, False, quantization=o.quantization)
+    assert est.smooth
+    err = {}
+    for mode in ("off", "auto"):
+        c = fit_outline(o, noise=est, smooth=mode)
+        assert c.corners == (n - 1,)
+        t = c.breaks[: n - 1] + 0.5 * np.diff(c.breaks[:n])
+        x, y = c(t).T
+        phi = np.arctan2(y / 4, x / 6)
+        err[mode] = np.abs(c.curvature(t) / (24 / (36 * np.sin(phi) ** 2 + 16 * np.cos(phi) ** 2) ** 1.5) - 1).max()
+    assert err["off"] > 1.0
+    assert err["auto"] <= 0.005, err

@@ -365,3 +365,46 @@ def test_smooth_dense_loop_has_no_false_corner_at_its_seam():
     nxt = np.roll(right, -1, axis=0)
     jump = np.abs(np.arctan2(left[:, 0] * nxt[:, 1] - left[:, 1] * nxt[:, 0], (left * nxt).sum(axis=1)))
     assert jump.max() < 1e-6
+
+
+def _polar_cam(th, scale=1.0):
+    """The invented cam r(θ) = 60 + 8 sin 3θ + 3 cos 7θ (times ``scale``) and
+    its curvature by the polar formula κ = (r² + 2r′² − r r″)/(r² + r′²)^{3/2}
+    ([curvature], written for r(θ); derived)."""
+    r = 60 + 8 * np.sin(3 * th) + 3 * np.cos(7 * th)
+    r1 = 24 * np.cos(3 * th) - 21 * np.sin(7 * th)
+    r2 = -72 * np.sin(3 * th) - 147 * np.cos(7 * th)
+    k = (r * r + 2 * r1 * r1 - r * r2) / (r * r + r1 * r1) ** 1.5
+    return scale * np.c_[r * np.cos(th), r * np.sin(th)], k / scale
+
+
+def test_straight_runs_on_dense_curves_do_not_fake_tight_spots():
+    # Near an inflection of the cam, stretches of points 0.2 µm apart lie
+    # within the straight tolerance (1e-6 × size) of their chord over more
+    # than 1 % of the size; made lines, the spline beside them must turn onto
+    # them within a few steps, bending by about 16·d/(L·h): here far more than
+    # the cam itself. Exact points (float64 only): the curvature of the fit
+    # must stay within 1 % of the polar formula [curvature] (it was 380 times
+    # the cam's largest before such runs were checked).
+    th0 = math.atan2(22.9485, 60.4017)
+    th = th0 + np.linspace(-0.05, 0.05, 31_830)  # 2·10⁶ points per turn
+    pts, k = _polar_cam(th)
+    c = fit_outline(pts, closed=False)
+    assert c.info["straight_runs"] == []
+    at = (c.breaks[:-1, None] + np.diff(c.breaks)[:, None] * np.array([0.25, 0.75])).ravel()
+    assert np.abs(c.curvature(at)).max() <= 1.01 * np.abs(k).max()
+
+
+def test_straight_run_join_curvature_rule():
+    # a true straight side (exact points) costs nothing at its joins; a bow
+    # of sagitta d over L on spacing h is judged at 16·d/(L·h) (JOIN_FACTOR,
+    # from the circle's sagitta d = L²κ/8 [sagitta] and the clamped spline's
+    # end moment [stoer-bulirsch])
+    from pathgen.outline import JOIN_FACTOR, _join_curvature
+
+    x = np.linspace(0.0, 10.0, 101)
+    assert _join_curvature(np.c_[x, 0 * x], 0, 100) == 0.0
+    R = 1e4  # a bow of radius 10 m over 10 mm: sagitta L²/(8R)
+    bow = np.c_[x, R - np.sqrt(R * R - (x - 5.0) ** 2)]
+    d = 100.0 / (8 * R)
+    assert _join_curvature(bow, 0, 100) == pytest.approx(JOIN_FACTOR * d / (10.0 * 0.1), rel=1e-3)

@@ -20,7 +20,7 @@ from pathgen.spline import gtsv_steps
 
 ROOT = Path(__file__).resolve().parent.parent
 
-HEAVY = ("scipy.linalg", "scipy.spatial", "shapely")
+HEAVY = ("scipy.linalg", "scipy.spatial", "shapely", "numpy.ma")
 
 
 def _imports_after_check(path: Path) -> list[str]:
@@ -40,7 +40,8 @@ def _imports_after_check(path: Path) -> list[str]:
 def test_small_clean_check_imports_no_scipy_linalg_spatial_or_shapely(tmp_path):
     # A 200-point outline: the fit (numpy tridiagonal solve), the gouge search
     # (numpy nearest points) and the crossing test (numpy orientations) need
-    # none of the heavy libraries, which take 0.2-0.6 s each to import.
+    # none of the heavy libraries, which take 0.2-0.6 s each to import (and
+    # not numpy.ma, which numpy.median and numpy.unique import on first use).
     th = np.linspace(0.0, 2 * np.pi, 200, endpoint=False)
     r = 30.0 + 4.0 * np.sin(3 * th)
     src = tmp_path / "small.csv"
@@ -244,3 +245,50 @@ def test_nearest_distance_with_a_tiny_bound_matches_the_kd_tree():
         with np.errstate(all="raise"):
             got = nearest_distance(ref, query, bound)
         np.testing.assert_array_equal(got, want)
+
+
+def test_spline_with_height_written_in_bulk_is_byte_identical_to_ezdxfs_own_way(tmp_path):
+    # The bulk writer's other branch (control points off the plane z = 0,
+    # signed zeros): against ezdxf's documented tag-by-tag export.
+    import ezdxf
+
+    import pathgen.export.dxf as dxf
+
+    rng = np.random.default_rng(5)
+    cp = np.c_[rng.normal(0, 50, (400, 2)), rng.normal(0, 1e-5, 400)]
+    cp[::7, 2] = -0.0
+    knots = np.concatenate([[0.0] * 4, np.sort(rng.uniform(0, 9, len(cp) - 4)), [9.0] * 4]).tolist()
+
+    def save(bulk, name):
+        with dxf.fixed_metadata():
+            doc = ezdxf.new("R2010", setup=False)
+            spline = doc.modelspace().add_spline()
+            spline.dxf.degree = 3
+            spline.control_points.set(cp)
+            spline.knots = knots
+            if bulk:
+                dxf._write_in_bulk(spline)
+            doc.saveas(tmp_path / name)
+        return (tmp_path / name).read_bytes()
+
+    a, b = save(True, "bulk.dxf"), save(False, "tagwise.dxf")
+    assert b"-0.0\n" in b
+    assert a == b
+
+
+def test_median_and_unique_of_our_own_give_numpys_values():
+    # Reference: numpy.median (the middle value, or the mean of the two
+    # middle ones) and numpy.unique, bit for bit, on odd and even sizes and
+    # values of every magnitude.
+    from pathgen.noise import median
+    from pathgen.outline import _unique
+
+    rng = np.random.default_rng(8)
+    for n in [*range(1, 40), 1000, 1001, 100_000]:
+        a = rng.normal(size=n) * 10.0 ** rng.uniform(-12, 12)
+        assert median(a) == np.median(a)
+        b = np.round(a / np.abs(a).max(), 1)  # ties
+        assert median(b) == np.median(b)
+        k = rng.integers(0, 9, n)
+        assert np.array_equal(_unique(k), np.unique(k)) and _unique(k).dtype == np.unique(k).dtype
+    assert len(_unique(np.zeros(0, np.int64))) == 0

@@ -356,8 +356,9 @@ def test_public_api_is_lazy_and_complete():
 
 @pytest.mark.parametrize("n", [3, 50, 399, 401, 1200])
 def test_tridiag_solve_small_and_large_agree_with_a_dense_solve(n):
-    # the one tridiagonal solver: dense numpy below DENSE_MAX rows, LAPACK
-    # dgtsv above; both against numpy.linalg.solve on the full matrix
+    # the one tridiagonal solver: dgtsv's steps in Python up to DENSE_MAX
+    # rows, LAPACK dgtsv above; both against numpy.linalg.solve on the full
+    # matrix, and the small one bit for bit against LAPACK's dgtsv itself
     from pathgen.spline import DENSE_MAX, tridiag_solve
 
     rng = np.random.default_rng(n)
@@ -368,6 +369,9 @@ def test_tridiag_solve_small_and_large_agree_with_a_dense_solve(n):
     x = tridiag_solve(dl.copy(), d.copy(), du.copy(), b.copy())
     np.testing.assert_allclose(x, np.linalg.solve(A, b), rtol=1e-12, atol=1e-12)
     assert (n <= DENSE_MAX) == (n < 400)
+    from scipy.linalg.lapack import dgtsv
+
+    assert np.array_equal(x, dgtsv(dl, d, du, b)[3])
 
 
 def test_a_small_fit_does_not_import_scipy():

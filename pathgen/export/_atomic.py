@@ -15,10 +15,8 @@ says which file exists and how to overwrite it.
 from __future__ import annotations
 
 import contextlib
-import hashlib
 import os
 import re
-import tempfile
 from pathlib import Path
 from typing import Iterator, Sequence
 
@@ -97,6 +95,8 @@ def atomic_paths(paths: Sequence, *, force: bool = False) -> Iterator[list[Path]
     targets = [check_target(p, force=force) for p in paths]
     if len({t.resolve() for t in targets}) != len(targets):
         raise ExportError("two outputs would be written to the same file: " + ", ".join(map(str, targets)))
+    import tempfile  # (here: a check that writes nothing does not import it)
+
     temps: list[Path] = []
     try:
         for t in targets:
@@ -128,6 +128,8 @@ def _temp_prefix(name: str) -> str:
     """Prefix of a writer's temporary file: the final name when it fits."""
     tag = f".pathgen{os.getpid()}."
     if len(os.fsencode(name)) + len(tag) + 16 > NAME_MAX:
+        import hashlib
+
         name = hashlib.sha1(os.fsencode(name)).hexdigest()[:16]
     return f".{name}{tag}"
 
@@ -206,6 +208,8 @@ class Staging:
         if len(os.fsencode(name)) + 40 > NAME_MAX:  # room for a writer's own temporary name
             # files staged together (a report's .json and .txt) keep one base
             base = final.name[: -len(keep)] if keep and final.name.endswith(keep) else final.name
+            import hashlib
+
             name = f".pathgen{os.getpid()}-{hashlib.sha1(os.fsencode(base)).hexdigest()[:16]}{keep}"
         tmp = final.with_name(name)
         self._pairs.append((tmp, final))

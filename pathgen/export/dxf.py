@@ -71,17 +71,21 @@ def _continuity_c2(contour) -> np.ndarray:
     h = np.diff(b)
     if len(h) < 2:
         return np.zeros(0, bool)
-    x = h[:-1, None]
-    a3, a2, a1, a0 = c[0, :-1], c[1, :-1], c[2, :-1], c[3, :-1]
-    val = ((a3 * x + a2) * x + a1) * x + a0
-    d1 = (3 * a3 * x + 2 * a2) * x + a1
-    d2 = 6 * a3 * x + 2 * a2
-    hh = np.minimum(h[:-1], h[1:])[:, None]
-    # jumps converted to lengths on the shorter neighbouring piece
-    jump = np.maximum.reduce(
-        [np.abs(val - c[3, 1:]), np.abs(d1 - c[2, 1:]) * hh, np.abs(d2 - 2 * c[1, 1:]) * hh**2]
-    ).max(axis=1)
-    size = max(float(np.ptp(np.asarray(contour.points), axis=0).max()) if len(contour.points) else 0.0, 1.0)
+    x = h[:-1]
+    hh = np.minimum(h[:-1], h[1:])
+    # jumps converted to lengths on the shorter neighbouring piece, the
+    # largest of value, slope and curvature over both coordinates
+    jump = np.zeros(len(x))
+    for k in range(c.shape[2]):
+        a3, a2, a1, a0 = c[0, :-1, k], c[1, :-1, k], c[2, :-1, k], c[3, :-1, k]
+        val = ((a3 * x + a2) * x + a1) * x + a0
+        d1 = (3 * a3 * x + 2 * a2) * x + a1
+        d2 = 6 * a3 * x + 2 * a2
+        np.maximum(jump, np.abs(val - c[3, 1:, k]), out=jump)
+        np.maximum(jump, np.abs(d1 - c[2, 1:, k]) * hh, out=jump)
+        np.maximum(jump, np.abs(d2 - 2 * c[1, 1:, k]) * hh**2, out=jump)
+    pts = np.asarray(contour.points)
+    size = max(float((pts.max(axis=0) - pts.min(axis=0)).max()) if len(pts) else 0.0, 1.0)
     return jump <= 1e-9 * size
 
 
@@ -131,23 +135,18 @@ def contour_bspline(contour) -> tuple[np.ndarray, np.ndarray]:
     knots = np.concatenate([np.full(4, b[0]), np.repeat(b[1:-1], mult), np.full(4, b[-1])])
     k = len(knots) - 4
     j = np.arange(k)
-    nonempty = knots[1:] > knots[:-1]  # span l is [knots[l], knots[l+1]]
-
-    def span_ok(l):
-        ok = (l >= 0) & (l < len(nonempty))
-        out = np.zeros(len(l), bool)
-        out[ok] = nonempty[l[ok]]
-        return out
-
+    nonempty = knots[1:] > knots[:-1]  # span l is [knots[l], knots[l+1]]; l + 3 < len for every j
     span = np.full(k, -1)
-    for off in (2, 1, 3, 0):  # prefer the spans in the middle of the support
-        cand = j + off
-        take = (span < 0) & span_ok(cand)
-        span[take] = cand[take]
+    for off in (0, 3, 1, 2):  # the spans in the middle of the support win (written last)
+        ok = nonempty[off:off + k]
+        span[ok] = j[ok] + off
     if np.any(span < 0):
         raise ExportError("internal error: a B-spline control point has no knot span")
-    piece = np.clip(np.searchsorted(b, knots[span], side="right") - 1, 0, m - 1)
-    u1, u2, u3 = (knots[j + i] - b[piece] for i in (1, 2, 3))
+    # the break each knot sits at (strictly increasing breaks: the piece that starts there)
+    at_break = np.concatenate([np.zeros(4, np.int64), np.repeat(np.arange(1, m), mult), np.full(4, m)])
+    piece = np.clip(at_break[span], 0, m - 1)
+    bp = b[piece]
+    u1, u2, u3 = (knots[i:i + k] - bp for i in (1, 2, 3))
     a3, a2, a1, a0 = (coef[i, piece] for i in range(4))
     e1 = (u1 + u2 + u3)[:, None] / 3.0
     e2 = (u1 * u2 + u1 * u3 + u2 * u3)[:, None] / 3.0
