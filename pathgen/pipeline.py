@@ -53,8 +53,8 @@ class Result:
     files : kind ("gcode", "dxf", "report", "report_text", "plot") → path written.
     facts : plain numbers about the contour (see :func:`contour_facts`).
     timings : stage → wall seconds.
-    units : the units the user works in ("mm" or "inch"); the values above
-        are mm, the toolpath and written files are in these units.
+    units : the units the user works in ("mm" or "inch"); the values above,
+        the toolpath included, are mm; the written files are in these units.
     notes : warnings for the user, plain sentences (the input's warnings,
         e.g. points out of order or a self-crossing outline, and writers'
         warnings, e.g. a very large drawing).

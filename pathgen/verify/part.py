@@ -305,9 +305,7 @@ def verify_part(program, result, *, machine=None) -> dict:
     tolerance or not cut, cutting moves that follow no outline, a hole cut
     after the outline around it, or a rule break.
     """
-    k = 25.4 if result.units == "inch" else 1.0
-    tp = result.toolpath
-    tol = float(tp.tolerance) * k
+    tol = float(result.toolpath.tolerance)  # mm, as the part's toolpath
     facts = replay_part(program, list(result.specs), tool_radius=result.tool_radius, tolerance=tol, machine=machine)
     depth, at, line = 0.0, None, None
     if result.material is not None and result.tool_radius > 0:
