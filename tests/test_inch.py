@@ -219,7 +219,7 @@ def test_part_toolpath_is_mm_whatever_the_job_units(part_jobs):
     # the tabs (on the outer outline) are searched in mm on a path within
     # the tolerance of the mm job's, every 0.1 mm, so they sit where the mm
     # job's do within a search step (an inch job once searched every 0.1
-    # inch, 2.54 mm, and put them up to 1.3 mm elsewhere)
+    # inch, 2.54 mm, and put the samples' tabs 1 to 3 mm elsewhere)
     tabs_mm = [t for r in mm.report.rows for t in r["tabs"]]
     tabs_in = [t for r in inch.report.rows for t in r["tabs"]]
     assert len(tabs_mm) == len(tabs_in) == 2
