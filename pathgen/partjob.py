@@ -11,13 +11,14 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from ._options import CAUTION, MM_PER_INCH, SIDES, check_option
 from .errors import InputError
+from .job import JobResult
 
 __all__ = ["run_part", "PartResult", "PartReport"]
 
@@ -121,7 +122,7 @@ class PartReport:
 
 
 @dataclass(frozen=True, eq=False)
-class PartResult:
+class PartResult(JobResult):
     """What :func:`run_part` made; the fields :class:`pathgen.pipeline.Result`
     has (``report`` is a :class:`PartReport`, ``toolpath`` the joined
     program) plus the part's outlines, levels, sides, order, contours,
@@ -138,12 +139,6 @@ class PartResult:
     reports: tuple
     toolpaths: tuple
     report: PartReport
-    toolpath: object = None
-    files: dict = field(default_factory=dict)
-    facts: dict = field(default_factory=dict)
-    timings: dict = field(default_factory=dict)
-    units: str = "mm"
-    notes: tuple = ()
     specs: tuple = ()  # what each outline expects of a program (pathgen.verify.part.PartOutlineSpec)
     material: object = None  # the part's material (shapely, mm) when a toolpath was made
     tool_radius: float = 0.0  # mm
@@ -151,14 +146,6 @@ class PartResult:
     @property
     def outline(self):
         return self.outlines
-
-    @property
-    def tool_cannot_reach(self) -> bool:
-        return self.report.tool_cannot_reach
-
-    @property
-    def status(self) -> int:
-        return 1 if self.tool_cannot_reach else 0
 
 
 def _sides(outlines, levels, sides) -> list[str]:
