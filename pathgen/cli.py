@@ -661,8 +661,8 @@ def _verify_text(facts, result, a) -> list[str]:
     if nof:
         shown = ", ".join(str(n) for n in nof[:10]) + (" ..." if len(nof) > 10 else "")
         lines.append(f"feed moves without F: {len(nof)} (lines {shown})")
-    tp = result.toolpath
-    want = sorted({round(float(z) * (25.4 if tp.units == "inch" else 1.0), 6)
+    tp = result.toolpath  # mm, whatever the job's units
+    want = sorted({round(float(z), 6)
                    for z, k, z1 in zip(tp.start[:, 2], tp.kind, tp.end[:, 2]) if k != 0 and z == z1})
     got = facts["cutting_depths"]
 

@@ -24,20 +24,53 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass, fields
+from dataclasses import dataclass, field, fields
 from pathlib import Path
 
 from ._options import (COMPENSATIONS, ENTRIES, LEADS, MILLING_DIRECTIONS, MM_PER_INCH, MOVES, SIDES,
                        UNITS, check_flag, check_option, check_positive)
 from .errors import InputError
 
-__all__ = ["JobOptions", "DEFAULT_TOLERANCE", "DEFAULT_CORNER_ANGLE"]
+__all__ = ["JobOptions", "JobResult", "DEFAULT_TOLERANCE", "DEFAULT_CORNER_ANGLE"]
 
 #: Chord tolerance when none is given (mm), for mm and inch jobs alike.
 DEFAULT_TOLERANCE = 0.01
 #: Turning angle above which a point is a sharp corner when none is given
 #: (degrees, as the user gives it; the object holds radians).
 DEFAULT_CORNER_ANGLE = 40.0
+
+
+@dataclass(frozen=True, eq=False, kw_only=True)
+class JobResult:
+    """What every job returns beside its geometry: the fields and the exit
+    status :class:`pathgen.pipeline.Result` (one outline) and
+    :class:`pathgen.partjob.PartResult` (a part) share.  Given by keyword.
+
+    toolpath : the Toolpath (mm), or None when none was asked for.
+    files : kind ("gcode", "dxf", "report", "report_text", "plot") → path written.
+    facts : plain numbers about the contour or the part (mm).
+    timings : stage → wall seconds.
+    units : the units the user works in ("mm" or "inch"); the written files
+        speak them, every value in the result is mm.
+    notes : warnings for the user, plain sentences.
+    """
+
+    toolpath: object = None
+    files: dict = field(default_factory=dict)
+    facts: dict = field(default_factory=dict)
+    timings: dict = field(default_factory=dict)
+    units: str = "mm"
+    notes: tuple = ()
+
+    @property
+    def tool_cannot_reach(self) -> bool:
+        """True when the report says the tool cannot cut some spot as drawn."""
+        return bool(getattr(self.report, "tool_cannot_reach", False))
+
+    @property
+    def status(self) -> int:
+        """0: done; 1: done, but the tool cannot reach some spot."""
+        return 1 if self.tool_cannot_reach else 0
 
 
 @dataclass(frozen=True)

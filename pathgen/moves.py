@@ -214,7 +214,8 @@ def move_lengths(path: Toolpath) -> np.ndarray:
 
 #: Keys of ``Toolpath.info`` that hold one length (or a feed, a length per minute).
 _INFO_LENGTHS = ("offset", "depth", "step_down", "safe_height", "plunge_feed", "feed", "lead_length",
-                 "lead_in_length", "lead_out_length", "helix_radius", "retract_height", "overlap")
+                 "lead_in_length", "lead_out_length", "helix_radius", "retract_height", "overlap",
+                 "tab_height", "rapid_length")
 #: Keys of ``Toolpath.info`` that hold one point (x, y).
 _INFO_POINTS = ("seam", "entry_xy", "helix_center")
 
@@ -261,6 +262,15 @@ def toolpath_in_units(path: Toolpath, units: str) -> Toolpath:
         info["trimmed"] = [{**s, **{k: s[k] * f for k in ("x", "y", "radius") if k in s}} for s in info["trimmed"]]
     if info.get("compensation"):
         info["compensation"] = {**info["compensation"], "radius": info["compensation"]["radius"] * f}
+    if info.get("tabs"):  # a part's outline cut with tabs (pathgen.path.tabs)
+        info["tabs"] = [{**t, **{k: t[k] * f for k in ("x", "y", "s", "width") if t.get(k) is not None},
+                         **({"span": tuple(v * f for v in t["span"])} if t.get("span") is not None else {}),
+                         **({"points": [[x * f, y * f] for x, y in t["points"]]} if t.get("points") else {})}
+                        for t in info["tabs"]]
+    if info.get("outlines"):  # a part's joined program (pathgen.path.join)
+        info["outlines"] = [{**o, "deviation": o["deviation"] * f,
+                             **({"seam": (o["seam"][0] * f, o["seam"][1] * f)} if o.get("seam") is not None else {})}
+                            if o.get("deviation") is not None else o for o in info["outlines"]]
     return Toolpath(path.kind, path.start * f, path.end * f, path.center * f, path.feed * f, units=units,
                     tool_diameter=path.tool_diameter * f, side=path.side, tolerance=per(path.tolerance),
                     deviation=path.deviation * f, time=path.time, info=info)

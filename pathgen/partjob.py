@@ -11,13 +11,14 @@ from __future__ import annotations
 
 import math
 import os
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
 
 from ._options import CAUTION, MM_PER_INCH, SIDES, check_option
 from .errors import InputError
+from .job import JobResult
 
 __all__ = ["run_part", "PartResult", "PartReport"]
 
@@ -121,11 +122,13 @@ class PartReport:
 
 
 @dataclass(frozen=True, eq=False)
-class PartResult:
+class PartResult(JobResult):
     """What :func:`run_part` made; the fields :class:`pathgen.pipeline.Result`
     has (``report`` is a :class:`PartReport`, ``toolpath`` the joined
     program) plus the part's outlines, levels, sides, order, contours,
-    reports and per-outline toolpaths (in input order)."""
+    reports and per-outline toolpaths (in input order).  Lengths are mm,
+    the toolpaths' too, whatever ``units`` (the job's units, which the
+    written files speak)."""
 
     source: str
     outlines: tuple
@@ -136,12 +139,6 @@ class PartResult:
     reports: tuple
     toolpaths: tuple
     report: PartReport
-    toolpath: object = None
-    files: dict = field(default_factory=dict)
-    facts: dict = field(default_factory=dict)
-    timings: dict = field(default_factory=dict)
-    units: str = "mm"
-    notes: tuple = ()
     specs: tuple = ()  # what each outline expects of a program (pathgen.verify.part.PartOutlineSpec)
     material: object = None  # the part's material (shapely, mm) when a toolpath was made
     tool_radius: float = 0.0  # mm
@@ -149,14 +146,6 @@ class PartResult:
     @property
     def outline(self):
         return self.outlines
-
-    @property
-    def tool_cannot_reach(self) -> bool:
-        return self.report.tool_cannot_reach
-
-    @property
-    def status(self) -> int:
-        return 1 if self.tool_cannot_reach else 0
 
 
 def _sides(outlines, levels, sides) -> list[str]:
@@ -227,8 +216,7 @@ def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes
     """The toolpath, with its leads shortened (halved, then none) while its
     tool disc would enter the part's material by more than the tolerance
     (a long lead-in in a narrow slot crosses to the far side); measured on
-    the exact geometry.  Raises when even without leads it would."""
-    from .moves import toolpath_in_units
+    the exact geometry (mm).  Raises when even without leads it would."""
     from .path.build import make_toolpath
     from .path.join import intrusion
 
@@ -236,12 +224,12 @@ def _clear_leads(tp, contour, tool, cut, mach, kw, material, tol, outline, notes
     if depth <= tol + 1e-9:
         return tp
     first = (depth, at)
-    length = tp.info["lead_length"] * (MM_PER_INCH if tp.units == "inch" else 1.0)
+    length = tp.info["lead_length"]
     tries = [dict(kw, lead_length=length / 2 ** k) for k in (1, 2, 3)] + [dict(kw, lead="none")]
     for k2 in tries:
         if kw.get("lead") == "none" and k2.get("lead") != "none":
             continue
-        tp = toolpath_in_units(make_toolpath(contour, tool, cut, mach, **k2), k2.get("units", "mm"))
+        tp = make_toolpath(contour, tool, cut, mach, **k2)
         depth, at = intrusion(tp, material)
         if depth <= tol + 1e-9:
             what = "no lead" if k2.get("lead") == "none" else f"a {k2['lead_length']:.4g} mm lead"
@@ -368,41 +356,41 @@ def _tab_options(tabs, spacing, width, height, scale, tool_mm, depth):
 
 
 def _with_tabs(tp, outline, contour, rep, opts, units):
-    """One outline's toolpath with tabs (see :mod:`pathgen.path.tabs`)."""
+    """One outline's toolpath with tabs (see :mod:`pathgen.path.tabs`); mm
+    in and out, ``units`` only words the messages."""
     import numpy as np
     from scipy.spatial import cKDTree
 
     from .path.tabs import add_tabs, place_tabs
 
-    k = MM_PER_INCH if units == "inch" else 1.0  # toolpath units → mm
     b = contour.breaks
     per = np.maximum(1, np.ceil(np.diff(contour.arc_length(b)) / 0.02)).astype(int)  # samples 0.02 mm apart
     t = np.concatenate([b[i] + (b[i + 1] - b[i]) * np.arange(n) / n for i, n in enumerate(per)])
     tree = cKDTree(contour(t))
 
     def edge_distance(p):
-        return tree.query(np.asarray(p) * k)[0] / k
+        return tree.query(np.asarray(p))[0]
 
     if opts["count"] is not None:
         count = opts["count"]
     else:
         count = max(1, round(contour.length / opts["spacing"]))
-    spots = [(s.x / k, s.y / k) for s in rep.tight_spots]
+    spots = [(s.x, s.y) for s in rep.tight_spots]
     try:
-        tabs = place_tabs(tp, count=count, width=opts["width"] / k, edge_distance=edge_distance, spots=spots)
+        tabs = place_tabs(tp, count=count, width=opts["width"], edge_distance=edge_distance, spots=spots)
     except InputError as exc:
-        raise InputError(f"{exc} (tab width {opts['width'] / k:g} {units}, tool {tp.tool_diameter:g} {units})") from None
-    out = add_tabs(tp, tabs, height=opts["height"] / k)
-    out.info["tabs"] = [dict(t, width=opts["width"] / k, points=tt["points"]) for t, tt in zip(out.info["tabs"], tabs)]
+        k = MM_PER_INCH if units == "inch" else 1.0  # the message speaks the job's units
+        raise InputError(f"{exc} (tab width {opts['width'] / k:g} {units}, "
+                         f"tool {tp.tool_diameter / k:g} {units})") from None
+    out = add_tabs(tp, tabs, height=opts["height"])
+    out.info["tabs"] = [dict(t, width=opts["width"], points=tt["points"]) for t, tt in zip(out.info["tabs"], tabs)]
     return out
 
 
-def _tabs_mm(tp, k):
-    """The tabs of a toolpath (info["tabs"]), in mm for the drawing and picture."""
-    f = 1.0 / k  # toolpath units → mm
+def _tabs_of(tp):
+    """The tabs of a toolpath (info["tabs"], mm) for the report, drawing and picture."""
     h = tp.info.get("tab_height")
-    return [{"x": t["x"] * f, "y": t["y"] * f, "s": t["s"] * f, "width": t["width"] * f,
-             "height": h * f, "points": (np.asarray(t["points"]) * f).tolist()}
+    return [{"x": t["x"], "y": t["y"], "s": t["s"], "width": t["width"], "height": h, "points": t["points"]}
             for t in tp.info.get("tabs", [])]
 
 
@@ -534,7 +522,6 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
             if makes_path:
                 import dataclasses
 
-                from .moves import toolpath_in_units
                 from .path.build import make_toolpath
 
                 # the tolerance budget: rounding to the written decimals takes at most 5 %, the moves the rest
@@ -546,7 +533,7 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
                 for name in ("depth", "step_down", "safe_height", "plunge_feed"):
                     if getattr(opts, name) is not None:
                         kw[name] = getattr(opts, name)
-                tp = toolpath_in_units(timed("toolpath", make_toolpath, c, tool, cut, mach, **kw), units)
+                tp = timed("toolpath", make_toolpath, c, tool, cut, mach, **kw)  # mm, as every stage
                 if s != "on":
                     tp = timed("clearance", _clear_leads, tp, c, tool, cut, mach, kw, material, tol_mm,
                                o, lead_notes)
@@ -560,19 +547,18 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
                         # an island inside a hole: a loose piece, noted, not a reason to stop
                         lead_notes.append(f"outline {o.number} ({o.where}): no tabs: {exc}; "
                                           "this piece comes loose when the cut goes through")
-                plan["approximation"] = float(tp.deviation) * (MM_PER_INCH if tp.units == "inch" else 1.0)
-                tp = dataclasses.replace(tp, tolerance=tol_mm / scale,
-                                         info={**tp.info, "approximation_target": plan["approximation_target"] / scale})
+                plan["approximation"] = float(tp.deviation)
+                tp = dataclasses.replace(tp, tolerance=tol_mm,
+                                         info={**tp.info, "approximation_target": plan["approximation_target"]})
         except InputError as exc:
             raise InputError(f"outline {o.number} ({o.where}, cut {s}): {exc}") from None
         reports.append(rep)
         paths.append(tp)
 
     # -- order and one program -------------------------------------------------------
-    k = 1.0 / MM_PER_INCH if units == "inch" else 1.0
     if makes_path:
-        starts = [tp.end[0, :2] / k for tp in paths]
-        ends = [tp.end[-1, :2] / k for tp in paths]
+        starts = [tp.end[0, :2] for tp in paths]
+        ends = [tp.end[-1, :2] for tp in paths]
     else:
         starts = ends = [c(np.array([c.domain[0]]))[0] for c in contours]
     order = cut_order(outlines, levels, starts, ends)
@@ -584,11 +570,11 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
         desc = [{"number": outlines[i].number, "side": side_list[i], "level": levels[i], "order": rank[i]}
                 for i in order]
         joined = join_toolpaths([paths[i] for i in order], rapid_feed=mach.rapid_feed, outlines=desc)
-    rapid_mm = joined.info["rapid_length"] / k if joined is not None else 0.0
+    rapid_mm = joined.info["rapid_length"] if joined is not None else 0.0
     rows = tuple({"number": o.number, "where": o.where, "layer": o.layer, "level": levels[i],
                   "side": side_list[i], "order": rank[i], "report": reports[i],
                   "drawn": contours[i].info.get("drawn"),
-                  "tabs": _tabs_mm(paths[i], k) if paths[i] is not None else []}
+                  "tabs": _tabs_of(paths[i]) if paths[i] is not None else []}
                  for i, o in enumerate(outlines))
     prep = PartReport(rows, rapid_length=rapid_mm,
                       program_time=None if joined is None else float(joined.time), steps=tuple(steps))
@@ -613,12 +599,12 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
 
         inner = enclosed(outlines, levels)
         specs = tuple(PartOutlineSpec(
-            number=o.number, contour=contours[i], offset=float(paths[i].info.get("offset", 0.0)) / k,
+            number=o.number, contour=contours[i], offset=float(paths[i].info.get("offset", 0.0)),
             side=side_list[i], expected=Moves.from_toolpath(paths[i]),
             inside=tuple(outlines[j].number for j in inner[i]),
             tabs=None if not paths[i].info.get("tabs") else {
-                "count": len(paths[i].info["tabs"]), "height": float(paths[i].info["tab_height"]) / k,
-                "depth": float(paths[i].info["depth"]) / k})
+                "count": len(paths[i].info["tabs"]), "height": float(paths[i].info["tab_height"]),
+                "depth": float(paths[i].info["depth"])})
             for i, o in enumerate(outlines))
     notes = list(warnings) + [s for s in steps if "bridged" in s] + lead_notes
     final = dict(targets)
@@ -627,7 +613,7 @@ def run_part(points, options=None, *, gcode=None, dxf=None, report=None, plot=No
         if "gcode" in tmp:
             from .export.gcode import write_gcode
 
-            timed("gcode", write_gcode, joined, tmp["gcode"], force=True, source=path.name,
+            timed("gcode", write_gcode, joined, tmp["gcode"], force=True, source=path.name, units=units,
                   program_name=Path(final["gcode"]).stem, spindle_speed=opts.spindle_speed,
                   single_feed=opts.one_feed, line_numbers=opts.line_numbers, decimals=plans[0]["decimals"],
                   check=_replay_part(material, tool_mm, tol_mm, specs, plans, replayed, units)

@@ -24,12 +24,12 @@ import math
 import os
 import time
 import warnings
-from dataclasses import dataclass, field
+from dataclasses import dataclass
 from pathlib import Path
 
 from ._options import COMPENSATIONS, LEADS, MM_PER_INCH, MOVES, check_option  # noqa: F401  (MOVES, LEADS re-exported)
 from .errors import InputError, PathgenError
-from .job import DEFAULT_TOLERANCE, JobOptions, cutting_feed, job_options, load_job_machine  # noqa: F401
+from .job import DEFAULT_TOLERANCE, JobOptions, JobResult, cutting_feed, job_options, load_job_machine  # noqa: F401
 
 __all__ = ["run", "run_part", "verify", "Result", "JobOptions", "MOVES", "LEADS", "contour_facts"]
 
@@ -37,7 +37,7 @@ POINT_SUFFIXES = (".csv", ".txt", ".xy", ".dxf")
 
 
 @dataclass(frozen=True, eq=False)
-class Result:
+class Result(JobResult):
     """What :func:`run` made.
 
     Attributes
@@ -53,8 +53,8 @@ class Result:
     files : kind ("gcode", "dxf", "report", "report_text", "plot") → path written.
     facts : plain numbers about the contour (see :func:`contour_facts`).
     timings : stage → wall seconds.
-    units : the units the user works in ("mm" or "inch"); the values above
-        are mm, the toolpath and written files are in these units.
+    units : the units the user works in ("mm" or "inch"); the values above,
+        the toolpath included, are mm; the written files are in these units.
     notes : warnings for the user, plain sentences (the input's warnings,
         e.g. points out of order or a self-crossing outline, and writers'
         warnings, e.g. a very large drawing).
@@ -67,23 +67,7 @@ class Result:
     outline: object
     contour: object
     report: object = None
-    toolpath: object = None
-    files: dict = field(default_factory=dict)
-    facts: dict = field(default_factory=dict)
-    timings: dict = field(default_factory=dict)
-    units: str = "mm"
-    notes: tuple = ()
     program: dict = None
-
-    @property
-    def tool_cannot_reach(self) -> bool:
-        """True when the report says the tool cannot cut some spot as drawn."""
-        return bool(getattr(self.report, "tool_cannot_reach", False))
-
-    @property
-    def status(self) -> int:
-        """0: done; 1: done, but the tool cannot reach some spot."""
-        return 1 if self.tool_cannot_reach else 0
 
 
 def contour_facts(contour, report=None, *, per_piece: int | None = None) -> dict:

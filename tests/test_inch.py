@@ -148,3 +148,118 @@ def test_toolpath_is_mm_whatever_the_job_units_and_is_written_in_inch(jobs):
     assert cut.sum() > 50
     tree = cKDTree(tp_in.end[tp_in.kind != RAPID])
     assert tree.query(ends_in[cut])[0].max() <= np.sqrt(3) * 0.5e-5 * IN + 1e-9
+
+
+def _bracket_dxf(path, units):
+    # an invented bracket plate, 100 x 60 mm with R8 corners (bulges), two
+    # round holes and an oblong slot, drawn in mm or in inch ($INSUNITS,
+    # ezdxf's documented doc.units); the inch drawing holds the mm figures
+    # divided by 25.4 (sources: inch)
+    import ezdxf
+
+    k = 1.0 if units == "mm" else 1.0 / IN
+    doc = ezdxf.new("R2010")
+    doc.units = ezdxf.units.MM if units == "mm" else ezdxf.units.IN
+    msp = doc.modelspace()
+    b = np.tan(np.pi / 8)  # a 90° arc: bulge = tan(θ/4) (sources: dxf-bulge)
+    w, h, r = 100.0, 60.0, 8.0
+    pts = [(r, 0, 0), (w - r, 0, b), (w, r, 0), (w, h - r, b), (w - r, h, 0), (r, h, b), (0, h - r, 0), (0, r, b)]
+    msp.add_lwpolyline([(x * k, y * k, bb) for x, y, bb in pts], format="xyb", close=True)
+    for x, y in ((14.0, 30.0), (86.0, 30.0)):
+        msp.add_circle((x * k, y * k), 5.0 * k)
+    msp.add_line((40 * k, 25 * k), (60 * k, 25 * k))
+    msp.add_arc((60 * k, 30 * k), 5 * k, -90, 90)
+    msp.add_line((60 * k, 35 * k), (40 * k, 35 * k))
+    msp.add_arc((40 * k, 30 * k), 5 * k, 90, 270)
+    doc.saveas(path)
+    return path
+
+
+@pytest.fixture(scope="module")
+def part_jobs(tmp_path_factory):
+    d = tmp_path_factory.mktemp("inch_part")
+    out = {}
+    for u, k in (("mm", 1.0), ("in", 1.0 / IN)):
+        src = _bracket_dxf(d / f"bracket_{u}.dxf", "mm" if u == "mm" else "inch")
+        res = run(src, tool_diameter=6.35 * k, depth=6.35 * k, step_down=3.175 * k, tabs=2,
+                  gcode=d / f"{u}.nc", report=d / f"{u}.report.json")
+        out[u] = (res, (d / f"{u}.nc").read_text(), json.loads((d / f"{u}.report.json").read_text()))
+    return out
+
+
+def test_part_toolpath_is_mm_whatever_the_job_units(part_jobs):
+    # the contract for a part too: lengths are mm inside, converted only
+    # where input is read and output written (1 inch = 25.4 mm exactly,
+    # Taylor & Thompson, NIST SP 811, 2008, appendix B.8; sources: inch)
+    from scipy.spatial import cKDTree
+
+    from pathgen.moves import RAPID
+
+    (mm, _, rep_mm), (inch, _, rep_in) = part_jobs["mm"], part_jobs["in"]
+    assert inch.units == "inch" and mm.units == "mm"
+    assert inch.toolpath.units == "mm" and all(tp.units == "mm" for tp in inch.toolpaths)
+    tp_mm, tp_in = mm.toolpath, inch.toolpath
+    assert tp_in.tool_diameter == pytest.approx(6.35, rel=1e-12)
+    assert tp_in.tolerance == pytest.approx(0.01, rel=1e-12)
+    assert tp_in.info["depth"] == pytest.approx(6.35, rel=1e-12)
+    assert inch.report.rapid_length == pytest.approx(tp_in.info["rapid_length"], rel=1e-12)
+    # 3 traverses between the 4 outlines, each end within twice the
+    # tolerance of the mm job's (the two budgets round to 5 inch or 4 mm
+    # decimals, so the arc fits aim at slightly different targets)
+    assert tp_in.info["rapid_length"] == pytest.approx(tp_mm.info["rapid_length"], abs=3 * 2 * 2 * 0.01)
+    # the same part in mm: the same outlines in the same order, and the tool
+    # centers of the inch job lie on the mm job's cutting moves (both are
+    # within the tolerance, 0.01 mm, of the same offset curves)
+    assert inch.order == mm.order and len(inch.toolpaths) == len(mm.toolpaths) == 4
+    mm_text = part_jobs["mm"][1]
+    dense = np.vstack([gr.sample(m, STEP) for m in gr.read(mm_text).moves if m.g != 0 and None not in m.start])
+    on_in = tp_in.end[tp_in.kind != RAPID]
+    assert len(on_in) > 50 and len(dense) > 10_000
+    assert cKDTree(dense).query(on_in)[0].max() <= 2 * 0.01 + STEP + 0.5e-4 * np.sqrt(3)
+    # the tabs (on the outer outline) are searched in mm on a path within
+    # the tolerance of the mm job's, every 0.1 mm, so they sit where the mm
+    # job's do within a search step (an inch job once searched every 0.1
+    # inch, 2.54 mm, and put the samples' tabs 1 to 3 mm elsewhere)
+    tabs_mm = [t for r in mm.report.rows for t in r["tabs"]]
+    tabs_in = [t for r in inch.report.rows for t in r["tabs"]]
+    assert len(tabs_mm) == len(tabs_in) == 2
+    for a, b in zip(tabs_mm, tabs_in):
+        assert np.hypot(a["x"] - b["x"], a["y"] - b["y"]) <= 0.1 + 2 * 0.01
+        assert b["width"] == pytest.approx(a["width"], rel=1e-12)
+    # the report speaks the job's units: the inch report's figures × 25.4
+    # are the mm report's
+    assert rep_in["units"] == "inch" and rep_mm["units"] == "mm"
+    assert rep_in["rapid_length"] * IN == pytest.approx(inch.report.rapid_length, rel=1e-9)
+    for a, b in zip(rep_mm["outlines"], rep_in["outlines"]):
+        for ta, tb in zip(a["tabs"], b["tabs"]):
+            assert np.hypot(tb["x"] * IN - ta["x"], tb["y"] * IN - ta["y"]) <= 0.1 + 2 * 0.01
+
+
+def test_inch_part_program_reads_back_onto_the_mm_toolpath(part_jobs):
+    # the inch program, read back by the independent reader (NISTIR 6556
+    # rules; sources: nistir-6556) and converted at 25.4 mm per inch
+    # (sources: inch), ends its cutting moves on the API's mm toolpath within
+    # the written rounding (half a unit of the 5th inch decimal per axis)
+    from scipy.spatial import cKDTree
+
+    from pathgen.moves import RAPID
+
+    inch, text, _ = part_jobs["in"]
+    assert "G20" in text and "G21" not in text
+    prog = gr.read(text)
+    assert prog.units == "inch"
+    ends = np.array([m.end for m in prog.moves if m.g != 0 and None not in m.end], float) * IN
+    tp = inch.toolpath
+    assert len(ends) > 50
+    assert cKDTree(tp.end[tp.kind != RAPID]).query(ends)[0].max() <= np.sqrt(3) * 0.5e-5 * IN + 1e-9
+    # every move of the API's toolpath, cutting or not, is written: the read
+    # back ends in mm match them one for one within the rounding
+    all_ends = np.array([[np.nan if v is None else v for v in m.end] for m in prog.moves], float) * IN
+    tail = all_ends[-len(tp):]
+    ok = ~np.isnan(tail).any(axis=1)
+    assert ok.sum() > 50
+    np.testing.assert_allclose(tail[ok], tp.end[ok], rtol=0, atol=0.5e-5 * IN + 1e-9)
+    # feeds per minute: inch/min × 25.4 = the mm/min of the toolpath (rounded to 0.1 inch/min)
+    cut = tp.kind != RAPID
+    feeds = np.array([m.feed for m in prog.moves], float)[-len(tp):][cut] * IN
+    np.testing.assert_allclose(feeds, tp.feed[cut], rtol=0, atol=0.05 * IN + 1e-9)

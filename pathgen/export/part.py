@@ -86,7 +86,7 @@ def _write_part_dxf(path, outlines, contours, rows, toolpaths, units, tolerance,
                 msp.add_lwpolyline(verts.tolist(), format="xyseb", close=closed,
                                    dxfattribs={"layer": "CONTOUR"})
         if toolpaths is not None and toolpaths[i] is not None:
-            for verts, closed in polyline_vertices(toolpaths[i], scale=1.0):
+            for verts, closed in polyline_vertices(toolpaths[i], scale=k):  # toolpaths are mm
                 msp.add_lwpolyline(verts.tolist(), format="xyseb", close=closed,
                                    dxfattribs={"layer": "TOOLPATH"})
         x, y = _label_point(c) * k

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import numpy as np
 
-from .._options import MM_PER_INCH
 from ..errors import InputError
 from ..geometry import arc_geometry
 from .model import RAPID, Toolpath
@@ -25,7 +24,9 @@ def join_toolpaths(paths, *, rapid_feed: float, outlines=None) -> Toolpath:
 
     Parameters
     ----------
-    paths : sequence of Toolpath, same units, tool and safe height.
+    paths : sequence of Toolpath in mm (as :func:`pathgen.path.build.make_toolpath`
+        makes them; a writer converts the joined path when it writes inch),
+        same tool and safe height.
     rapid_feed : the machine's rapid speed, mm/min (for the time).
     outlines : list of dicts describing each path's outline (number, side,
         ...), kept in ``info["outlines"]`` with the block range of each.
@@ -34,16 +35,16 @@ def join_toolpaths(paths, *, rapid_feed: float, outlines=None) -> Toolpath:
     -------
     Toolpath with ``side="per outline"``, the largest deviation, the summed
     time plus the traverses between outlines, and ``info["rapid_length"]``
-    (the traverse length between outlines, in the toolpath's units).
+    (the traverse length between outlines, mm).
     """
     paths = list(paths)
     if not paths:
         raise InputError("a part needs at least one toolpath")
-    units = paths[0].units
+    _mm_only(paths)
     safe = paths[0].info.get("safe_height")
     for p in paths[1:]:
-        if p.units != units or p.info.get("safe_height") != safe:
-            raise InputError("the toolpaths of a part must share units and safe height")
+        if p.info.get("safe_height") != safe:
+            raise InputError("the toolpaths of a part must share the safe height")
     kinds, starts, ends, centers, feeds = [], [], [], [], []
     rapid = 0.0
     first_block = []
@@ -63,8 +64,7 @@ def join_toolpaths(paths, *, rapid_feed: float, outlines=None) -> Toolpath:
         ends.append(np.array(p.end))
         centers.append(p.center)
         feeds.append(p.feed)
-    per_min = rapid_feed / (MM_PER_INCH if units == "inch" else 1.0)
-    time = sum(p.time for p in paths) + 60.0 * rapid / per_min
+    time = sum(p.time for p in paths) + 60.0 * rapid / rapid_feed
     info = dict(paths[0].info)
     for key in ("seam", "trimmed", "travel", "orientation", "offset"):
         info.pop(key, None)
@@ -75,7 +75,7 @@ def join_toolpaths(paths, *, rapid_feed: float, outlines=None) -> Toolpath:
          "deviation": float(p.deviation), "seam": p.info.get("seam"), "travel": p.info.get("travel")}
         for k, p in enumerate(paths)]
     return Toolpath(np.concatenate(kinds), np.vstack(starts), np.vstack(ends), np.vstack(centers),
-                    np.concatenate(feeds), units=units, tool_diameter=paths[0].tool_diameter,
+                    np.concatenate(feeds), units="mm", tool_diameter=paths[0].tool_diameter,
                     side="per outline", tolerance=paths[0].tolerance,
                     deviation=max(p.deviation for p in paths), time=float(time), info=info)
 
@@ -83,7 +83,7 @@ def join_toolpaths(paths, *, rapid_feed: float, outlines=None) -> Toolpath:
 def intrusion(path: Toolpath, material, *, step: float = 0.05) -> tuple[float, tuple | None]:
     """How deep the tool disc of ``path`` enters ``material`` (mm), and where.
 
-    ``material`` is a shapely (multi)polygon of the part, mm.  The cutting
+    ``path`` and ``material`` (a shapely (multi)polygon of the part) are mm.  The cutting
     moves of the deepest pass (every pass has the same XY) are sampled at
     most ``step`` mm apart (arcs as arcs); at each tool-center sample at
     distance δ from the material the disc of radius r enters by r − δ
@@ -95,19 +95,19 @@ def intrusion(path: Toolpath, material, *, step: float = 0.05) -> tuple[float, t
     """
     import shapely
 
-    k = MM_PER_INCH if path.units == "inch" else 1.0
-    r = 0.5 * path.tool_diameter * k
+    _mm_only([path])
+    r = 0.5 * path.tool_diameter
     zmin = float(min(path.start[:, 2].min(), path.end[:, 2].min()))
     cut = (path.kind != RAPID) & (path.end[:, 2] == zmin) & (path.start[:, 2] == zmin)
     pts = []
     for i in np.flatnonzero(cut):
-        s, e = path.start[i, :2] * k, path.end[i, :2] * k
+        s, e = path.start[i, :2], path.end[i, :2]
         if path.kind[i] == 1:
             n = max(2, int(np.ceil(np.hypot(*(e - s)) / step)) + 1)
             u = np.linspace(0.0, 1.0, n)[:, None]
             pts.append(s + u * (e - s))
         else:
-            c = path.center[i] * k
+            c = path.center[i]
             rr, a0, sw = (float(v) for v in arc_geometry(s, e, c, path.kind[i] == 3))
             n = max(2, int(np.ceil(abs(sw) * rr / step)) + 1)
             a = a0 + np.linspace(0.0, sw, n)
@@ -125,6 +125,15 @@ def intrusion(path: Toolpath, material, *, step: float = 0.05) -> tuple[float, t
     if depth[i] <= 0:
         return 0.0, None
     return float(depth[i]), (float(p[i, 0]), float(p[i, 1]))
+
+
+def _mm_only(paths) -> None:
+    """Refuse toolpaths not in mm: lengths are mm inside, converted only where
+    input is read and output written (:func:`pathgen.moves.toolpath_in_units`)."""
+    for p in paths:
+        if p.units != "mm":
+            raise InputError(f"a part's toolpaths are joined and measured in mm, got one in {p.units} "
+                             "(convert it with pathgen.moves.toolpath_in_units(path, 'mm'))")
 
 
 _TREES: dict = {}

@@ -27,7 +27,6 @@ import math
 
 import numpy as np
 
-from .._options import MM_PER_INCH
 from ..errors import InputError
 from ..geometry import arc_geometry, turn_angle
 from .model import ARC_CCW, ARC_CW, LINE, RAPID, Toolpath
@@ -73,7 +72,7 @@ def _point(tp, i, u):
 
 def place_tabs(tp: Toolpath, *, count: int, width: float, edge_distance, spots=(),
                step: float = 0.1) -> list[dict]:
-    """Tab places on a toolpath (units of the toolpath).
+    """Tab places on a toolpath (lengths in mm, as pathgen's toolpaths are).
 
     Parameters
     ----------
@@ -130,7 +129,7 @@ def place_tabs(tp: Toolpath, *, count: int, width: float, edge_distance, spots=(
         target = (k + 0.5) * total / count
         cand = np.flatnonzero(good & ~taken)
         if cand.size == 0:
-            raise InputError(f"only {k} tab{'s' if k != 1 else ''} of width {width:g} fit on the flat, "
+            raise InputError(f"only {k} tab{'s' if k != 1 else ''} of this width fit on the flat, "
                              f"gentle stretches of this outline ({count} asked); ask for fewer or narrower tabs")
         j = int(cand[np.argmin(np.abs(s[cand] - target))])
         taken[max(0, j - 2 * half - 1): j + 2 * half + 2] = True

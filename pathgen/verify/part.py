@@ -26,6 +26,7 @@ Lengths in mm.
 
 from __future__ import annotations
 
+import dataclasses
 from dataclasses import dataclass
 
 import numpy as np
@@ -57,18 +58,6 @@ class PartOutlineSpec:
     tabs: dict | None = None
 
 
-@dataclass(frozen=True, eq=False)
-class _Sub:
-    """Some moves of a program (the attributes the measures read)."""
-
-    kind: np.ndarray
-    start: np.ndarray
-    end: np.ndarray
-    center: np.ndarray
-    feed: np.ndarray
-    line: np.ndarray
-
-
 def cutting_runs(program, *, stock_top: float = 0.0) -> list[np.ndarray]:
     """Index arrays of the runs of consecutive feed moves between rapids
     that reach below ``stock_top`` (mm), in program order."""
@@ -83,9 +72,14 @@ def cutting_runs(program, *, stock_top: float = 0.0) -> list[np.ndarray]:
     return [r for r in runs if (low[r] < stock_top - 1e-9).any()]
 
 
-def _sub(program, idx) -> _Sub:
-    return _Sub(np.asarray(program.kind)[idx], program.start[idx], program.end[idx], program.center[idx],
-                np.asarray(program.feed)[idx], np.asarray(program.line)[idx])
+def _sub(program, idx):
+    """Some moves of a program: the same :class:`pathgen.verify.reader.Program`
+    with the rows ``idx`` of its columns."""
+    def pick(a):
+        return None if a is None else np.asarray(a)[idx]
+
+    return dataclasses.replace(program, **{name: pick(getattr(program, name)) for name in
+                                           ("kind", "start", "end", "center", "feed", "line", "comp", "switch")})
 
 
 def _run_points(program, run):
@@ -305,9 +299,7 @@ def verify_part(program, result, *, machine=None) -> dict:
     tolerance or not cut, cutting moves that follow no outline, a hole cut
     after the outline around it, or a rule break.
     """
-    k = 25.4 if result.units == "inch" else 1.0
-    tp = result.toolpath
-    tol = float(tp.tolerance) * k
+    tol = float(result.toolpath.tolerance)  # mm, as the part's toolpath
     facts = replay_part(program, list(result.specs), tool_radius=result.tool_radius, tolerance=tol, machine=machine)
     depth, at, line = 0.0, None, None
     if result.material is not None and result.tool_radius > 0:
