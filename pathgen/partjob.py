@@ -88,6 +88,8 @@ class PartReport:
         lines = [f"input: {s}" for s in self.steps]
         lines.append(f"Part of {len(self.rows)} outline{'s' if len(self.rows) != 1 else ''}, cut in this order "
                      "(holes and inner features first):")
+        from .checks.report import count
+
         for r in sorted(self.rows, key=lambda r: r["order"]):
             rep = r["report"]
             rmin = rep.min_radius
@@ -96,7 +98,7 @@ class PartReport:
             btxt = "any" if big is None or not math.isfinite(big) else f"{big / k:.4f} {u}"
             lines.append(f"  {r['order']}. outline {r['number']} ({r['where']}): level {r['level']}, "
                          f"cut {r['side']}; length {rep.length / k:.4f} {u}, smallest radius {rtxt}, "
-                         f"{len(rep.corners)} sharp corners, {len(rep.tight_spots)} tight spots, "
+                         f"{count(len(rep.corners), 'sharp corner')}, {count(len(rep.tight_spots), 'tight spot')}, "
                          f"largest tool {btxt}")
             for t in r.get("tabs", []):
                 lines.append(f"     tab {t['width'] / k:.4g} {u} wide, {t['height'] / k:.4g} {u} high, tool "

@@ -506,6 +506,11 @@ def _smooth_kinks(S):
             [(int(i), float(S.turn[i])) for i in first])
 
 
+def count(n: int, noun: str) -> str:
+    """'1 tight spot', '2 tight spots'."""
+    return f"{n} {noun}{'' if n == 1 else 's'}"
+
+
 def fit_facts(contour) -> dict | None:
     """How the contour was fitted, as plain numbers (mm): "smoothing" ("off",
     "tolerance", "noise", or "none" when auto found the points clean),
@@ -731,7 +736,7 @@ def _to_text(rep: CheckReport, units: str) -> str:
         if r is not None:
             parts.append(f"{_g(r.radius, k)} {u} on {label} at ({_g(r.x, k, 6)}, {_g(r.y, k, 6)})")
     lines.append("smallest radius: " + ("; ".join(parts) if parts else "none (straight)"))
-    lines.append(f"{len(rep.corners)} sharp corners, {len(rep.inflections)} inflections")
+    lines.append(f"{count(len(rep.corners), 'sharp corner')}, {count(len(rep.inflections), 'inflection')}")
     if rep.kinks:
         worst = max(abs(a) for *_, a in rep.kinks)
         lines.append(f"  {len(rep.kinks)} more joins kink by at most {_g(worst, 1.0)}° (under "
@@ -749,7 +754,7 @@ def _to_text(rep: CheckReport, units: str) -> str:
         f"of the path"
     )
     counts = ", ".join(f"{rep.count(r)} {REASONS[r]}" for r in REASONS)
-    lines.append(f"{len(rep.tight_spots)} tight spots ({counts})")
+    lines.append(f"{count(len(rep.tight_spots), 'tight spot')} ({counts})")
     if rep.noise_spots:
         lines.append(f"  {len(rep.noise_spots)} more spots bend tighter than the tool only in this exact "
                      "fit of noisy points: they vanish when the points are smoothed to their noise "
