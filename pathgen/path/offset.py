@@ -23,7 +23,8 @@ The offset is built in three steps:
    path is measured against the contour and refused (InputError) if it
    would cut into the part.  What was cut is recorded as a spot.
 
-Distances to the contour come from a dense polyline of it and a k-d tree
+Distances to the contour come from a polyline of it sized by its curvature
+and the tolerance (:mod:`pathgen.path.spacing`) and a k-d tree
 (``scipy.spatial.cKDTree``); no quadratic all-pairs distances.
 """
 
@@ -37,6 +38,7 @@ from ..errors import InputError
 from ..geometry import angle_along_arc, turn_angle
 from .measure import Chain, arc_geometry, eval_side, offset_points, sample_chain, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
+from .spacing import vertex_params
 
 __all__ = ["regular_windows", "assemble", "distance_to_contour", "unique_spots"]
 
@@ -199,22 +201,15 @@ def _corner_arc(contour, t, d):
 
 # -- distances to the contour ---------------------------------------------------
 def _contour_polyline(contour, tol, r):
-    """Dense points on the contour, chord sagitta <= tol/10 (capped at 2e6 points)."""
-    b = contour.breaks
-    h = np.diff(b)
-    mid = b[:-1] + 0.5 * h
-    k = np.maximum.reduce([np.abs(_curvature(contour, x)) for x in (b[:-1], mid, b[1:] - 1e-12 * h)])
-    d1 = contour(mid, 1)
-    length = np.hypot(d1[:, 0], d1[:, 1]) * h * 1.2
-    n = np.ceil(length * np.sqrt(np.maximum(k, 1.0 / max(r, 1e-3)) / (0.8 * tol))) + 1
-    n = np.clip(n, 2, 10_000).astype(np.int64)
-    total = n.sum()
-    if total > 2_000_000:
-        n = np.maximum((n * (2_000_000 / total)).astype(np.int64), 2)
-    owner = np.repeat(np.arange(len(h)), n)
-    j = np.arange(owner.size) - np.repeat(np.cumsum(n) - n, n)
-    t = b[owner] + h[owner] * j / n[owner]
-    t = np.concatenate([t, b[-1:]])
+    """Points on the contour whose chords stay within tol/10 of it and are at
+    most √(0.8·tol·r) long (:func:`pathgen.path.spacing.vertex_params`:
+    sized by the curvature and the tolerance, every corner a vertex; no cap).
+
+    The length cap keeps the nearest-vertex search of
+    :class:`distance_to_contour` within tol/10 at distances about r: a point
+    at distance D from a chord of length h whose nearest vertex is not an
+    end of that chord is still within √(D² + h²/4) ≈ D + h²/(8D) of it."""
+    t = vertex_params(contour, tol / 10.0, math.sqrt(0.8 * tol * max(r, 1e-3)))
     return contour(t), contour.closed
 
 
