@@ -38,7 +38,7 @@ from ..errors import InputError
 from ..geometry import angle_along_arc, turn_angle
 from .measure import Chain, arc_geometry, eval_side, offset_points, sample_chain, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
-from .spacing import vertex_params
+from .spacing import curvature_bound, vertex_params
 
 __all__ = ["regular_windows", "assemble", "distance_to_contour", "unique_spots"]
 
@@ -52,7 +52,7 @@ def _curvature(contour, t):
     return contour.curvature(t)
 
 
-def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndarray:
+def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000, *, with_pieces: bool = False):
     """Sorted parameters over [lo, hi]: every break (unwrapped past the seam
     of a closed contour) and 2 to 8 even sub-steps on every piece (fewer
     on very many pieces, keeping about ``most`` values); on a contour with
@@ -60,7 +60,8 @@ def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndar
 
     Every break is on the grid: where two points lie very close together
     the piece between them is short and its curvature can peak sharply at
-    its ends, far inside one step of an even grid.
+    its ends, far inside one step of an even grid.  ``with_pieces``: also
+    return the piece each grid value (but the last) lies on.
     """
     b = contour.breaks
     if contour.closed:
@@ -79,7 +80,14 @@ def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndar
         # end of the piece before it (its curvature there is another one)
         steps = np.append(steps, 1.0 - 1e-6)
     g = (edges[:-1, None] + np.diff(edges)[:, None] * steps).ravel()
-    return np.append(g, hi)
+    if not with_pieces:
+        return np.append(g, hi)
+    # the piece each interval lies on (the one its middle falls in)
+    mid = 0.5 * (edges[:-1] + edges[1:])
+    if contour.closed:
+        mid = b[0] + np.mod(mid - b[0], b[-1] - b[0])
+    piece = np.clip(np.searchsorted(b, mid, side="right") - 1, 0, len(b) - 2)
+    return np.append(g, hi), np.repeat(piece, len(steps))
 
 
 def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
@@ -105,8 +113,15 @@ def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
                 cuts.append((float(t), float(t), ("corner", float(t))))
     spots = []
     if d != 0.0:
-        g = _break_grid(contour, lo, hi)
-        f = 1.0 - d * _curvature(contour, g) - _EPS_REG
+        g, piece = _break_grid(contour, lo, hi, with_pieces=True)
+        # the curvature is evaluated only on pieces where the bound read from
+        # the coefficients (|κ| <= |P''|/|P'|², spacing.curvature_bound) lets
+        # d·κ reach 1 - eps; everywhere else 1 - dκ - eps > 0 is proven
+        may = abs(d) * curvature_bound(contour) >= (1.0 - _EPS_REG) * (1.0 - 1e-9)
+        f = np.ones(len(g))
+        ask = np.append(may[piece], True)
+        if np.any(ask):
+            f[ask] = 1.0 - d * _curvature(contour, g[ask]) - _EPS_REG
         bad = f <= 0
         if np.any(bad):
             edges = np.diff(bad.astype(np.int8))
@@ -121,9 +136,14 @@ def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
             # regular bit between them would be trimmed anyway (its tool
             # positions all come closer to the contour than the tool radius):
             # noise splits one tight fillet into several
-            d1 = contour(g, 1)
-            speed = np.hypot(d1[:, 0], d1[:, 1])
-            s_g = np.concatenate([[0.0], np.cumsum(0.5 * (speed[1:] + speed[:-1]) * np.diff(g))])
+            def along(i, j):  # arc length from g[i] to g[j] (trapezoids on the grid)
+                gg = g[i:j + 1]
+                if len(gg) < 2:
+                    return 0.0
+                d1 = contour(gg, 1)
+                sp = np.hypot(d1[:, 0], d1[:, 1])
+                return float(np.sum(0.5 * (sp[1:] + sp[:-1]) * np.diff(gg)))
+
             merged = [[starts[0], ends[0]]]
             dist = None
             for i0, i1 in zip(starts[1:], ends[1:]):
@@ -133,7 +153,7 @@ def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
                 if len(mid) > 64:
                     mid = mid[np.linspace(0, len(mid) - 1, 64).astype(np.int64)]
                 q = offset_points(contour, mid, d) if len(mid) else np.zeros((0, 2))
-                close = s_g[i0] - s_g[merged[-1][1]] < 0.5 * abs(d)
+                close = along(merged[-1][1], i0) < 0.5 * abs(d)
                 if len(mid) == 0 or close or np.all(dist(q) < abs(d) - tol):
                     merged[-1][1] = i1
                 else:

@@ -35,7 +35,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ["piece_bounds", "vertex_params", "curvature_bound"]
+__all__ = ["piece_bounds", "vertex_params", "curvature_bound", "chord_lengths"]
 
 #: the largest growth of the step per unit of parameter (see the module docstring)
 _GRADE = 0.25
@@ -88,19 +88,29 @@ def _graded(step: np.ndarray, b: np.ndarray, grade: float) -> np.ndarray:
     return np.minimum(fwd, bwd)
 
 
-def vertex_params(contour, chord_error: float, h_cap: float = np.inf, *, weight=None) -> np.ndarray:
+def chord_lengths(contour) -> np.ndarray:
+    """|P(end) - P(start)| of every piece, from the coefficients (no evaluation)."""
+    h = np.diff(np.asarray(contour.breaks, dtype=np.float64))
+    c = contour.coefficients.transpose(2, 0, 1)
+    d = ((c[:, 0] * h + c[:, 1]) * h + c[:, 2]) * h
+    return np.sqrt(np.einsum("ij,ij->j", d, d))
+
+
+def vertex_params(contour, chord_error: float, h_cap: float = np.inf, *, second=None, speed=None) -> np.ndarray:
     """Sorted parameters of polyline vertices: every chord within
     ``chord_error`` mm of the contour and at most ``h_cap`` mm long; every
     corner and both ends included.
 
-    ``weight`` (per piece, >= 1, optional) multiplies the bound of |P''|
-    on a piece (a caller that needs more than the contour's own chord
-    error there, e.g. an offset curve, passes its factor).
+    ``second`` and ``speed`` (per piece, optional) replace the bounds of
+    |P''| and |P'| on each piece: a caller sampling another curve on the
+    same parameter (the tool-center offset) passes its own.
     """
     b = np.asarray(contour.breaks, dtype=np.float64)
     h, M, _, vmax = piece_bounds(contour)
-    if weight is not None:
-        M = M * weight
+    if second is not None:
+        M = np.asarray(second, dtype=np.float64)
+    if speed is not None:
+        vmax = np.asarray(speed, dtype=np.float64)
     e = float(chord_error) * (1.0 - _GRADE) ** 2
     with np.errstate(divide="ignore", invalid="ignore"):
         step = np.where(M > 0, np.sqrt(8.0 * e / np.where(M > 0, M, 1.0)), np.inf)

@@ -199,29 +199,40 @@ def tool_center_polyline(contour, d: float, tol: float):
     segment of the curve).
     """
     from ..path.measure import offset_side
+    from ..path.spacing import chord_lengths, curvature_bound, piece_bounds, vertex_params
 
     b = np.asarray(contour.breaks, dtype=np.float64)
     cuts = sorted(set(int(i) for i in contour.corners) | {0, len(b) - 1})
     pts_all = []
     sag = _SAG_SHARE * tol
-    cap = _resolution(np.hypot(*np.diff(contour(b), axis=0).T).sum())
+    cap = _resolution(chord_lengths(contour).sum())
+    # bounds per piece, read from the coefficients: |κ| <= K, |P'| <= v; on
+    # q = P + d·N, |q'| = |P'|·|1 - dκ| <= v·(1 + |d|K) and its curvature
+    # κ/(1 - dκ) is at most K/(1 - |d|K) (1 - dκ floored at 1e-3 where the
+    # bound cannot keep it off 0: a possible cusp, trimmed from the path)
+    h, _, _, v = piece_bounds(contour)
+    K = curvature_bound(contour)
+    ad = abs(d)
+    with np.errstate(invalid="ignore", over="ignore"):
+        vq = v * (1.0 + ad * K)
+        kq = K / np.maximum(1.0 - ad * K, 1e-3)
+        loose = np.flatnonzero(~(ad * K < 0.999) | ~np.isfinite(vq * vq * kq))
+    if len(loose):
+        # where the bounds say nothing useful (speed perhaps 0 on the piece,
+        # or a possible cusp), the piece's values are sampled at 9 points
+        f = np.linspace(0.0, 1.0, 9)
+        tt = (b[loose, None] + h[loose, None] * f[None, :]).ravel()
+        kap = contour.curvature(tt)
+        stretch = np.maximum(np.abs(1.0 - d * kap), 1e-3)
+        sp = np.hypot(*contour(tt, 1).T) * stretch
+        vq[loose] = sp.reshape(-1, 9).max(axis=1)
+        kq[loose] = (np.abs(kap) / stretch).reshape(-1, 9).max(axis=1)
+    second = np.where(kq > 0, vq * vq * kq, 0.0)  # chord error over a step δ <= δ²·second/8
+    t_all = vertex_params(contour, sag, cap, second=second, speed=vq)
     for a_i, b_i in zip(cuts[:-1], cuts[1:]):
-        tb = b[a_i : b_i + 1]
-        mid = 0.5 * (tb[:-1] + tb[1:])
-        probe = np.concatenate([tb, mid])
-        kap = np.abs(contour.curvature(probe))
-        kq = kap / np.maximum(np.abs(1.0 - d * contour.curvature(probe)), 1e-3)
-        kq_piece = np.maximum.reduce([kq[: len(tb) - 1], kq[1 : len(tb)], kq[len(tb):]])
-        speed = np.hypot(*contour(mid, 1).T)
-        stretch = np.abs(1.0 - d * contour.curvature(mid))
-        lq = speed * np.diff(tb) * np.maximum(stretch, 1e-3)
-        step = np.minimum(np.sqrt(8.0 * sag / np.maximum(kq_piece, 1e-12)), cap)
-        need = lq / step  # samples per piece
-        cum = np.concatenate([[0.0], np.cumsum(need)])
-        n = max(2, int(math.ceil(cum[-1])) + 1)
-        u = np.linspace(0.0, cum[-1], n)
-        t = np.interp(u, cum, tb)
-        t[0], t[-1] = tb[0], tb[-1]
+        tb = b[[a_i, b_i]]
+        t = t_all[np.searchsorted(t_all, tb[0]):np.searchsorted(t_all, tb[1], side="right")]
+        n = len(t)
         p = contour(t[1:-1]) if n > 2 else np.zeros((0, 2))
         if d != 0.0 and n > 2:
             d1 = contour(t[1:-1], 1)
