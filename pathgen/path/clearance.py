@@ -589,12 +589,26 @@ class Probe:
         every = np.arange(m)
         px, py, _ = _point_on(sub, every, best_f)
         _, u = _pt_seg(px, py, V[best_e, 0], V[best_e, 1], V[best_e + 1, 0], V[best_e + 1, 1])
-        # near sub-moves: exact distance to the curve; far ones keep the polyline's
-        near = np.flatnonzero(best_d <= D + chord_error)
+        # near sub-moves: exact distance to the curve; far ones keep the polyline's.
+        # Only the sub-moves that can hold their move's smallest distance
+        # are refined: the polyline is within chord_error of the curve both
+        # ways, so a sub-move whose polyline distance exceeds its move's
+        # smallest by more than 2·chord_error is farther from the curve than
+        # that move's nearest sub-move, and a sub-move farther than
+        # chord_error from the polyline lies wholly on one side of the curve.
+        # Those on the part's side (a gouge) are all refined.
         dist = best_d.copy()
         te = tv[best_e] + (tv[best_e + 1] - tv[best_e]) * u
         q, tg = contour(te), contour(te, 1)
         left = np.sign(tg[:, 0] * (py - q[:, 1]) - tg[:, 1] * (px - q[:, 0]))
+        if contour.closed:
+            left = np.where(_inside(V, px, py), 1.0, -1.0) * self.orient
+        owner = sub["owner"]
+        least = np.full(n, np.inf)
+        np.minimum.at(least, owner, best_d)
+        near = np.flatnonzero((best_d <= D + chord_error)
+                              & ((best_d <= least[owner] + 2.0 * chord_error + 1e-12) | (left * self.waste <= 0)
+                                 | (best_d <= chord_error)))
         if len(near):
             dist[near], best_f[near], left[near] = _refine(contour, tv, best_e[near], u[near], sub, near,
                                                            best_f[near])
@@ -608,7 +622,6 @@ class Probe:
             left = np.where(inside, 1.0, -1.0) * self.orient
         signed = np.where(left * self.waste < 0, -dist, dist)
         # per move: the smallest signed clearance of its sub-moves
-        owner = sub["owner"]
         per = np.full(n, np.inf)
         np.minimum.at(per, owner, signed)
         if per_move:

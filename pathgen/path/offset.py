@@ -112,12 +112,13 @@ def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
             if lo < t < hi and not np.isclose(t, lo) and not np.isclose(t, hi):
                 cuts.append((float(t), float(t), ("corner", float(t))))
     spots = []
-    if d != 0.0:
+    # the curvature is evaluated only on pieces where the bound read from
+    # the coefficients (|κ| <= |P''|/|P'|², spacing.curvature_bound) lets
+    # d·κ reach 1 - eps; everywhere else 1 - dκ - eps > 0 is proven (on a
+    # smooth part no piece may: no grid at all)
+    may = abs(d) * curvature_bound(contour) >= (1.0 - _EPS_REG) * (1.0 - 1e-9) if d != 0.0 else None
+    if d != 0.0 and np.any(may):
         g, piece = _break_grid(contour, lo, hi, with_pieces=True)
-        # the curvature is evaluated only on pieces where the bound read from
-        # the coefficients (|κ| <= |P''|/|P'|², spacing.curvature_bound) lets
-        # d·κ reach 1 - eps; everywhere else 1 - dκ - eps > 0 is proven
-        may = abs(d) * curvature_bound(contour) >= (1.0 - _EPS_REG) * (1.0 - 1e-9)
         f = np.ones(len(g))
         ask = np.append(may[piece], True)
         if np.any(ask):

@@ -39,6 +39,8 @@ __all__ = ["piece_bounds", "vertex_params", "curvature_bound", "chord_lengths"]
 
 #: the largest growth of the step per unit of parameter (see the module docstring)
 _GRADE = 0.25
+#: above this many pieces, runs of pieces are treated as one (their smallest step)
+_BLOCKS = 16384
 
 
 def piece_bounds(contour):
@@ -64,16 +66,24 @@ def piece_bounds(contour):
     vmid = np.sqrt(np.einsum("ij,ij->j", v, v))
     slack = M * x
     out = (h, M, np.maximum(vmid - slack, 0.0), vmid + slack)
+    for a in out:
+        a.flags.writeable = False
     contour.__dict__["_spacing_bounds"] = out
     return out
 
 
 def curvature_bound(contour) -> np.ndarray:
     """Upper bound of |κ| on each piece, |P''|/|P'|² (inf where the speed may vanish)."""
+    cached = contour.__dict__.get("_spacing_kappa")
+    if cached is not None:
+        return cached
     _, M, vmin, _ = piece_bounds(contour)
     with np.errstate(divide="ignore", invalid="ignore"):
         k = np.where(vmin > 0, M / np.where(vmin > 0, vmin, 1.0) ** 2, np.inf)
-    return np.where(M == 0, 0.0, k)
+    k = np.where(M == 0, 0.0, k)
+    k.flags.writeable = False
+    contour.__dict__["_spacing_kappa"] = k
+    return k
 
 
 def _graded(step: np.ndarray, b: np.ndarray, grade: float) -> np.ndarray:
@@ -105,6 +115,12 @@ def vertex_params(contour, chord_error: float, h_cap: float = np.inf, *, second=
     |P''| and |P'| on each piece: a caller sampling another curve on the
     same parameter (the tool-center offset) passes its own.
     """
+    key = None
+    if second is None and speed is None:
+        key = ("_spacing_vertices", float(chord_error), float(h_cap))
+        cached = contour.__dict__.get(key)
+        if cached is not None:
+            return cached
     b = np.asarray(contour.breaks, dtype=np.float64)
     h, M, _, vmax = piece_bounds(contour)
     if second is not None:
@@ -116,6 +132,14 @@ def vertex_params(contour, chord_error: float, h_cap: float = np.inf, *, second=
         step = np.where(M > 0, np.sqrt(8.0 * e / np.where(M > 0, M, 1.0)), np.inf)
         if np.isfinite(h_cap):
             step = np.minimum(step, np.where(vmax > 0, h_cap / np.where(vmax > 0, vmax, 1.0), np.inf))
+    m = len(h)
+    if m > _BLOCKS:
+        # many pieces: runs of pieces share their smallest step (never a
+        # longer one), so the rest works on about _BLOCKS runs
+        first = np.arange(0, m, -(-m // _BLOCKS))
+        step = np.minimum.reduceat(step, first)
+        b = np.append(b[first], b[-1])
+        h = np.diff(b)
     step = _graded(step, b, _GRADE)
     with np.errstate(divide="ignore"):
         rho = np.where(np.isfinite(step), 1.0 / step, 0.0)
@@ -127,4 +151,8 @@ def vertex_params(contour, chord_error: float, h_cap: float = np.inf, *, second=
     extra = [b[[0, -1]]]
     if contour.corners:
         extra.append(b[np.asarray(contour.corners, dtype=np.int64)])
-    return np.unique(np.concatenate([t, *extra]))
+    t = np.unique(np.concatenate([t, *extra]))
+    if key is not None:
+        t.flags.writeable = False
+        contour.__dict__[key] = t
+    return t
