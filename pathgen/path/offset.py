@@ -497,7 +497,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     dist = distance_to_contour(contour, tol, r)
     cur = Chain(chain.kind, ks, ke, chain.center, chain.t0, chain.t1)
     step = _clear_step(contour, cur, r, tol)
-    counts = np.clip(np.ceil(_lengths(cur) / step) + 2, 4, 4096).astype(np.int64)
+    counts = np.maximum(np.ceil(_lengths(cur) / step) + 2, 4).astype(np.int64)  # no cap: the step holds on every move
     pts, _, _ = sample_chain(cur, counts)
     first = np.cumsum(counts) - counts
     bad = (np.minimum.reduceat(dist(pts), first) < r - 1.2 * tol - 1e-9) & alive
@@ -544,7 +544,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     cut, more = _remove_loops(cut, closed, dist, r, tol)
     # 4. safety net: the finished path must stay clear of the contour
     step = _clear_step(contour, cut, r, tol)
-    counts = np.clip(np.ceil(_lengths(cut) / step) + 2, 4, 4096).astype(np.int64)
+    counts = np.maximum(np.ceil(_lengths(cut) / step) + 2, 4).astype(np.int64)
     pts, _, _ = sample_chain(cut, counts)
     dd = dist(pts)
     worst = int(np.argmin(dd))
