@@ -82,3 +82,26 @@ def test_replay_curve_follows_the_bump(bumped):
     off = c(t) - 3.0 * c.normal(t)
     d = shapely.distance(shapely.LineString(q), shapely.points(off))
     assert float(d.max()) <= 0.01 * tol
+
+
+def test_replay_refuses_rather_than_sampling_thinner():
+    # an arc of radius 10¹¹ mm over a quarter turn needs about
+    # (π/2)·√(R / (8·0.005·tol)) ≈ 2.5·10⁷ chords at tol = 0.01 (sources:
+    # sagitta): more than the replay's limit, so it refuses with the figures
+    # instead of capping the samples (which would drop the sagitta bound)
+    from pathgen.errors import InputError
+    from pathgen.verify.replay import MOST_SAMPLES, move_polylines
+
+    Rb = 1e11
+    start = np.array([[Rb, 0.0, -1.0]])
+    end = np.array([[0.0, Rb, -1.0]])
+    with pytest.raises(InputError, match="an arc of radius 1e\\+11 mm") as err:
+        move_polylines(np.array([3]), start, end, np.zeros((1, 2)), 0.01)
+    assert f"{MOST_SAMPLES:.0e}" in str(err.value)
+    # a radius of 10⁵ mm on the same quarter turn is measured in full: its
+    # chords stand off the arc by at most the sagitta share (0.5 % of tol)
+    Rs = 1e5
+    pts, owner, _ = move_polylines(np.array([3]), np.array([[Rs, 0.0, -1.0]]), np.array([[0.0, Rs, -1.0]]),
+                                   np.zeros((1, 2)), 0.01)
+    chord = np.hypot(*np.diff(pts, axis=0).T).max()
+    assert Rs - np.sqrt(Rs * Rs - chord * chord / 4) <= 0.005 * 0.01

@@ -142,11 +142,18 @@ def _resolution(total_length):
     return max(_MAX_STEP, float(total_length) / _VERTICES)
 
 
+#: samples the replay takes along a program's moves at most (about 0.5 GB
+#: of work arrays); a program that needs more is refused, not sampled thinner
+MOST_SAMPLES = 20_000_000
+
+
 def _arc_counts(radius, sweep, tol, length, cap=_MAX_STEP):
+    """Samples per arc: chords within the sagitta share of the tolerance
+    (sources: sagitta), at most ``cap`` apart; never capped per arc."""
     sag = _SAG_SHARE * tol
     step = np.sqrt(8.0 * np.maximum(radius, 1e-12) * sag)
     n = np.ceil(np.maximum(np.abs(sweep) * radius / np.minimum(step, cap), length / cap))
-    return np.clip(n, 1, 200_000).astype(np.int64) + 1
+    return np.maximum(n, 1) + 1
 
 
 def move_polylines(kind, start, end, center, tol):
@@ -172,7 +179,18 @@ def move_polylines(kind, start, end, center, tol):
     if arcs.any():
         along = np.where(arcs, np.maximum(r0, r1) * np.abs(sweep), length)
         cap = _resolution(along.sum())
+        counts = counts.astype(np.float64)
         counts[arcs] = np.maximum(2, _arc_counts(np.maximum(r0, r1)[arcs], sweep[arcs], tol, length[arcs], cap))
+    total = float(np.sum(counts))
+    if total > MOST_SAMPLES:
+        from ..errors import InputError
+
+        i = int(np.argmax(counts))
+        what = (f"an arc of radius {max(r0[i], r1[i]):.6g} mm" if arcs[i] else f"a line {length[i]:.6g} mm long")
+        raise InputError(
+            f"the replay cannot measure these moves at tolerance {tol:g} mm: they need {total:.3g} samples, "
+            f"more than {MOST_SAMPLES:.0e} ({what} alone needs {counts[i]:.3g}); nothing was measured")
+    counts = counts.astype(np.int64)
     owner = np.repeat(np.arange(k), counts)
     first = np.cumsum(counts) - counts
     j = np.arange(owner.size) - np.repeat(first, counts)
