@@ -12,8 +12,9 @@ vertices where the shape needs them:
 * the first derivative changes by at most M·h/2 from its value at the
   middle of the piece, which bounds the speed |P'| from below and above;
 * a chord over a parameter step δ on which |P''| <= M stays within
-  δ²·M/8 of the curve (linear interpolation error; for a unit-speed curve
-  this is the sagitta h²/(8R) of an arc of radius R = 1/M).
+  δ²·M/8 of the curve (linear interpolation error, sources:
+  broken-line-error; for a unit-speed curve this is the sagitta h²/(8R) of
+  an arc of radius R = 1/M, sources: sagitta).
 
 Each piece asks for the step δ_i = √(8·e/M_i) (and for at most ``h_cap``
 mm of chord).  A step that ran over several pieces could meet one whose

@@ -15,9 +15,13 @@ point, so q there is the arc of radius |d| about it):
   that a missing or moved stretch shows.
 
 Both sides are dense polylines whose sagitta stays below 0.5 % of the
-tolerance and whose vertices are at most 0.25 mm apart; nearest points come
-from a k-d tree (``scipy.spatial.cKDTree``) and the exact distance to the
-segments next to them.  Lengths in mm.
+tolerance and whose vertices are at most 0.25 mm apart (1/8192 of the
+length on paths over 2 m); nearest points come from a k-d tree
+(``scipy.spatial.cKDTree``) and the exact distance to the segments next to
+them.  The curve's polyline is sized by bounds read from the spline
+pieces' coefficients (:mod:`pathgen.path.spacing`), not by their number;
+no sample count is capped (a program needing more than
+:data:`MOST_SAMPLES` is refused).  Lengths in mm.
 
 :func:`decimals_for` and :func:`budget` give the number of decimals a
 tolerance needs and the tolerance budget stated in every program.
