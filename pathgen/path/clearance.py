@@ -371,8 +371,9 @@ def _refine(contour, tv, edge, u, sub, i, f):
     ``edge``: alternate projections (curve foot of the move's point, then the
     move's point nearest to that foot), keeping the smallest distance.
     Returns (distance, fraction on the move, side: + on the contour's left)."""
-    lo, hi = tv[edge], tv[edge + 1]
-    t = lo + (hi - lo) * u
+    # the foot may lie on a neighbouring edge's stretch of the curve
+    lo, hi = tv[np.maximum(edge - 1, 0)], tv[np.minimum(edge + 2, len(tv) - 1)]
+    t = tv[edge] + (tv[edge + 1] - tv[edge]) * u
     px, py, _ = _point_on(sub, i, f)
     t, dist = _newton_foot(contour, t, lo, hi, px, py)
     for _ in range(3):
