@@ -538,42 +538,13 @@ def replay_deviation(program, contour, d: float, *, tol: float, expected=None, c
         if key in seen or not len(covered):
             continue  # the same moves at another depth measure the same
         seen.add(key)
-        moves = _Moves(kind[sel], start[sel], end[sel], center[sel])
-        dist, _ = moves.distance(covered)
-        x, dx = _refine_peak(moves, q, qj, cov, dist)
-        if dx > out["curve_to_file"]:
-            out["curve_to_file"] = dx
-            out["gap_at"] = [float(x[0]), float(x[1])]
+        dist, _ = _Moves(kind[sel], start[sel], end[sel], center[sel]).distance(covered)
+        i = int(np.argmax(dist))
+        if dist[i] > out["curve_to_file"]:
+            out["curve_to_file"] = float(dist[i])
+            out["gap_at"] = [float(covered[i, 0]), float(covered[i, 1])]
     out["deviation"] = max(out["file_to_curve"], out["curve_to_file"])
     return out
-
-
-def _refine_peak(moves, q, qj, cov, dist, top=16, per=32):
-    """The largest distance from the polyline of q to the moves: the vertices'
-    largest, then the ``top`` largest vertices' neighbouring segments (both
-    ends covered) sampled ``per`` times each.  Between two vertices the
-    distance can peak above both (where moves meet, the distance has a
-    kink); the polyline itself is within the sagitta share of q.
-    Returns (point, distance)."""
-    i = int(np.argmax(dist))
-    best_x, best_d = q[cov[i]], float(dist[i])
-    if len(cov) < 2:
-        return best_x, best_d
-    on = np.zeros(len(q), bool)
-    on[cov] = True
-    cand = cov[np.argsort(dist)[::-1][:top]]
-    segs = np.unique(np.concatenate([cand - 1, cand]))
-    segs = segs[(segs >= 0) & (segs < len(q) - 1)]
-    segs = segs[qj[segs] & on[segs] & on[segs + 1]]
-    if not len(segs):
-        return best_x, best_d
-    f = (np.arange(1, per) / per)[None, :, None]
-    pts = (q[segs, None, :] + (q[segs + 1] - q[segs])[:, None, :] * f).reshape(-1, 2)
-    d, _ = moves.distance(pts)
-    j = int(np.argmax(d))
-    if d[j] > best_d:
-        return pts[j], float(d[j])
-    return best_x, best_d
 
 
 def program_time(program, machine) -> float | None:
