@@ -366,6 +366,19 @@ def _newton_foot(contour, t, lo, hi, px, py, iterations=6):
     return best_t, best_d
 
 
+def _closer(contour, sub, i, tc, lo, hi, best, iterations):
+    """From curve parameters ``tc``: the sub-moves' points nearest to P(tc),
+    then their feet on the curve; (distance, fraction, t) where that pair is
+    nearer than ``best`` = (distance, fraction, t), else best's."""
+    q = contour(tc)
+    f2 = _project(sub, i, q[:, 0], q[:, 1])
+    px, py, _ = _point_on(sub, i, f2)
+    t2, d2 = _newton_foot(contour, tc, lo, hi, px, py, iterations=iterations)
+    dist, f, t = best
+    better = d2 < dist
+    return np.where(better, d2, dist), np.where(better, f2, f), np.where(better, t2, t)
+
+
 def _refine(contour, tv, edge, u, sub, i, f):
     """Exact distance between sub-moves ``i`` and the curve near polyline edge
     ``edge``: alternate projections (curve foot of the move's point, then the
@@ -377,14 +390,7 @@ def _refine(contour, tv, edge, u, sub, i, f):
     px, py, _ = _point_on(sub, i, f)
     t, dist = _newton_foot(contour, t, lo, hi, px, py)
     for _ in range(3):
-        q = contour(t)
-        f2 = _project(sub, i, q[:, 0], q[:, 1])
-        px2, py2, _ = _point_on(sub, i, f2)
-        t2, d2 = _newton_foot(contour, t, lo, hi, px2, py2, iterations=3)
-        better = d2 < dist
-        dist = np.where(better, d2, dist)
-        f = np.where(better, f2, f)
-        t = np.where(better, t2, t)
+        dist, f, t = _closer(contour, sub, i, t, lo, hi, (dist, f, t), 3)
     # the stationary point of the distance itself: where the curve runs
     # parallel to a line sub-move (n·P' = 0, n the line's normal) or square
     # to an arc sub-move ((P - C)·P' = 0); Newton on t, then the sub-move's
@@ -404,14 +410,7 @@ def _refine(contour, tv, edge, u, sub, i, f):
                       nx * d2[:, 0] + ny * d2[:, 1])
         with np.errstate(divide="ignore", invalid="ignore"):
             tn = np.clip(np.where(gg != 0, tn - g / np.where(gg != 0, gg, 1.0), tn), lo, hi)
-    q = contour(tn)
-    fn = _project(sub, i, q[:, 0], q[:, 1])
-    px2, py2, _ = _point_on(sub, i, fn)
-    tn, dn = _newton_foot(contour, tn, lo, hi, px2, py2, iterations=2)
-    better = dn < dist
-    dist = np.where(better, dn, dist)
-    f = np.where(better, fn, f)
-    t = np.where(better, tn, t)
+    dist, f, t = _closer(contour, sub, i, tn, lo, hi, (dist, f, t), 2)
     px, py, _ = _point_on(sub, i, f)
     q = contour(t)
     tg = contour(t, 1)
