@@ -62,6 +62,18 @@ def test_line_grazing_the_circle(disc):
     assert res.gouges[0][1] == pytest.approx(0.5, abs=1e-6)
 
 
+@pytest.mark.parametrize("x0", np.linspace(-20.3, -19.7, 7))
+def test_grazing_line_exact_wherever_its_samples_fall(disc, x0):
+    # the line y = 12.5 passes 2.5 from the circle of radius 10 (handbook
+    # point-to-line distance, from memory) wherever the line starts: the
+    # distance is refined to the exact curve, not left at the polyline's
+    # chord error (up to 1e-4 mm before the stationary-point step)
+    k, s, e, c = _one(LINE, (x0, 12.5, -1), (x0 + 40.17, 12.5, -1))
+    res = clearance(k, s, e, c, disc, tool_radius=3.0, side="outside", tolerance=0.01)
+    assert res.min_clearance == pytest.approx(2.5, abs=1e-6)
+    assert res.where[0] == pytest.approx(0.0, abs=1e-2)
+
+
 def test_stock_top_ignores_moves_above_and_clips_crossings(disc):
     # a rapid straight across the part above the stock top: not checked
     k, s, e, c = _one(RAPID, (-20, 0, 5), (20, 0, 5))

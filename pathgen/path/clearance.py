@@ -38,8 +38,10 @@ the tool reaches into the part there, r - clearance, mm), and ``ok``.
 Method
 ------
 The contour is replaced by a polyline whose chords deviate from it by at
-most tolerance/20 (chord count from the sagitta L²|κ|/8, common practice),
-with every corner a vertex.  Each move is split into short sub-moves
+most tolerance/20 (the broken-line bound δ²·max|P''|/8 on each piece's
+exact second derivative, :mod:`pathgen.path.spacing`: sized by the
+curvature and the tolerance, not by the number of pieces), with every
+corner a vertex.  Each move is split into short sub-moves
 (lines, or arcs about the same center); for each sub-move the polyline
 edges near it are found with a KD-tree (scipy.spatial) and the exact
 distance between the sub-move and each edge is computed (segment-segment
@@ -66,6 +68,7 @@ from .._options import check_positive, side_sign
 from ..errors import InputError
 from ..geometry import angle_along_arc, arc_geometry, orientation
 from ..moves import ARC_CCW, ARC_CW, LINE, RAPID
+from .spacing import vertex_params
 
 __all__ = ["Clearance", "clearance", "Probe"]
 
@@ -109,35 +112,11 @@ def _inside(V, px, py) -> np.ndarray:
     return shapely.contains_xy(poly, np.asarray(px, float), np.asarray(py, float))
 
 
-def _polyline(contour, chord_error: float, h_cap: float, most: int = 3_000_000):
+def _polyline(contour, chord_error: float, h_cap: float):
     """Parameters of polyline vertices: sagitta <= chord_error, spacing <= h_cap,
-    every corner and both ends included.  Returns sorted t (ends included)."""
-    b = contour.breaks
-    m = len(b) - 1
-    sub = int(np.clip(1_000_000 // max(m, 1), 2, 8))
-    g = (b[:-1, None] + np.diff(b)[:, None] * (np.arange(sub) / sub)).ravel()
-    g = np.append(g, b[-1])
-    d1 = contour(g, 1)
-    d2 = contour(g, 2)
-    speed = np.hypot(d1[:, 0], d1[:, 1])
-    kappa = np.abs(d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) / np.maximum(speed, 1e-300) ** 3
-    # one-sided values at the piece ends (corners break the curvature)
-    left = contour(b[1:] - 1e-9 * np.diff(b), 1), contour(b[1:] - 1e-9 * np.diff(b), 2)
-    kl = np.abs(left[0][:, 0] * left[1][:, 1] - left[0][:, 1] * left[1][:, 0]) / np.maximum(
-        np.hypot(left[0][:, 0], left[0][:, 1]), 1e-300) ** 3
-    kmax = np.maximum(kappa, np.r_[kappa[1:], kappa[-1]])
-    kmax[sub::sub] = np.maximum(kmax[sub::sub], kl[:len(kmax[sub::sub])])
-    kmax[sub - 1::sub] = np.maximum(kmax[sub - 1::sub], kl[:len(kmax[sub - 1::sub])])
-    rho = np.maximum(np.sqrt(1.2 * kmax / (8.0 * chord_error)), 1.0 / h_cap)  # chords per mm
-    dt = np.diff(g)
-    U = np.concatenate([[0.0], np.cumsum(0.5 * (rho[1:] * speed[1:] + rho[:-1] * speed[:-1]) * dt)])
-    n = int(min(max(math.ceil(U[-1]) + 1, 2), most))
-    t = np.interp(np.linspace(0.0, U[-1], n), U, g)
-    extra = [b[[0, -1]]]
-    if contour.corners:
-        extra.append(b[np.asarray(contour.corners, dtype=np.int64)])
-    t = np.unique(np.concatenate([t, *extra]))
-    return t
+    every corner and both ends included (sized by the curvature, see
+    :func:`pathgen.path.spacing.vertex_params`; no cap).  Returns sorted t."""
+    return vertex_params(contour, chord_error, h_cap)
 
 
 # -- elementary distances (vectorized) --------------------------------------------
@@ -387,24 +366,51 @@ def _newton_foot(contour, t, lo, hi, px, py, iterations=6):
     return best_t, best_d
 
 
+def _closer(contour, sub, i, tc, lo, hi, best, iterations):
+    """From curve parameters ``tc``: the sub-moves' points nearest to P(tc),
+    then their feet on the curve; (distance, fraction, t) where that pair is
+    nearer than ``best`` = (distance, fraction, t), else best's."""
+    q = contour(tc)
+    f2 = _project(sub, i, q[:, 0], q[:, 1])
+    px, py, _ = _point_on(sub, i, f2)
+    t2, d2 = _newton_foot(contour, tc, lo, hi, px, py, iterations=iterations)
+    dist, f, t = best
+    better = d2 < dist
+    return np.where(better, d2, dist), np.where(better, f2, f), np.where(better, t2, t)
+
+
 def _refine(contour, tv, edge, u, sub, i, f):
     """Exact distance between sub-moves ``i`` and the curve near polyline edge
     ``edge``: alternate projections (curve foot of the move's point, then the
     move's point nearest to that foot), keeping the smallest distance.
     Returns (distance, fraction on the move, side: + on the contour's left)."""
-    lo, hi = tv[edge], tv[edge + 1]
-    t = lo + (hi - lo) * u
+    # the foot may lie on a neighbouring edge's stretch of the curve
+    lo, hi = tv[np.maximum(edge - 1, 0)], tv[np.minimum(edge + 2, len(tv) - 1)]
+    t = tv[edge] + (tv[edge + 1] - tv[edge]) * u
     px, py, _ = _point_on(sub, i, f)
     t, dist = _newton_foot(contour, t, lo, hi, px, py)
     for _ in range(3):
-        q = contour(t)
-        f2 = _project(sub, i, q[:, 0], q[:, 1])
-        px2, py2, _ = _point_on(sub, i, f2)
-        t2, d2 = _newton_foot(contour, t, lo, hi, px2, py2, iterations=3)
-        better = d2 < dist
-        dist = np.where(better, d2, dist)
-        f = np.where(better, f2, f)
-        t = np.where(better, t2, t)
+        dist, f, t = _closer(contour, sub, i, t, lo, hi, (dist, f, t), 3)
+    # the stationary point of the distance itself: where the curve runs
+    # parallel to a line sub-move (n·P' = 0, n the line's normal) or square
+    # to an arc sub-move ((P - C)·P' = 0); Newton on t, then the sub-move's
+    # point nearest to that curve point.  Alternating projections creep
+    # toward it (by R/(R + D) a round on a curve of radius R at distance D);
+    # this lands on it.  Either candidate is a true pair of points, so the
+    # smaller distance is kept.
+    arc = sub["arc"][i]
+    nx = -(sub["by"][i] - sub["ay"][i])
+    ny = sub["bx"][i] - sub["ax"][i]
+    tn = t.copy()
+    for _ in range(4):
+        p, d1, d2 = contour(tn), contour(tn, 1), contour(tn, 2)
+        rx, ry = p[:, 0] - sub["cx"][i], p[:, 1] - sub["cy"][i]
+        g = np.where(arc, rx * d1[:, 0] + ry * d1[:, 1], nx * d1[:, 0] + ny * d1[:, 1])
+        gg = np.where(arc, d1[:, 0] ** 2 + d1[:, 1] ** 2 + rx * d2[:, 0] + ry * d2[:, 1],
+                      nx * d2[:, 0] + ny * d2[:, 1])
+        with np.errstate(divide="ignore", invalid="ignore"):
+            tn = np.clip(np.where(gg != 0, tn - g / np.where(gg != 0, gg, 1.0), tn), lo, hi)
+    dist, f, t = _closer(contour, sub, i, tn, lo, hi, (dist, f, t), 2)
     px, py, _ = _point_on(sub, i, f)
     q = contour(t)
     tg = contour(t, 1)
@@ -583,12 +589,26 @@ class Probe:
         every = np.arange(m)
         px, py, _ = _point_on(sub, every, best_f)
         _, u = _pt_seg(px, py, V[best_e, 0], V[best_e, 1], V[best_e + 1, 0], V[best_e + 1, 1])
-        # near sub-moves: exact distance to the curve; far ones keep the polyline's
-        near = np.flatnonzero(best_d <= D + chord_error)
+        # near sub-moves: exact distance to the curve; far ones keep the polyline's.
+        # Only the sub-moves that can hold their move's smallest distance
+        # are refined: the polyline is within chord_error of the curve both
+        # ways, so a sub-move whose polyline distance exceeds its move's
+        # smallest by more than 2·chord_error is farther from the curve than
+        # that move's nearest sub-move, and a sub-move farther than
+        # chord_error from the polyline lies wholly on one side of the curve.
+        # Those on the part's side (a gouge) are all refined.
         dist = best_d.copy()
         te = tv[best_e] + (tv[best_e + 1] - tv[best_e]) * u
         q, tg = contour(te), contour(te, 1)
         left = np.sign(tg[:, 0] * (py - q[:, 1]) - tg[:, 1] * (px - q[:, 0]))
+        if contour.closed:
+            left = np.where(_inside(V, px, py), 1.0, -1.0) * self.orient
+        owner = sub["owner"]
+        least = np.full(n, np.inf)
+        np.minimum.at(least, owner, best_d)
+        near = np.flatnonzero((best_d <= D + chord_error)
+                              & ((best_d <= least[owner] + 2.0 * chord_error + 1e-12) | (left * self.waste <= 0)
+                                 | (best_d <= chord_error)))
         if len(near):
             dist[near], best_f[near], left[near] = _refine(contour, tv, best_e[near], u[near], sub, near,
                                                            best_f[near])
@@ -602,7 +622,6 @@ class Probe:
             left = np.where(inside, 1.0, -1.0) * self.orient
         signed = np.where(left * self.waste < 0, -dist, dist)
         # per move: the smallest signed clearance of its sub-moves
-        owner = sub["owner"]
         per = np.full(n, np.inf)
         np.minimum.at(per, owner, signed)
         if per_move:

@@ -23,7 +23,8 @@ The offset is built in three steps:
    path is measured against the contour and refused (InputError) if it
    would cut into the part.  What was cut is recorded as a spot.
 
-Distances to the contour come from a dense polyline of it and a k-d tree
+Distances to the contour come from a polyline of it sized by its curvature
+and the tolerance (:mod:`pathgen.path.spacing`) and a k-d tree
 (``scipy.spatial.cKDTree``); no quadratic all-pairs distances.
 """
 
@@ -37,6 +38,7 @@ from ..errors import InputError
 from ..geometry import angle_along_arc, turn_angle
 from .measure import Chain, arc_geometry, eval_side, offset_points, sample_chain, unit_tangent_side
 from .model import ARC_CCW, ARC_CW, LINE
+from .spacing import curvature_bound, vertex_params
 
 __all__ = ["regular_windows", "assemble", "distance_to_contour", "unique_spots"]
 
@@ -50,7 +52,7 @@ def _curvature(contour, t):
     return contour.curvature(t)
 
 
-def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndarray:
+def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000, *, with_pieces: bool = False):
     """Sorted parameters over [lo, hi]: every break (unwrapped past the seam
     of a closed contour) and 2 to 8 even sub-steps on every piece (fewer
     on very many pieces, keeping about ``most`` values); on a contour with
@@ -58,7 +60,8 @@ def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndar
 
     Every break is on the grid: where two points lie very close together
     the piece between them is short and its curvature can peak sharply at
-    its ends, far inside one step of an even grid.
+    its ends, far inside one step of an even grid.  ``with_pieces``: also
+    return the piece each grid value (but the last) lies on.
     """
     b = contour.breaks
     if contour.closed:
@@ -77,7 +80,14 @@ def _break_grid(contour, lo: float, hi: float, most: int = 2_000_000) -> np.ndar
         # end of the piece before it (its curvature there is another one)
         steps = np.append(steps, 1.0 - 1e-6)
     g = (edges[:-1, None] + np.diff(edges)[:, None] * steps).ravel()
-    return np.append(g, hi)
+    if not with_pieces:
+        return np.append(g, hi)
+    # the piece each interval lies on (the one its middle falls in)
+    mid = 0.5 * (edges[:-1] + edges[1:])
+    if contour.closed:
+        mid = b[0] + np.mod(mid - b[0], b[-1] - b[0])
+    piece = np.clip(np.searchsorted(b, mid, side="right") - 1, 0, len(b) - 2)
+    return np.append(g, hi), np.repeat(piece, len(steps))
 
 
 def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
@@ -102,9 +112,17 @@ def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
             if lo < t < hi and not np.isclose(t, lo) and not np.isclose(t, hi):
                 cuts.append((float(t), float(t), ("corner", float(t))))
     spots = []
-    if d != 0.0:
-        g = _break_grid(contour, lo, hi)
-        f = 1.0 - d * _curvature(contour, g) - _EPS_REG
+    # the curvature is evaluated only on pieces where the bound read from
+    # the coefficients (|κ| <= |P''|/|P'|², spacing.curvature_bound) lets
+    # d·κ reach 1 - eps; everywhere else 1 - dκ - eps > 0 is proven (on a
+    # smooth part no piece may: no grid at all)
+    may = abs(d) * curvature_bound(contour) >= (1.0 - _EPS_REG) * (1.0 - 1e-9) if d != 0.0 else None
+    if d != 0.0 and np.any(may):
+        g, piece = _break_grid(contour, lo, hi, with_pieces=True)
+        f = np.ones(len(g))
+        ask = np.append(may[piece], True)
+        if np.any(ask):
+            f[ask] = 1.0 - d * _curvature(contour, g[ask]) - _EPS_REG
         bad = f <= 0
         if np.any(bad):
             edges = np.diff(bad.astype(np.int8))
@@ -119,9 +137,14 @@ def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
             # regular bit between them would be trimmed anyway (its tool
             # positions all come closer to the contour than the tool radius):
             # noise splits one tight fillet into several
-            d1 = contour(g, 1)
-            speed = np.hypot(d1[:, 0], d1[:, 1])
-            s_g = np.concatenate([[0.0], np.cumsum(0.5 * (speed[1:] + speed[:-1]) * np.diff(g))])
+            def along(i, j):  # arc length from g[i] to g[j] (trapezoids on the grid)
+                gg = g[i:j + 1]
+                if len(gg) < 2:
+                    return 0.0
+                d1 = contour(gg, 1)
+                sp = np.hypot(d1[:, 0], d1[:, 1])
+                return float(np.sum(0.5 * (sp[1:] + sp[:-1]) * np.diff(gg)))
+
             merged = [[starts[0], ends[0]]]
             dist = None
             for i0, i1 in zip(starts[1:], ends[1:]):
@@ -131,7 +154,7 @@ def regular_windows(contour, d: float, lo: float, hi: float, tol: float = 0.01):
                 if len(mid) > 64:
                     mid = mid[np.linspace(0, len(mid) - 1, 64).astype(np.int64)]
                 q = offset_points(contour, mid, d) if len(mid) else np.zeros((0, 2))
-                close = s_g[i0] - s_g[merged[-1][1]] < 0.5 * abs(d)
+                close = along(merged[-1][1], i0) < 0.5 * abs(d)
                 if len(mid) == 0 or close or np.all(dist(q) < abs(d) - tol):
                     merged[-1][1] = i1
                 else:
@@ -199,22 +222,15 @@ def _corner_arc(contour, t, d):
 
 # -- distances to the contour ---------------------------------------------------
 def _contour_polyline(contour, tol, r):
-    """Dense points on the contour, chord sagitta <= tol/10 (capped at 2e6 points)."""
-    b = contour.breaks
-    h = np.diff(b)
-    mid = b[:-1] + 0.5 * h
-    k = np.maximum.reduce([np.abs(_curvature(contour, x)) for x in (b[:-1], mid, b[1:] - 1e-12 * h)])
-    d1 = contour(mid, 1)
-    length = np.hypot(d1[:, 0], d1[:, 1]) * h * 1.2
-    n = np.ceil(length * np.sqrt(np.maximum(k, 1.0 / max(r, 1e-3)) / (0.8 * tol))) + 1
-    n = np.clip(n, 2, 10_000).astype(np.int64)
-    total = n.sum()
-    if total > 2_000_000:
-        n = np.maximum((n * (2_000_000 / total)).astype(np.int64), 2)
-    owner = np.repeat(np.arange(len(h)), n)
-    j = np.arange(owner.size) - np.repeat(np.cumsum(n) - n, n)
-    t = b[owner] + h[owner] * j / n[owner]
-    t = np.concatenate([t, b[-1:]])
+    """Points on the contour whose chords stay within tol/10 of it and are at
+    most √(0.8·tol·r) long (:func:`pathgen.path.spacing.vertex_params`:
+    sized by the curvature and the tolerance, every corner a vertex; no cap).
+
+    The length cap keeps the nearest-vertex search of
+    :class:`distance_to_contour` within tol/10 at distances about r: a point
+    at distance D from a chord of length h whose nearest vertex is not an
+    end of that chord is still within √(D² + h²/4) ≈ D + h²/(8D) of it."""
+    t = vertex_params(contour, tol / 10.0, math.sqrt(0.8 * tol * max(r, 1e-3)))
     return contour(t), contour.closed
 
 
@@ -481,7 +497,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     dist = distance_to_contour(contour, tol, r)
     cur = Chain(chain.kind, ks, ke, chain.center, chain.t0, chain.t1)
     step = _clear_step(contour, cur, r, tol)
-    counts = np.clip(np.ceil(_lengths(cur) / step) + 2, 4, 4096).astype(np.int64)
+    counts = np.maximum(np.ceil(_lengths(cur) / step) + 2, 4).astype(np.int64)  # no cap: the step holds on every move
     pts, _, _ = sample_chain(cur, counts)
     first = np.cumsum(counts) - counts
     bad = (np.minimum.reduceat(dist(pts), first) < r - 1.2 * tol - 1e-9) & alive
@@ -528,7 +544,7 @@ def assemble(contour, parts, joins, d, tol, *, closed):
     cut, more = _remove_loops(cut, closed, dist, r, tol)
     # 4. safety net: the finished path must stay clear of the contour
     step = _clear_step(contour, cut, r, tol)
-    counts = np.clip(np.ceil(_lengths(cut) / step) + 2, 4, 4096).astype(np.int64)
+    counts = np.maximum(np.ceil(_lengths(cut) / step) + 2, 4).astype(np.int64)
     pts, _, _ = sample_chain(cut, counts)
     dd = dist(pts)
     worst = int(np.argmin(dd))

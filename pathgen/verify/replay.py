@@ -15,9 +15,13 @@ point, so q there is the arc of radius |d| about it):
   that a missing or moved stretch shows.
 
 Both sides are dense polylines whose sagitta stays below 0.5 % of the
-tolerance and whose vertices are at most 0.25 mm apart; nearest points come
-from a k-d tree (``scipy.spatial.cKDTree``) and the exact distance to the
-segments next to them.  Lengths in mm.
+tolerance and whose vertices are at most 0.25 mm apart (1/8192 of the
+length on paths over 2 m); nearest points come from a k-d tree
+(``scipy.spatial.cKDTree``) and the exact distance to the segments next to
+them.  The curve's polyline is sized by bounds read from the spline
+pieces' coefficients (:mod:`pathgen.path.spacing`), not by their number;
+no sample count is capped (a program needing more than
+:data:`MOST_SAMPLES` is refused).  Lengths in mm.
 
 :func:`decimals_for` and :func:`budget` give the number of decimals a
 tolerance needs and the tolerance budget stated in every program.
@@ -142,11 +146,18 @@ def _resolution(total_length):
     return max(_MAX_STEP, float(total_length) / _VERTICES)
 
 
+#: samples the replay takes along a program's moves at most (about 0.5 GB
+#: of work arrays); a program that needs more is refused, not sampled thinner
+MOST_SAMPLES = 20_000_000
+
+
 def _arc_counts(radius, sweep, tol, length, cap=_MAX_STEP):
+    """Samples per arc: chords within the sagitta share of the tolerance
+    (sources: sagitta), at most ``cap`` apart; never capped per arc."""
     sag = _SAG_SHARE * tol
     step = np.sqrt(8.0 * np.maximum(radius, 1e-12) * sag)
     n = np.ceil(np.maximum(np.abs(sweep) * radius / np.minimum(step, cap), length / cap))
-    return np.clip(n, 1, 200_000).astype(np.int64) + 1
+    return np.maximum(n, 1) + 1
 
 
 def move_polylines(kind, start, end, center, tol):
@@ -172,7 +183,18 @@ def move_polylines(kind, start, end, center, tol):
     if arcs.any():
         along = np.where(arcs, np.maximum(r0, r1) * np.abs(sweep), length)
         cap = _resolution(along.sum())
+        counts = counts.astype(np.float64)
         counts[arcs] = np.maximum(2, _arc_counts(np.maximum(r0, r1)[arcs], sweep[arcs], tol, length[arcs], cap))
+    total = float(np.sum(counts))
+    if total > MOST_SAMPLES:
+        from ..errors import InputError
+
+        i = int(np.argmax(counts))
+        what = (f"an arc of radius {max(r0[i], r1[i]):.6g} mm" if arcs[i] else f"a line {length[i]:.6g} mm long")
+        raise InputError(
+            f"the replay cannot measure these moves at tolerance {tol:g} mm: they need {total:.3g} samples, "
+            f"more than {MOST_SAMPLES:.0e} ({what} alone needs {counts[i]:.3g}); nothing was measured")
+    counts = counts.astype(np.int64)
     owner = np.repeat(np.arange(k), counts)
     first = np.cumsum(counts) - counts
     j = np.arange(owner.size) - np.repeat(first, counts)
@@ -199,29 +221,40 @@ def tool_center_polyline(contour, d: float, tol: float):
     segment of the curve).
     """
     from ..path.measure import offset_side
+    from ..path.spacing import chord_lengths, curvature_bound, piece_bounds, vertex_params
 
     b = np.asarray(contour.breaks, dtype=np.float64)
     cuts = sorted(set(int(i) for i in contour.corners) | {0, len(b) - 1})
     pts_all = []
     sag = _SAG_SHARE * tol
-    cap = _resolution(np.hypot(*np.diff(contour(b), axis=0).T).sum())
+    cap = _resolution(chord_lengths(contour).sum())
+    # bounds per piece, read from the coefficients: |κ| <= K, |P'| <= v; on
+    # q = P + d·N, |q'| = |P'|·|1 - dκ| <= v·(1 + |d|K) and its curvature
+    # κ/(1 - dκ) is at most K/(1 - |d|K) (1 - dκ floored at 1e-3 where the
+    # bound cannot keep it off 0: a possible cusp, trimmed from the path)
+    h, _, _, v = piece_bounds(contour)
+    K = curvature_bound(contour)
+    ad = abs(d)
+    with np.errstate(invalid="ignore", over="ignore"):
+        vq = v * (1.0 + ad * K)
+        kq = K / np.maximum(1.0 - ad * K, 1e-3)
+        loose = np.flatnonzero(~(ad * K < 0.999) | ~np.isfinite(vq * vq * kq))
+    if len(loose):
+        # where the bounds say nothing useful (speed perhaps 0 on the piece,
+        # or a possible cusp), the piece's values are sampled at 9 points
+        f = np.linspace(0.0, 1.0, 9)
+        tt = (b[loose, None] + h[loose, None] * f[None, :]).ravel()
+        kap = contour.curvature(tt)
+        stretch = np.maximum(np.abs(1.0 - d * kap), 1e-3)
+        sp = np.hypot(*contour(tt, 1).T) * stretch
+        vq[loose] = sp.reshape(-1, 9).max(axis=1)
+        kq[loose] = (np.abs(kap) / stretch).reshape(-1, 9).max(axis=1)
+    second = np.where(kq > 0, vq * vq * kq, 0.0)  # chord error over a step δ <= δ²·second/8
+    t_all = vertex_params(contour, sag, cap, second=second, speed=vq)
     for a_i, b_i in zip(cuts[:-1], cuts[1:]):
-        tb = b[a_i : b_i + 1]
-        mid = 0.5 * (tb[:-1] + tb[1:])
-        probe = np.concatenate([tb, mid])
-        kap = np.abs(contour.curvature(probe))
-        kq = kap / np.maximum(np.abs(1.0 - d * contour.curvature(probe)), 1e-3)
-        kq_piece = np.maximum.reduce([kq[: len(tb) - 1], kq[1 : len(tb)], kq[len(tb):]])
-        speed = np.hypot(*contour(mid, 1).T)
-        stretch = np.abs(1.0 - d * contour.curvature(mid))
-        lq = speed * np.diff(tb) * np.maximum(stretch, 1e-3)
-        step = np.minimum(np.sqrt(8.0 * sag / np.maximum(kq_piece, 1e-12)), cap)
-        need = lq / step  # samples per piece
-        cum = np.concatenate([[0.0], np.cumsum(need)])
-        n = max(2, int(math.ceil(cum[-1])) + 1)
-        u = np.linspace(0.0, cum[-1], n)
-        t = np.interp(u, cum, tb)
-        t[0], t[-1] = tb[0], tb[-1]
+        tb = b[[a_i, b_i]]
+        t = t_all[np.searchsorted(t_all, tb[0]):np.searchsorted(t_all, tb[1], side="right")]
+        n = len(t)
         p = contour(t[1:-1]) if n > 2 else np.zeros((0, 2))
         if d != 0.0 and n > 2:
             d1 = contour(t[1:-1], 1)
@@ -488,9 +521,10 @@ def replay_deviation(program, contour, d: float, *, tol: float, expected=None, c
         # target there (at most 0.95 tol, the budget leaves rounding the
         # rest); points of q beyond that lie where the path leaves q on
         # purpose (a trimmed corner, a lead), and are not the file's to cover
-        covered = q[edist <= 0.95 * tol + 1e-9]
+        cov = np.flatnonzero(edist <= 0.95 * tol + 1e-9)
     else:
-        covered = np.zeros((0, 2))
+        cov = np.zeros(0, np.int64)
+    covered = q[cov]
     flat = _in_plane(kind, start, end) & (np.abs(end[:, 2] - start[:, 2]) <= 1e-9)
     zs = np.unique(np.round(start[flat, 2], 6))
     out["levels"] = [float(z) for z in zs]
