@@ -564,39 +564,66 @@ class Contour:
         flat = self._wrap(t.ravel())
         out = np.empty((flat.size, 2))
         poly = self._poly(nu)
+        # sorted runs (a closed outline's window past the seam wraps into
+        # two): each run's pieces are consecutive, so their coefficients are
+        # expanded with np.repeat instead of a search and gather per point
+        cuts = [0, flat.size]
+        if flat.size > 1:
+            down = np.flatnonzero(flat[1:] < flat[:-1])
+            cuts = [0, *(down + 1).tolist(), flat.size] if len(down) <= 3 else None
+        if cuts is None:
+            self._eval_searched(flat, poly, out)
+        else:
+            for r0, r1 in zip(cuts[:-1], cuts[1:]):
+                self._eval_sorted(flat[r0:r1], poly, out[r0:r1])
+        return out.reshape(t.shape + (2,))
+
+    def _eval_sorted(self, flat, poly, out):
+        """Evaluate increasing parameters ``flat`` into ``out``: when they
+        are many against the pieces they span, piece by piece (each piece's
+        points are one run: its coefficients expanded with np.repeat, no
+        search per point); else as :meth:`_eval_searched`."""
         b = self.breaks
         m = len(b) - 1
-        if flat.size >= 4 * m and flat.size > 1 and not (flat[1:] < flat[:-1]).any():
-            # sorted parameters: each piece's points form one run; expand the
-            # piece coefficients with np.repeat instead of a gather per point
-            first = np.searchsorted(flat, b[1:-1], side="left")
-            bounds = np.concatenate([[0], first, [flat.size]])
-            counts = np.diff(bounds)
-            for a in range(0, m, _PIECE_CHUNK):
-                e = min(a + _PIECE_CHUNK, m)
-                s0, s1 = bounds[a], bounds[e]
-                if s0 == s1:
-                    continue
-                cc = counts[a:e]
-                x = flat[s0:s1] - np.repeat(b[a:e], cc)
-                for k in range(2):
-                    r = np.repeat(poly[k, 0, a:e], cc)
-                    for row in poly[k, 1:]:
-                        r *= x
-                        r += np.repeat(row[a:e], cc)
-                    out[s0:s1, k] = r
-        else:
-            for s0 in range(0, flat.size, _POINT_CHUNK):
-                tc = flat[s0 : s0 + _POINT_CHUNK]
-                idx = np.clip(np.searchsorted(b, tc, side="right") - 1, 0, m - 1)
-                x = tc - b.take(idx)
-                for k in range(2):
-                    r = poly[k, 0].take(idx)
-                    for row in poly[k, 1:]:
-                        r *= x
-                        r += row.take(idx)
-                    out[s0 : s0 + len(tc), k] = r
-        return out.reshape(t.shape + (2,))
+        if flat.size == 0:
+            return
+        p0 = int(np.clip(np.searchsorted(b, flat[0], side="right") - 1, 0, m - 1))
+        p1 = int(np.clip(np.searchsorted(b, flat[-1], side="right") - 1, 0, m - 1))
+        if flat.size < 4 * (p1 - p0 + 1):
+            self._eval_searched(flat, poly, out)
+            return
+        # points of piece p: from the first >= b[p] (p > p0) to the first >= b[p+1]
+        first = np.searchsorted(flat, b[p0 + 1:p1 + 1], side="left")
+        bounds = np.concatenate([[0], first, [flat.size]])
+        counts = np.diff(bounds)
+        for a in range(p0, p1 + 1, _PIECE_CHUNK):
+            e = min(a + _PIECE_CHUNK, p1 + 1)
+            s0, s1 = bounds[a - p0], bounds[e - p0]
+            if s0 == s1:
+                continue
+            cc = counts[a - p0:e - p0]
+            x = flat[s0:s1] - np.repeat(b[a:e], cc)
+            for k in range(2):
+                r = np.repeat(poly[k, 0, a:e], cc)
+                for row in poly[k, 1:]:
+                    r *= x
+                    r += np.repeat(row[a:e], cc)
+                out[s0:s1, k] = r
+
+    def _eval_searched(self, flat, poly, out):
+        """Evaluate parameters in any order: a search and a gather per point."""
+        b = self.breaks
+        m = len(b) - 1
+        for s0 in range(0, flat.size, _POINT_CHUNK):
+            tc = flat[s0 : s0 + _POINT_CHUNK]
+            idx = np.clip(np.searchsorted(b, tc, side="right") - 1, 0, m - 1)
+            x = tc - b.take(idx)
+            for k in range(2):
+                r = poly[k, 0].take(idx)
+                for row in poly[k, 1:]:
+                    r *= x
+                    r += row.take(idx)
+                out[s0 : s0 + len(tc), k] = r
 
     def on_pieces(self, t, first: int, nu: int = 0) -> np.ndarray:
         """P(t) or its nu-th derivative where row i of ``t`` lies on piece ``first + i``.
