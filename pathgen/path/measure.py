@@ -13,8 +13,17 @@ distance are local and vectorized:
   window of segments around the same arc-length fraction).
 
 Taking the larger of the two gives a symmetric (Hausdorff-like) distance
-per primitive.  The sample counts keep the polyline's own sagitta under
-0.5 % of the tolerance.  No shapely, no quadratic all-pairs distances.
+per primitive.  No shapely, no quadratic all-pairs distances.
+
+Sample counts follow the geometry, not the number of spline pieces: an
+arc's samples keep their polyline's sagitta under 0.5 % of the tolerance
+(24 on a line), and each primitive's even step h meets h²·M/8 <= 1 % of
+the tolerance, M the largest |q''| bound of the pieces under it (bounds
+computed once per contour and offset, reduced per primitive).  Where that
+step would take more samples than sampling the pieces one by one (a spike
+on one short piece of a long move), the step stays and the pieces it
+misses are sampled on their own (:func:`_dense_extras`).  A smooth move
+over 10^5 pieces takes a few hundred samples.
 
 Guarantee (curve → primitive): the measured value is within 1 % of the
 tolerance of the true maximum distance of the span's curve from its
@@ -22,9 +31,9 @@ primitive.  Between samples h apart on a curve with |q''| <= M the curve
 leaves their chord by at most h²·M/8 (linear interpolation error; de Boor,
 A Practical Guide to Splines, rev. ed. 2001, ch. III, broken line
 interpolation) and distance to a line or arc is 1-Lipschitz; M is bounded per spline piece
-(:func:`piece_second_derivative_bound`), and every piece where the evenly
-spread samples leave h²·M/8 above 1 % of the tolerance is sampled on its
-own (see :func:`_dense_extras`).  The bound needs q without kinks
+(:func:`piece_second_derivative_bound`), and every piece is sampled at a
+step meeting h²·M/8 <= 1 % of the tolerance, by the even samples or its
+own.  The bound needs q without kinks
 between samples: it holds for spans that do not cross a corner of the
 contour (the path stage ends spans at corners).
 
@@ -492,9 +501,9 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int
     Notes
     -----
     The curve → primitive part is within 0.01·tol of the true maximum on
-    every primitive (h²·M/8 bound, see the module notes): pieces where the
-    evenly spread samples are too far apart for the piece's |q''| bound are
-    sampled on their own.
+    every primitive (h²·M/8 bound, see the module notes): the even step is
+    sized by the largest |q''| bound under each primitive, and pieces it
+    still misses are sampled on their own.
     """
     k = len(chain)
     if k == 0:
