@@ -85,7 +85,11 @@ def _samples(contour, a, b, d, tol):
     Steps h = min(√(8·0.01·tol/κ_q), 20·tol): the polyline's sagitta stays
     below 1 % of the tolerance, with κ_q the largest curvature at the breaks
     and quarter points of pieces a step spans; no step is longer than 20·tol (the
-    resolution of an arc's end).
+    resolution of an arc's end).  Where the pieces are shorter than tol/16
+    on average (10^6 points on a 400 mm outline) the breaks alone are
+    taken: a step at least √0.08·tol long (curvature up to 1/tol) still
+    spans four of them, as it spans the quarter points of a piece, and the
+    grid stays sized by the points, not four times that.
 
     On a large, gently curved part that rule makes the samples grow with
     size ÷ tolerance although the arcs written grow far slower.  Where the
@@ -104,7 +108,7 @@ def _samples(contour, a, b, d, tol):
     For a shape scaled by s, |κ_q'| goes as s⁻², h_g as s^(2/3), and the
     samples as s^(1/3), as the arcs do.
     """
-    g, d1, d2 = _grid(contour, a, b)
+    g, d1, d2 = _grid(contour, a, b, 4 if _mean_piece(contour) > tol / 16.0 else 1)
     speed = np.hypot(d1[:, 0], d1[:, 1])
     kappa = (d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) / speed**3
     stretch = np.maximum(1.0 - d * kappa, 1e-3)
@@ -155,6 +159,18 @@ def _samples(contour, a, b, d, tol):
         kq_t = kt / np.maximum(1.0 - d * kt, 1e-3)
         kq_t = np.where(np.isfinite(spread), kq_t, 0.0)
     return t, X, tan, theta, kq_t, spread
+
+
+def _mean_piece(contour) -> float:
+    """The mean chord of the contour's pieces, mm (kept on the contour)."""
+    cache = getattr(contour, "__dict__", {})
+    got = cache.get("_mean_piece")
+    if got is None:
+        p = contour.coefficients[3]  # P at the start of every piece
+        ends = np.concatenate([p, contour(contour.breaks[-1:])])
+        got = float(np.hypot(*np.diff(ends, axis=0).T).sum()) / max(len(p), 1)
+        cache["_mean_piece"] = got
+    return got
 
 
 def _grid(contour, a, b, sub=4):

@@ -168,12 +168,22 @@ def choose_seam(contour, *, near=None, keep_away: float = 0.0, d: float = 0.0) -
     the contour point nearest to it.
     """
     b = contour.breaks
-    sub = int(np.clip(200_000 // contour.pieces, 2, 16))
-    grid = b[:-1, None] + np.diff(b)[:, None] * (np.arange(sub) / sub)
-    g = grid.ravel()
+    m = contour.pieces
+    if m <= 200_000:
+        # 2 to 16 samples to a piece (about 200 000 in all)
+        sub = int(np.clip(200_000 // m, 2, 16))
+        grid = b[:-1, None] + np.diff(b)[:, None] * (np.arange(sub) / sub)
+        g = grid.ravel()
 
-    def on_grid(nu):  # row i on piece i: broadcast, no search
-        return contour.on_pieces(grid, 0, nu).reshape(-1, 2)
+        def on_grid(nu):  # row i on piece i: broadcast, no search
+            return contour.on_pieces(grid, 0, nu).reshape(-1, 2)
+    else:
+        # more pieces than that (10^6 points): the breaks of every k-th
+        # piece, about 200 000 samples still, a few µm apart on a part
+        g = b[:-1:-(-m // 200_000)]
+
+        def on_grid(nu):
+            return contour(g, nu)
 
     if near is not None:
         try:
