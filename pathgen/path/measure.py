@@ -304,10 +304,11 @@ def _bounds(contour, d: float):
         finite = np.isfinite(bound)
         c = np.where(finite, np.diff(b) * np.sqrt(np.where(finite, bound, 0.0)), 0.0)
         root = np.concatenate([[0.0], np.cumsum(c)])
-        inf = np.concatenate([[0], np.cumsum(~finite)])
+        inf = None if finite.all() else np.concatenate([[0], np.cumsum(~finite)])
         got = (bound, root, inf)
         for a in got:
-            a.setflags(write=False)
+            if a is not None:
+                a.setflags(write=False)
         if len(cache) >= 4:
             cache.pop(next(iter(cache)))
         cache[key] = got
@@ -350,7 +351,7 @@ def _plan(contour, chain: Chain, d: float, tol: float) -> _Plan:
         return (x // m) * pre[m] + pre[x % m]
 
     roots = upto(p_hi + 1, root) - upto(p_lo, root)
-    n_inf = upto(p_hi + 1, inf) - upto(p_lo, inf)
+    n_inf = 0.0 if inf is None else upto(p_hi + 1, inf) - upto(p_lo, inf)
     alone = roots / np.sqrt(8.0 * _GUARANTEE * tol) + 2.0 * (p_hi - p_lo + 1) + n_inf * _MAX_PER_PIECE
     return _Plan(lo, hi, shift, p_lo, p_hi, mmax, alone, bound)
 
