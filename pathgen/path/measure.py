@@ -411,18 +411,24 @@ def piece_second_derivative_bound(contour, pieces, d: float) -> np.ndarray:
     bound is inf.
     """
     pieces = np.asarray(pieces, dtype=np.int64)
-    c = contour.coefficients
     h = np.diff(contour.breaks).take(pieces)
-    c0, c1, c2 = (c[i].take(pieces, axis=0) for i in range(3))
-    a0 = np.hypot(*(2.0 * c1).T)
-    a1 = np.hypot(*(6.0 * c0 * h[:, None] + 2.0 * c1).T)
+    # per coordinate, contiguous: (x, y) columns of c[0..2] on the pieces
+    per_coord = getattr(contour, "__dict__", {}).get("_c")
+    if per_coord is not None and len(pieces) == per_coord.shape[2] and (
+            len(pieces) == 0 or (pieces[0] == 0 and np.all(np.diff(pieces) == 1))):
+        (c0x, c1x, c2x), (c0y, c1y, c2y) = per_coord[0, :3], per_coord[1, :3]
+    else:
+        c = contour.coefficients
+        (c0x, c1x, c2x), (c0y, c1y, c2y) = [[c[i][:, k].take(pieces) for i in range(3)] for k in range(2)]
+    a0 = np.hypot(2.0 * c1x, 2.0 * c1y)
+    a1 = np.hypot(6.0 * c0x * h + 2.0 * c1x, 6.0 * c0y * h + 2.0 * c1y)
     amax = np.maximum(a0, a1)
     if d == 0.0:
         return amax
-    hm = (0.5 * h)[:, None]
-    jn = np.hypot(*(6.0 * c0).T)
-    um = np.hypot(*((3.0 * c0 * hm + 2.0 * c1) * hm + c2).T)
-    am = np.hypot(*(6.0 * c0 * hm + 2.0 * c1).T)
+    hm = 0.5 * h
+    jn = np.hypot(6.0 * c0x, 6.0 * c0y)
+    um = np.hypot((3.0 * c0x * hm + 2.0 * c1x) * hm + c2x, (3.0 * c0y * hm + 2.0 * c1y) * hm + c2y)
+    am = np.hypot(6.0 * c0x * hm + 2.0 * c1x, 6.0 * c0y * hm + 2.0 * c1y)
     vmin = um - am * 0.5 * h - jn * h * h / 8.0
     with np.errstate(divide="ignore", invalid="ignore"):
         nn = 2.0 * jn / vmin + 3.0 * amax * amax / (vmin * vmin)
