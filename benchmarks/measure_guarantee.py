@@ -1,15 +1,16 @@
-"""What the deviation measurement's sampling guarantee costs, side by side in one run.
+"""What the deviation measurement's sampling costs, side by side in one run.
 
 Runs ``pathgen gcode`` on invented outlines (a smooth closed cam of n
 points, and the same cam with 2 µm probe noise rounded to 0.001 mm), records
 every call the toolpath stage makes to ``chain_deviation``, then replays the
-recorded calls alternately with the guarantee (pieces whose features are
-narrower than the even sample step sampled on their own) and without it
-(the even samples alone), median of ``--repeat`` runs each.  Printed per
-input: calls, primitives, even samples, extra samples, both times and their
-ratio, and the largest change of a measured deviation (the guarantee can
-only add samples, so a change is an increase: a feature the even samples
-missed).
+recorded calls alternately with the samples sized by the geometry (the even
+step of each move meets h²·max|q''|/8 <= 1 % of tol over its pieces; pieces
+it misses sampled on their own) and with the former rule (at least one even
+sample on every piece under a move, plus the same per-piece samples), median
+of ``--repeat`` runs each.  Printed per input: calls, primitives, samples
+(even + own) each way, both times and their ratio, and the largest
+difference of a measured deviation between the two (both are within 1 % of
+the tolerance of the true maximum, so they may differ by up to that).
 
     PYTHONPATH=. python3 benchmarks/measure_guarantee.py
     PYTHONPATH=. python3 benchmarks/measure_guarantee.py --sizes 100000,1000000 --repeat 3
@@ -66,29 +67,32 @@ def _record(src: Path, moves: str, out: Path):
     return rc, calls, (err.getvalue().strip().splitlines() or [""])[0]
 
 
-def _replay(calls, guarantee: bool):
+def _replay(calls, every_piece: bool):
     import pathgen.path.measure as measure
 
-    real = measure._dense_extras
-    if not guarantee:
-        measure._dense_extras = lambda *a: None
+    measure._EVERY_PIECE = every_piece
     try:
         t = time.perf_counter()
         out = [measure.chain_deviation(c, d, ch, tol, density=de) for c, d, ch, tol, de in calls]
         return time.perf_counter() - t, out
     finally:
-        measure._dense_extras = real
+        measure._EVERY_PIECE = False
 
 
-def _extras(calls):
+def _samples(calls, every_piece: bool):
+    """Even samples and samples of pieces on their own, over all calls."""
     import pathgen.path.measure as measure
 
     even = extra = 0
-    for c, d, ch, tol, de in calls:
-        counts = measure._sample_counts(c, ch, tol, de)
-        even += int(counts.sum())
-        got = measure._dense_extras(c, ch, counts, d, tol)
-        extra += 0 if got is None else len(got[1])
+    measure._EVERY_PIECE = every_piece
+    try:
+        for c, d, ch, tol, de in calls:
+            counts = measure._sample_counts(c, ch, tol, de, d)
+            even += int(counts.sum())
+            got = measure._dense_extras(c, ch, counts, d, tol)
+            extra += 0 if got is None else len(got[1])
+    finally:
+        measure._EVERY_PIECE = False
     return even, extra
 
 
@@ -97,8 +101,8 @@ def main() -> int:
     ap.add_argument("--sizes", default="20000,100000")
     ap.add_argument("--repeat", type=int, default=3)
     a = ap.parse_args()
-    print(f"{'input':28s} {'moves':5s} {'calls':>5s} {'prims':>6s} {'even':>9s} {'extra':>8s} "
-          f"{'without s':>9s} {'with s':>8s} {'ratio':>5s}  largest increase mm")
+    print(f"{'input':22s} {'moves':5s} {'calls':>5s} {'prims':>6s} {'geometry: even+own':>19s} "
+          f"{'every piece: even+own':>22s} {'geom s':>7s} {'every s':>8s} {'ratio':>5s}  largest difference mm")
     with tempfile.TemporaryDirectory() as tmp:
         for n in (int(s) for s in a.sizes.split(",")):
             for noisy in (False, True):
@@ -108,20 +112,21 @@ def main() -> int:
                 for moves in ("arcs", "lines"):
                     rc, calls, why = _record(src, moves, Path(tmp) / f"{src.stem}_{moves}.nc")
                     if rc not in (0, 1) or not calls:
-                        print(f"{name:28s} {moves:5s} exit {rc}, {len(calls)} calls, skipped: {why[:70]}")
+                        print(f"{name:22s} {moves:5s} exit {rc}, {len(calls)} calls, skipped: {why[:70]}")
                         continue
-                    even, extra = _extras(calls)
-                    t_off, t_on = [], []
+                    ge, gx = _samples(calls, False)
+                    ee, ex = _samples(calls, True)
+                    t_geo, t_every = [], []
                     for _ in range(a.repeat):
-                        dt, off = _replay(calls, False)
-                        t_off.append(dt)
-                        dt, on = _replay(calls, True)
-                        t_on.append(dt)
-                    inc = max(float(np.max(y - x)) for x, y in zip(off, on))
-                    m_off, m_on = statistics.median(t_off), statistics.median(t_on)
-                    print(f"{name:28s} {moves:5s} {len(calls):5d} {sum(len(c[2]) for c in calls):6d} "
-                          f"{even:9d} {extra:8d} {m_off:9.3f} {m_on:8.3f} {m_on / m_off:5.2f}  {inc:.3g}",
-                          flush=True)
+                        dt, geo = _replay(calls, False)
+                        t_geo.append(dt)
+                        dt, every = _replay(calls, True)
+                        t_every.append(dt)
+                    diff = max(float(np.max(np.abs(x - y))) for x, y in zip(geo, every))
+                    m_geo, m_every = statistics.median(t_geo), statistics.median(t_every)
+                    print(f"{name:22s} {moves:5s} {len(calls):5d} {sum(len(c[2]) for c in calls):6d} "
+                          f"{f'{ge}+{gx}':>19s} {f'{ee}+{ex}':>22s} {m_geo:7.3f} {m_every:8.3f} "
+                          f"{m_geo / m_every:5.2f}  {diff:.3g}", flush=True)
     return 0
 
 

@@ -555,39 +555,119 @@ class Contour:
         flat = self._wrap(t.ravel())
         out = np.empty((flat.size, 2))
         poly = self._poly(nu)
+        # sorted runs (a closed outline's window past the seam wraps into
+        # two): each run's pieces are consecutive, so their coefficients are
+        # expanded with np.repeat instead of a search and gather per point
+        cuts = [0, flat.size]
+        if flat.size > 1:
+            down = np.flatnonzero(flat[1:] < flat[:-1])
+            cuts = [0, *(down + 1).tolist(), flat.size] if len(down) <= 3 else None
+        if cuts is None:
+            self._eval_searched(flat, poly, out)
+        else:
+            for r0, r1 in zip(cuts[:-1], cuts[1:]):
+                self._eval_sorted(flat[r0:r1], poly, out[r0:r1])
+        return out.reshape(t.shape + (2,))
+
+    def _eval_sorted(self, flat, poly, out):
+        """Evaluate increasing parameters ``flat`` into ``out``: when they
+        are many against the pieces they span, piece by piece (each piece's
+        points are one run: its coefficients expanded with np.repeat, no
+        search per point); else as :meth:`_eval_searched`."""
         b = self.breaks
         m = len(b) - 1
-        if flat.size >= 4 * m and flat.size > 1 and not (flat[1:] < flat[:-1]).any():
-            # sorted parameters: each piece's points form one run; expand the
-            # piece coefficients with np.repeat instead of a gather per point
-            first = np.searchsorted(flat, b[1:-1], side="left")
-            bounds = np.concatenate([[0], first, [flat.size]])
-            counts = np.diff(bounds)
-            for a in range(0, m, _PIECE_CHUNK):
-                e = min(a + _PIECE_CHUNK, m)
-                s0, s1 = bounds[a], bounds[e]
-                if s0 == s1:
-                    continue
-                cc = counts[a:e]
-                x = flat[s0:s1] - np.repeat(b[a:e], cc)
+        if flat.size == 0:
+            return
+        p0 = int(np.clip(np.searchsorted(b, flat[0], side="right") - 1, 0, m - 1))
+        p1 = int(np.clip(np.searchsorted(b, flat[-1], side="right") - 1, 0, m - 1))
+        if flat.size < 4 * (p1 - p0 + 1):
+            self._eval_searched(flat, poly, out)
+            return
+        # points of piece p: from the first >= b[p] (p > p0) to the first >= b[p+1]
+        first = np.searchsorted(flat, b[p0 + 1:p1 + 1], side="left")
+        bounds = np.concatenate([[0], first, [flat.size]])
+        counts = np.diff(bounds)
+        for a in range(p0, p1 + 1, _PIECE_CHUNK):
+            e = min(a + _PIECE_CHUNK, p1 + 1)
+            s0, s1 = bounds[a - p0], bounds[e - p0]
+            if s0 == s1:
+                continue
+            cc = counts[a - p0:e - p0]
+            x = flat[s0:s1] - np.repeat(b[a:e], cc)
+            for k in range(2):
+                r = np.repeat(poly[k, 0, a:e], cc)
+                for row in poly[k, 1:]:
+                    r *= x
+                    r += np.repeat(row[a:e], cc)
+                out[s0:s1, k] = r
+
+    def _eval_searched(self, flat, poly, out):
+        """Evaluate parameters in any order: a search and a gather per point."""
+        b = self.breaks
+        m = len(b) - 1
+        for s0 in range(0, flat.size, _POINT_CHUNK):
+            tc = flat[s0 : s0 + _POINT_CHUNK]
+            idx = np.clip(np.searchsorted(b, tc, side="right") - 1, 0, m - 1)
+            x = tc - b.take(idx)
+            for k in range(2):
+                r = poly[k, 0].take(idx)
+                for row in poly[k, 1:]:
+                    r *= x
+                    r += row.take(idx)
+                out[s0 : s0 + len(tc), k] = r
+
+    def on_pieces(self, t, first: int, nu: int = 0) -> np.ndarray:
+        """P(t) or its nu-th derivative where row i of ``t`` lies on piece ``first + i``.
+
+        ``t`` has shape (count, k): row i holds parameters of piece
+        first + i (its start to its end; a closed contour counts pieces on
+        past the seam, piece p being piece p mod ``pieces`` one period on,
+        and so may ``first`` be negative).  Every piece's coefficients are
+        broadcast over its row: no search, no gather per point, a few
+        operations per value.  Returns (count, k, 2).
+
+        >>> import numpy as np
+        >>> c = fit(np.array([[0.0, 0.0], [1.0, 1.0], [2.0, 0.0], [3.0, 1.0]]))
+        >>> t = c.breaks[:-1, None] + np.diff(c.breaks)[:, None] * np.array([0.0, 0.5])
+        >>> bool(np.allclose(c.on_pieces(t, 0), c(t)))
+        True
+        """
+        if isinstance(nu, bool) or nu not in (0, 1, 2, 3):
+            raise InputError(f"nu must be 0, 1, 2 or 3, got {nu!r}")
+        t = np.asarray(t, dtype=np.float64)
+        if t.ndim != 2:
+            raise InputError(f"t must have shape (pieces, k), got {t.shape}")
+        count = t.shape[0]
+        b = self.breaks
+        m = len(b) - 1
+        first = int(first)
+        if not self.closed and (first < 0 or first + count > m):
+            raise InputError(f"pieces {first}..{first + count - 1} are not all on the contour (0..{m - 1})")
+        poly = self._poly(nu)
+        period = b[-1] - b[0]
+        out = np.empty(t.shape + (2,))
+        at = 0
+        while at < count:  # runs of pieces within one period: slices of the coefficients
+            p = first + at
+            turn, p0 = divmod(p, m)
+            n = min(count - at, m - p0)
+            for a in range(0, n, 65536):
+                e = min(a + 65536, n)
+                rows = slice(at + a, at + e)
+                start = b[p0 + a:p0 + e] + turn * period if turn else b[p0 + a:p0 + e]
+                x = t[rows] - start[:, None]
                 for k in range(2):
-                    r = np.repeat(poly[k, 0, a:e], cc)
-                    for row in poly[k, 1:]:
-                        r *= x
-                        r += np.repeat(row[a:e], cc)
-                    out[s0:s1, k] = r
-        else:
-            for s0 in range(0, flat.size, _POINT_CHUNK):
-                tc = flat[s0 : s0 + _POINT_CHUNK]
-                idx = np.clip(np.searchsorted(b, tc, side="right") - 1, 0, m - 1)
-                x = tc - b.take(idx)
-                for k in range(2):
-                    r = poly[k, 0].take(idx)
-                    for row in poly[k, 1:]:
-                        r *= x
-                        r += row.take(idx)
-                    out[s0 : s0 + len(tc), k] = r
-        return out.reshape(t.shape + (2,))
+                    r = poly[k, 0, p0 + a:p0 + e, None] * x
+                    rest = poly[k, 1:, p0 + a:p0 + e]
+                    for j, row in enumerate(rest):
+                        r += row[:, None]
+                        if j < len(rest) - 1:
+                            r *= x
+                    if len(rest) == 0:
+                        r = np.broadcast_to(poly[k, 0, p0 + a:p0 + e, None], x.shape)
+                    out[rows, :, k] = r
+            at += n
+        return out
 
     def curvature(self, t) -> np.ndarray:
         """Signed curvature κ(t) = (x'y'' - y'x'')/(x'^2 + y'^2)^(3/2), 1/mm.

@@ -125,3 +125,70 @@ def test_second_derivative_bound_holds_on_a_fine_grid(d):
         left_end = contour(b[1:] - 1e-12 * np.diff(b), 2)
         ends = np.maximum(np.hypot(*contour(b[:-1], 2).T), np.hypot(*left_end.T))
         np.testing.assert_allclose(bound, ends, rtol=1e-6, atol=1e-9)
+
+
+def _samples_used(contour, d, chain, tol, density=1):
+    """Curve samples chain_deviation takes: the even ones and the extras."""
+    from pathgen.path.measure import _dense_extras, _sample_counts
+
+    counts = _sample_counts(contour, chain, tol, density, d)
+    extras = _dense_extras(contour, chain, counts, d, tol)
+    return int(counts.sum()) + (0 if extras is None else len(extras[1]))
+
+
+def test_a_spike_on_one_piece_among_100000_under_one_move_is_found_by_few_samples():
+    # invented: a straight edge read every 0.01 mm over 1 m (10^5 pieces),
+    # one reading knocked 0.05 mm off; one line move stands for all of it.
+    # Reference: scipy.interpolate.CubicSpline [scipy-cubicspline] on the
+    # same parameters (natural ends) evaluated 400 times per piece around the
+    # reading gives the true maximum; the promise [broken-line-error] is the
+    # measure within 1 % of tol of it.  Sized by geometry, the measure takes
+    # a few hundred samples, not one per piece (the pieces far from the
+    # reading are exactly straight: |P''| = 0 there).
+    from scipy.interpolate import CubicSpline
+
+    n = 100_001
+    x = np.arange(n) * 0.01
+    y = np.zeros(n)
+    k = 61_803
+    y[k] = 0.05
+    contour = fit(np.c_[x, y], end="natural")
+    b = contour.breaks
+    chain = Chain(np.array([LINE], np.int8), contour(b[:1]), contour(b[-1:]), np.zeros((1, 2)),
+                  b[:1].copy(), b[-1:].copy())
+    tol = 0.01
+    (got,) = chain_deviation(contour, 0.0, chain, tol)
+    ref = CubicSpline(b, np.c_[x, y], bc_type="natural")
+    t = np.concatenate([np.linspace(b[i], b[i + 1], 400) for i in range(k - 30, k + 30)])
+    want = np.abs(ref(t)[:, 1]).max()  # distance to the x axis, the move
+    assert want >= 0.05  # the curve passes through the knocked reading
+    assert want - 0.01 * tol <= got <= want + 0.01 * tol
+    used = _samples_used(contour, 0.0, chain, tol)
+    assert used < 2_000 < len(b) - 1
+
+
+@pytest.mark.parametrize("d", [0.0, 2.0])
+def test_a_chord_over_a_densely_read_circle_measures_its_sagitta(d):
+    # A line move across a third of a circle of radius 50 read at 10^5
+    # points (33 000 pieces under the move) stands off the arc by the
+    # sagitta R - sqrt(R² - L²/4) [sagitta], R the offset's radius 50 - d
+    # (d to the left of a counter-clockwise circle, towards the centre).
+    # Sized by geometry: a few hundred samples for the move, not a sample
+    # per piece.
+    n = 100_000
+    th = np.linspace(0.0, 2 * np.pi, n, endpoint=False)
+    contour = fit(np.c_[50 * np.cos(th), 50 * np.sin(th)], closed=True)
+    b = contour.breaks
+    period = b[-1] - b[0]
+    # the second move crosses the seam, its span given one period on
+    t0 = np.array([b[n // 2], b[n - n // 6]])
+    t1 = np.array([b[n // 2 + n // 3], b[n // 3 - n // 6] + period])
+    s, e = offset_points(contour, t0, d), offset_points(contour, t1, d)
+    chain = Chain(np.full(2, LINE, np.int8), s, e, np.zeros((2, 2)), t0, t1)
+    tol = 0.01
+    got = chain_deviation(contour, d, chain, tol)
+    R = 50.0 - d
+    L = np.hypot(*(e - s).T)
+    want = R - np.sqrt(R * R - L * L / 4)
+    assert np.all(np.abs(got - want) <= 0.01 * tol)
+    assert _samples_used(contour, d, chain, tol) < 2_000 < n // 3

@@ -190,26 +190,6 @@ def test_spline_written_in_bulk_is_byte_identical_to_ezdxfs_own_way(tmp_path, mo
     assert len(spline.knots) == len(spline.control_points) + 4
 
 
-def test_a_move_over_many_pieces_is_sampled_on_every_piece():
-    # The measurement's promise: every spline piece under a move holds a
-    # sample, however many pieces the move covers (a cap of 20 000 samples
-    # per move once dropped it at about 10^6 points).  Derived: a sample on
-    # every piece is what lets a feature narrower than a piece be seen.
-    from pathgen.path.measure import LINE, Chain, _sample_counts
-    from pathgen.spline import fit
-
-    n = 60_001
-    x = np.linspace(0.0, 120.0, n)
-    contour = fit(np.c_[x, np.zeros(n)])
-    b = contour.breaks
-    chain = Chain(np.array([LINE], np.int8), contour(b[:1]), contour(b[-1:]), np.zeros((1, 2)),
-                  b[:1].copy(), b[-1:].copy())
-    (count,) = _sample_counts(contour, chain, 0.01)
-    t = b[0] + (b[-1] - b[0]) * np.arange(count) / (count - 1)  # as chain_deviation spaces them
-    hit = np.unique(np.clip(np.searchsorted(b, t, side="right") - 1, 0, len(b) - 2))
-    assert len(hit) == len(b) - 1
-
-
 def test_a_spike_on_one_short_piece_of_a_long_move_is_measured():
     # A straight run of 40 000 readings 3 mm apart with one reading pair
     # 0.01 mm apart raised 0.05 mm: the curve's bump there is narrow; the

@@ -73,6 +73,32 @@ def test_matches_scipy_cubicspline(rng, end, param, n):
             np.testing.assert_allclose(got, want, rtol=0, atol=tol * scale, err_msg=f"{label} nu={nu}")
 
 
+@pytest.mark.parametrize("closed", [False, True])
+def test_piece_by_piece_evaluation_matches_scipy_cubicspline(rng, closed):
+    # Reference library: scipy.interpolate.CubicSpline on the same breaks
+    # [scipy-cubicspline].  Rows of parameters, row i on piece first + i; a
+    # closed outline's rows may run past the seam (pieces counted on, one
+    # period later) and start before it (a negative first piece).
+    points = rng.normal(size=(300, 2)).cumsum(axis=0)
+    c = fit(points, closed=closed, end="natural")
+    ref = _scipy_reference(c, points, "natural")
+    b, m = c.breaks, c.pieces
+    period = b[-1] - b[0]
+    u = np.array([0.0, 0.1, 0.25, 0.5, 0.75, 0.999])  # not 1: P''' jumps at the next break
+    firsts = (-40, 0, 250) if closed else (0, 17, m - 60)
+    for first in firsts:
+        p = first + np.arange(120 if closed else 60)
+        turns, q = np.divmod(p, m)
+        t = (b[q] + turns * period)[:, None] + np.diff(b)[q][:, None] * u
+        for nu in range(4):
+            got = c.on_pieces(t, first, nu)
+            want = ref(b[q][:, None] + np.diff(b)[q][:, None] * u, nu)
+            scale = np.abs(want).max() + 1.0
+            np.testing.assert_allclose(got, want, rtol=0, atol=1e-9 * scale, err_msg=f"first={first} nu={nu}")
+    with pytest.raises(InputError):
+        fit(points[:20], closed=False).on_pieces(np.zeros((3, 2)), 17)
+
+
 def test_coefficients_match_scipy_ppoly_layout(rng):
     # Reference library: CubicSpline.c has shape (4, m, 2), highest power first.
     p = rng.normal(size=(30, 2)).cumsum(axis=0)

@@ -85,7 +85,11 @@ def _samples(contour, a, b, d, tol):
     Steps h = min(√(8·0.01·tol/κ_q), 20·tol): the polyline's sagitta stays
     below 1 % of the tolerance, with κ_q the largest curvature at the breaks
     and quarter points of pieces a step spans; no step is longer than 20·tol (the
-    resolution of an arc's end).
+    resolution of an arc's end).  Where the pieces are shorter than tol/16
+    on average (10^6 points on a 400 mm outline) the breaks alone are
+    taken: a step at least √0.08·tol long (curvature up to 1/tol) still
+    spans four of them, as it spans the quarter points of a piece, and the
+    grid stays sized by the points, not four times that.
 
     On a large, gently curved part that rule makes the samples grow with
     size ÷ tolerance although the arcs written grow far slower.  Where the
@@ -104,19 +108,7 @@ def _samples(contour, a, b, d, tol):
     For a shape scaled by s, |κ_q'| goes as s⁻², h_g as s^(2/3), and the
     samples as s^(1/3), as the arcs do.
     """
-    brk = contour.breaks
-    if contour.closed:
-        period = brk[-1] - brk[0]
-        k0 = int(np.floor((a - brk[0]) / period)) - 1
-        k1 = int(np.ceil((b - brk[0]) / period)) + 1
-        bb = np.concatenate([brk[:-1] + k * period for k in range(k0, k1)])
-    else:
-        bb = brk
-    bb = bb[(bb > a) & (bb < b)]
-    g = np.concatenate([[a], bb, [b]])
-    g = (g[:-1, None] + np.diff(g)[:, None] * (np.arange(4) / 4.0)).ravel()
-    g = np.append(g, b)
-    d1, d2 = contour(g, 1), contour(g, 2)
+    g, d1, d2 = _grid(contour, a, b, 4 if _mean_piece(contour) > tol / 16.0 else 1)
     speed = np.hypot(d1[:, 0], d1[:, 1])
     kappa = (d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) / speed**3
     stretch = np.maximum(1.0 - d * kappa, 1e-3)
@@ -167,6 +159,68 @@ def _samples(contour, a, b, d, tol):
         kq_t = kt / np.maximum(1.0 - d * kt, 1e-3)
         kq_t = np.where(np.isfinite(spread), kq_t, 0.0)
     return t, X, tan, theta, kq_t, spread
+
+
+def _mean_piece(contour) -> float:
+    """The mean chord of the contour's pieces, mm (kept on the contour)."""
+    cache = getattr(contour, "__dict__", {})
+    got = cache.get("_mean_piece")
+    if got is None:
+        p = contour.coefficients[3]  # P at the start of every piece
+        ends = np.concatenate([p, contour(contour.breaks[-1:])])
+        got = float(np.hypot(*np.diff(ends, axis=0).T).sum()) / max(len(p), 1)
+        cache["_mean_piece"] = got
+    return got
+
+
+def _grid(contour, a, b, sub=4):
+    """Parameters ``sub`` to a piece (and b) over [a, b], with P' and P''.
+
+    The breaks strictly inside (a, b) cut it into whole pieces (a closed
+    contour's window may run past the seam) and two partial ones at the
+    ends; each is cut into ``sub`` equal steps.  The whole pieces are
+    evaluated by broadcasting their coefficients (:meth:`Contour.on_pieces`):
+    no search and no gather per point.
+    """
+    brk = contour.breaks
+    m = len(brk) - 1
+    u = np.arange(sub) / float(sub)
+    if contour.closed:
+        period = brk[-1] - brk[0]
+        ka = int(np.floor((a - brk[0]) / period))
+        kb = int(np.floor((b - brk[0]) / period))
+        e0 = ka * m + int(np.searchsorted(brk[:-1], a - ka * period, side="right"))
+        e1 = kb * m + int(np.searchsorted(brk[:-1], b - kb * period, side="left")) - 1
+    else:
+        period = 0.0
+        e0 = int(np.searchsorted(brk, a, side="right"))
+        e1 = int(np.searchsorted(brk, b, side="left")) - 1
+
+    def value(e):  # the break of index e, counted on past the seam
+        e = np.asarray(e)
+        return brk[e % m] + (e // m) * period if contour.closed else brk[e]
+
+    # rounding at the window's ends: only breaks strictly inside
+    while e0 <= e1 and not value(e0) > a:
+        e0 += 1
+    while e1 >= e0 and not value(e1) < b:
+        e1 -= 1
+    if e1 < e0:
+        g = np.append(a + (b - a) * u, b)
+        return g, contour(g, 1), contour(g, 2)
+    bb = value(np.arange(e0, e1 + 1))
+    whole = bb[:-1, None] + np.diff(bb)[:, None] * u  # pieces e0 .. e1-1
+    head = a + (bb[0] - a) * u
+    tail = np.append(bb[-1] + (b - bb[-1]) * u, b)
+    g = np.concatenate([head, whole.ravel(), tail])
+    out = []
+    for nu in (1, 2):
+        v = np.empty((len(g), 2))
+        v[:sub] = contour(head, nu)
+        v[sub:sub + whole.size] = contour.on_pieces(whole, e0, nu).reshape(-1, 2)
+        v[sub + whole.size:] = contour(tail, nu)
+        out.append(v)
+    return g, out[0], out[1]
 
 
 def _geometric_steps(kq, kmax, length, tol):

@@ -168,8 +168,23 @@ def choose_seam(contour, *, near=None, keep_away: float = 0.0, d: float = 0.0) -
     the contour point nearest to it.
     """
     b = contour.breaks
-    sub = int(np.clip(200_000 // contour.pieces, 2, 16))
-    g = (b[:-1, None] + np.diff(b)[:, None] * (np.arange(sub) / sub)).ravel()
+    m = contour.pieces
+    if m <= 200_000:
+        # 2 to 16 samples to a piece (about 200 000 in all)
+        sub = int(np.clip(200_000 // m, 2, 16))
+        grid = b[:-1, None] + np.diff(b)[:, None] * (np.arange(sub) / sub)
+        g = grid.ravel()
+
+        def on_grid(nu):  # row i on piece i: broadcast, no search
+            return contour.on_pieces(grid, 0, nu).reshape(-1, 2)
+    else:
+        # more pieces than that (10^6 points): the breaks of every k-th
+        # piece, about 200 000 samples still, a few µm apart on a part
+        g = b[:-1:-(-m // 200_000)]
+
+        def on_grid(nu):
+            return contour(g, nu)
+
     if near is not None:
         try:
             xy = np.asarray(near, dtype=np.float64).reshape(2)
@@ -177,7 +192,7 @@ def choose_seam(contour, *, near=None, keep_away: float = 0.0, d: float = 0.0) -
             raise InputError(f"seam must be a point (x, y), got {near!r}") from None
         if not np.all(np.isfinite(xy)):
             raise InputError(f"seam must be a finite point (x, y), got {near!r}")
-        p = contour(g)
+        p = on_grid(0)
         i = int(np.argmin(np.hypot(*(p - xy).T)))
         t = g[i]
         for _ in range(20):  # Newton on (P - xy)·P' = 0
@@ -188,8 +203,8 @@ def choose_seam(contour, *, near=None, keep_away: float = 0.0, d: float = 0.0) -
                 break
             t = t - (r @ d1) / df
         return float(contour.domain[0] + np.mod(t - contour.domain[0], b[-1] - b[0]))
-    d1 = contour(g, 1)
-    d2 = contour(g, 2)
+    d1 = on_grid(1)
+    d2 = on_grid(2)
     speed = np.hypot(d1[:, 0], d1[:, 1])
     kappa = (d1[:, 0] * d2[:, 1] - d1[:, 1] * d2[:, 0]) / speed**3
     ds = speed * np.diff(np.append(g, b[-1]))

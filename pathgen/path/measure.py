@@ -13,8 +13,17 @@ distance are local and vectorized:
   window of segments around the same arc-length fraction).
 
 Taking the larger of the two gives a symmetric (Hausdorff-like) distance
-per primitive.  The sample counts keep the polyline's own sagitta under
-0.5 % of the tolerance.  No shapely, no quadratic all-pairs distances.
+per primitive.  No shapely, no quadratic all-pairs distances.
+
+Sample counts follow the geometry, not the number of spline pieces: an
+arc's samples keep their polyline's sagitta under 0.5 % of the tolerance
+(24 on a line), and each primitive's even step h meets h²·M/8 <= 1 % of
+the tolerance, M the largest |q''| bound of the pieces under it (bounds
+computed once per contour and offset, reduced per primitive).  Where that
+step would take more samples than sampling the pieces one by one (a spike
+on one short piece of a long move), the step stays and the pieces it
+misses are sampled on their own (:func:`_dense_extras`).  A smooth move
+over 10^5 pieces takes a few hundred samples.
 
 Guarantee (curve → primitive): the measured value is within 1 % of the
 tolerance of the true maximum distance of the span's curve from its
@@ -22,9 +31,9 @@ primitive.  Between samples h apart on a curve with |q''| <= M the curve
 leaves their chord by at most h²·M/8 (linear interpolation error; de Boor,
 A Practical Guide to Splines, rev. ed. 2001, ch. III, broken line
 interpolation) and distance to a line or arc is 1-Lipschitz; M is bounded per spline piece
-(:func:`piece_second_derivative_bound`), and every piece where the evenly
-spread samples leave h²·M/8 above 1 % of the tolerance is sampled on its
-own (see :func:`_dense_extras`).  The bound needs q without kinks
+(:func:`piece_second_derivative_bound`), and every piece is sampled at a
+step meeting h²·M/8 <= 1 % of the tolerance, by the even samples or its
+own.  The bound needs q without kinks
 between samples: it holds for spans that do not cross a corner of the
 contour (the path stage ends spans at corners).
 
@@ -245,10 +254,121 @@ def distance_to_own(points, owner, chain: Chain) -> np.ndarray:
     return dist
 
 
-def _sample_counts(contour, chain: Chain, tol: float, density: int = 1) -> np.ndarray:
-    """Samples per primitive so that polyline sagittas stay below 0.5 % of tol
-    (times ``density``: more samples where the curve has features narrower
-    than a sampling step, e.g. an offset near a cusp)."""
+#: the curve → move measurement is within this fraction of the tolerance of
+#: the true maximum on every piece (spans are accepted at 0.99·tolerance, so
+#: an accepted span keeps the curve within the tolerance)
+_GUARANTEE = 0.01
+#: samples on one piece at most; reached only where the bound below is
+#: infinite (an offset piece whose speed bound vanishes)
+_MAX_PER_PIECE = 4096
+#: the former rule, at least one even sample on every piece under a move
+#: (its cost grows with the points, not the shape); off.  Kept so
+#: benchmarks/measure_guarantee.py can replay recorded calls both ways.
+_EVERY_PIECE = False
+
+
+@dataclass(frozen=True, eq=False)
+class _Plan:
+    """Where each primitive lies among the spline pieces, and what they need.
+
+    lo, hi : (k,) the span, lo <= hi; shift : (k,) whole periods taken off
+    (closed contours) so that lo - shift lies in the first period.
+    p_lo, p_hi : (k,) first and last piece under the span, counted on from
+    the first period (index p is piece p mod m of period p // m).
+    mmax : (k,) the largest |q''| bound over those pieces.
+    alone : (k,) about how many samples sampling those pieces one by one
+    would take (the cost :func:`_dense_extras` has at most).
+    bound : (m,) the |q''| bound of every piece.
+    """
+
+    lo: np.ndarray
+    hi: np.ndarray
+    shift: np.ndarray
+    p_lo: np.ndarray
+    p_hi: np.ndarray
+    mmax: np.ndarray
+    alone: np.ndarray
+    bound: np.ndarray
+
+
+def _bounds(contour, d: float):
+    """Per piece: the |q''| bound, and prefix sums of h·√bound and of the
+    infinite bounds; computed once per (contour, d) and kept on the contour."""
+    cache = getattr(contour, "__dict__", {}).setdefault("_q2_bounds", {})
+    key = float(d)
+    got = cache.get(key)
+    if got is None:
+        b = contour.breaks
+        m = len(b) - 1
+        bound = piece_second_derivative_bound(contour, np.arange(m), d)
+        finite = np.isfinite(bound)
+        c = np.where(finite, np.diff(b) * np.sqrt(np.where(finite, bound, 0.0)), 0.0)
+        root = np.concatenate([[0.0], np.cumsum(c)])
+        inf = None if finite.all() else np.concatenate([[0], np.cumsum(~finite)])
+        got = (bound, root, inf)
+        for a in got:
+            if a is not None:
+                a.setflags(write=False)
+        if len(cache) >= 4:
+            cache.pop(next(iter(cache)))
+        cache[key] = got
+    return got
+
+
+def _range_max(vals, s, e):
+    """max(vals[s_i .. e_i]) for inclusive ranges s_i <= e_i (one reduceat)."""
+    idx = np.empty(2 * len(s), dtype=np.int64)
+    idx[0::2], idx[1::2] = s, e
+    return np.maximum(np.maximum.reduceat(vals, idx)[0::2], vals[e])
+
+
+def _plan(contour, chain: Chain, d: float, tol: float) -> _Plan:
+    b = contour.breaks
+    m = len(b) - 1
+    lo, hi = np.minimum(chain.t0, chain.t1), np.maximum(chain.t0, chain.t1)
+    if contour.closed:
+        period = b[-1] - b[0]
+        shift = np.floor((lo - b[0]) / period) * period
+        wraps = np.floor((hi - shift - b[0]) / period)
+        p_lo = np.clip(np.searchsorted(b, lo - shift, side="right") - 1, 0, m - 1)
+        p_hi = wraps.astype(np.int64) * m + np.searchsorted(b, hi - shift - wraps * period, side="left") - 1
+    else:
+        shift = np.zeros_like(lo)
+        p_lo = np.clip(np.searchsorted(b, lo, side="right") - 1, 0, m - 1)
+        p_hi = np.clip(np.searchsorted(b, hi, side="left") - 1, 0, m - 1)
+    p_hi = np.maximum(p_hi, p_lo)
+    bound, root, inf = _bounds(contour, d)
+    full = p_hi - p_lo + 1 >= m
+    e1 = np.minimum(p_hi, m - 1)
+    wrapped = p_hi >= m
+    s2 = np.where(wrapped, 0, p_lo)
+    e2 = np.where(wrapped, np.minimum(p_hi - m, m - 1), e1)
+    mmax = np.maximum(_range_max(bound, p_lo, e1), _range_max(bound, s2, e2))
+    if full.any():
+        mmax[full] = bound.max()
+
+    def upto(x, pre):  # sum over pieces 0 .. x-1 counted on from the first period
+        return (x // m) * pre[m] + pre[x % m]
+
+    roots = upto(p_hi + 1, root) - upto(p_lo, root)
+    n_inf = 0.0 if inf is None else upto(p_hi + 1, inf) - upto(p_lo, inf)
+    alone = roots / np.sqrt(8.0 * _GUARANTEE * tol) + 2.0 * (p_hi - p_lo + 1) + n_inf * _MAX_PER_PIECE
+    return _Plan(lo, hi, shift, p_lo, p_hi, mmax, alone, bound)
+
+
+def _sample_counts(contour, chain: Chain, tol: float, density: int = 1, d: float = 0.0,
+                   plan: _Plan | None = None) -> np.ndarray:
+    """Even samples per primitive, sized by the geometry, not by the pieces.
+
+    The larger of (a) the primitive's own rule, times ``density``: on an
+    arc, the polyline of its samples keeps its sagitta below 0.5 % of tol;
+    24 on a line; and (b) the count whose step h meets h²·M/8 <= 0.01·tol,
+    M the largest |q''| bound of the pieces under the primitive (the
+    curve's own sagitta between samples), unless (b) would take more
+    samples than sampling those pieces one by one: a spike on one short
+    piece of a long move.  There the pieces the step misses get samples of
+    their own (:func:`_dense_extras`).
+    """
     k = len(chain)
     counts = np.full(k, 24, dtype=np.int64)
     arcs = chain.kind != LINE
@@ -257,27 +377,22 @@ def _sample_counts(contour, chain: Chain, tol: float, density: int = 1) -> np.nd
                                 chain.kind[arcs] == ARC_CCW)
         need = np.abs(sw) * np.sqrt(r / (0.04 * tol)) + 2.0
         counts[arcs] = np.maximum(24, np.ceil(np.minimum(need, 4000.0))).astype(np.int64)
-    # a span over many spline pieces needs a sample on every piece
-    b = contour.breaks
-    t0, t1 = np.minimum(chain.t0, chain.t1), np.maximum(chain.t0, chain.t1)
-    if contour.closed:
-        period = b[-1] - b[0]
-        pieces = np.ceil((t1 - t0) / period * (len(b) - 1))
-    else:
-        pieces = np.searchsorted(b, t1) - np.searchsorted(b, t0)
-    # (no cap: a cap of 20 000 dropped this promise for moves over more
-    # pieces, at about 10^6 points; the samples follow the pieces there)
-    counts = np.maximum(counts, (pieces + 2).astype(np.int64))
-    return counts if density == 1 else (counts - 1) * int(density) + 1
-
-
-#: the curve → move measurement is within this fraction of the tolerance of
-#: the true maximum on every piece (spans are accepted at 0.99·tolerance, so
-#: an accepted span keeps the curve within the tolerance)
-_GUARANTEE = 0.01
-#: samples on one piece at most; reached only where the bound below is
-#: infinite (an offset piece whose speed bound vanishes)
-_MAX_PER_PIECE = 4096
+    if _EVERY_PIECE:
+        b = contour.breaks
+        t0, t1 = np.minimum(chain.t0, chain.t1), np.maximum(chain.t0, chain.t1)
+        if contour.closed:
+            pieces = np.ceil((t1 - t0) / (b[-1] - b[0]) * (len(b) - 1))
+        else:
+            pieces = np.searchsorted(b, t1) - np.searchsorted(b, t0)
+        counts = np.maximum(counts, (pieces + 2).astype(np.int64))
+        return counts if density == 1 else (counts - 1) * int(density) + 1
+    counts = counts if density == 1 else (counts - 1) * int(density) + 1
+    if plan is None:
+        plan = _plan(contour, chain, d, tol)
+    with np.errstate(invalid="ignore", over="ignore"):
+        need = np.ceil((plan.hi - plan.lo) * np.sqrt(plan.mmax / (8.0 * _GUARANTEE * tol))) + 1.0
+    cheap = np.isfinite(need) & (need <= plan.alone)
+    return np.where(cheap, np.maximum(counts, np.where(cheap, need, 0.0)), counts).astype(np.int64)
 
 
 def piece_second_derivative_bound(contour, pieces, d: float) -> np.ndarray:
@@ -296,25 +411,32 @@ def piece_second_derivative_bound(contour, pieces, d: float) -> np.ndarray:
     bound is inf.
     """
     pieces = np.asarray(pieces, dtype=np.int64)
-    c = contour.coefficients
     h = np.diff(contour.breaks).take(pieces)
-    c0, c1, c2 = (c[i].take(pieces, axis=0) for i in range(3))
-    a0 = np.hypot(*(2.0 * c1).T)
-    a1 = np.hypot(*(6.0 * c0 * h[:, None] + 2.0 * c1).T)
+    # per coordinate, contiguous: (x, y) columns of c[0..2] on the pieces
+    per_coord = getattr(contour, "__dict__", {}).get("_c")
+    if per_coord is not None and len(pieces) == per_coord.shape[2] and (
+            len(pieces) == 0 or (pieces[0] == 0 and np.all(np.diff(pieces) == 1))):
+        (c0x, c1x, c2x), (c0y, c1y, c2y) = per_coord[0, :3], per_coord[1, :3]
+    else:
+        c = contour.coefficients
+        (c0x, c1x, c2x), (c0y, c1y, c2y) = [[c[i][:, k].take(pieces) for i in range(3)] for k in range(2)]
+    a0 = np.hypot(2.0 * c1x, 2.0 * c1y)
+    a1 = np.hypot(6.0 * c0x * h + 2.0 * c1x, 6.0 * c0y * h + 2.0 * c1y)
     amax = np.maximum(a0, a1)
     if d == 0.0:
         return amax
-    hm = (0.5 * h)[:, None]
-    jn = np.hypot(*(6.0 * c0).T)
-    um = np.hypot(*((3.0 * c0 * hm + 2.0 * c1) * hm + c2).T)
-    am = np.hypot(*(6.0 * c0 * hm + 2.0 * c1).T)
+    hm = 0.5 * h
+    jn = np.hypot(6.0 * c0x, 6.0 * c0y)
+    um = np.hypot((3.0 * c0x * hm + 2.0 * c1x) * hm + c2x, (3.0 * c0y * hm + 2.0 * c1y) * hm + c2y)
+    am = np.hypot(6.0 * c0x * hm + 2.0 * c1x, 6.0 * c0y * hm + 2.0 * c1y)
     vmin = um - am * 0.5 * h - jn * h * h / 8.0
     with np.errstate(divide="ignore", invalid="ignore"):
         nn = 2.0 * jn / vmin + 3.0 * amax * amax / (vmin * vmin)
     return np.where(vmin > 0, amax + abs(d) * nn, np.inf)
 
 
-def _dense_extras(contour, chain: Chain, counts: np.ndarray, d: float, tol: float):
+def _dense_extras(contour, chain: Chain, counts: np.ndarray, d: float, tol: float,
+                  plan: _Plan | None = None):
     """Extra curve samples on pieces whose features are narrower than the even step.
 
     The even samples of primitive i are D_i = |t1 - t0|/(counts_i - 1)
@@ -324,41 +446,38 @@ def _dense_extras(contour, chain: Chain, counts: np.ndarray, d: float, tol: floa
     ch. III, broken line interpolation), and the distance to a move is
     1-Lipschitz, so the largest distance between two samples exceeds the larger of theirs by at most
     that.  Pieces where D_i²·M/8 > _GUARANTEE·tol get samples of their own:
-    both ends and evenly between at a step that meets the bound.
+    both ends and evenly between at a step that meets the bound.  Only the
+    primitives whose largest piece bound the step misses are looked at
+    piece by piece.
 
     Returns (owner, t) of the extra samples strictly inside each span, or
     None when every piece is already sampled finely enough.
     """
+    if plan is None:
+        plan = _plan(contour, chain, d, tol)
     b = contour.breaks
     m = len(b) - 1
-    lo, hi = np.minimum(chain.t0, chain.t1), np.maximum(chain.t0, chain.t1)
+    period = b[-1] - b[0] if contour.closed else 0.0
+    lo, hi = plan.lo, plan.hi
     step = (hi - lo) / (counts - 1.0)
-    if contour.closed:
-        period = b[-1] - b[0]
-        shift = np.floor((lo - b[0]) / period) * period
-        tiles = int(np.ceil(np.max((hi - shift - b[0]) / period))) + 1
-        ext = np.concatenate([b[:-1] + k * period for k in range(tiles)] + [[b[0] + tiles * period]])
-        piece_of = np.tile(np.arange(m), tiles)
-    else:
-        shift = np.zeros_like(lo)
-        ext = b
-        piece_of = np.arange(m)
-    me = len(ext) - 1
-    p_lo = np.clip(np.searchsorted(ext, lo - shift, side="right") - 1, 0, me - 1)
-    p_hi = np.clip(np.searchsorted(ext, hi - shift, side="left") - 1, p_lo, me - 1)
-    npair = p_hi - p_lo + 1
-    owner = np.repeat(np.arange(len(lo)), npair)
-    first = np.cumsum(npair) - npair
-    pe = np.repeat(p_lo, npair) + (np.arange(owner.size) - np.repeat(first, npair))
-    bound = piece_second_derivative_bound(contour, piece_of[pe], d)
     eps = _GUARANTEE * tol
+    with np.errstate(invalid="ignore", over="ignore"):
+        miss = np.flatnonzero(~(step * step * plan.mmax / 8.0 <= eps))
+    if not len(miss):
+        return None
+    npair = (plan.p_hi - plan.p_lo + 1)[miss]
+    owner = np.repeat(miss, npair)
+    first = np.cumsum(npair) - npair
+    pe = np.repeat(plan.p_lo[miss], npair) + (np.arange(owner.size) - np.repeat(first, npair))
+    piece = pe % m
+    bound = plan.bound[piece]
     need = step.take(owner) ** 2 * bound / 8.0 > eps
     if not need.any():
         return None
-    owner, pe, bound = owner[need], pe[need], bound[need]
-    sh = shift.take(owner)
-    a = np.maximum(ext[pe] + sh, lo.take(owner))
-    e = np.minimum(ext[pe + 1] + sh, hi.take(owner))
+    owner, pe, piece, bound = owner[need], pe[need], piece[need], bound[need]
+    base = plan.shift.take(owner) + (pe // m) * period
+    a = np.maximum(b[piece] + base, lo.take(owner))
+    e = np.minimum(b[piece + 1] + base, hi.take(owner))
     with np.errstate(divide="ignore"):
         k = np.ceil((e - a) / np.sqrt(8.0 * eps / bound)) + 1.0
     k = np.clip(np.where(np.isfinite(k), k, _MAX_PER_PIECE), 2, _MAX_PER_PIECE).astype(np.int64)
@@ -389,21 +508,22 @@ def chain_deviation(contour, d: float, chain: Chain, tol: float, *, density: int
     Notes
     -----
     The curve → primitive part is within 0.01·tol of the true maximum on
-    every primitive (h²·M/8 bound, see the module notes): pieces where the
-    evenly spread samples are too far apart for the piece's |q''| bound are
-    sampled on their own.
+    every primitive (h²·M/8 bound, see the module notes): the even step is
+    sized by the largest |q''| bound under each primitive, and pieces it
+    still misses are sampled on their own.
     """
     k = len(chain)
     if k == 0:
         return np.zeros(0)
-    counts = _sample_counts(contour, chain, tol, density)
+    plan = None if _EVERY_PIECE else _plan(contour, chain, d, tol)
+    counts = _sample_counts(contour, chain, tol, density, d, plan)
     owner = np.repeat(np.arange(k), counts)
     first = np.cumsum(counts) - counts
     j = np.arange(owner.size) - np.repeat(first, counts)
     frac = j / np.repeat(counts - 1.0, counts)
     t = np.repeat(chain.t0, counts) + np.repeat(chain.t1 - chain.t0, counts) * frac
     prim_counts, prim_first = counts, first
-    extras = _dense_extras(contour, chain, counts, d, tol)
+    extras = _dense_extras(contour, chain, counts, d, tol, plan)
     if extras is not None:
         # pieces with features narrower than the even step: merge their
         # samples in, in order along each primitive
