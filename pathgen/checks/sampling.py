@@ -49,6 +49,9 @@ class Samples:
     corner : (n,) bool, True on both samples of each corner pair.
     closed : whether the last sample meets the first (the seam).
     length : total length, mm.
+    geometric : number of pieces sampled by geometry (a sample every few
+        pieces, not per_piece each): 0 when every piece has its own samples,
+        which are then evenly spread in each piece's parameter.
     """
 
     t: np.ndarray
@@ -60,6 +63,7 @@ class Samples:
     corner: np.ndarray
     closed: bool
     length: float
+    geometric: int = 0
 
     def __len__(self) -> int:
         return len(self.t)
@@ -159,28 +163,223 @@ def _refine_maxima(c, h, idx, x, kabs, iterations: int = 30):
     return pi[inside], xm[inside], k[inside]
 
 
-def _piece_lengths(c: np.ndarray, h: np.ndarray, halves: int = 1) -> np.ndarray:
-    """Length of every piece: 10-point Gauss-Legendre on ``halves`` sub-steps.
+# -- per-piece facts, all pieces at once -----------------------------------------
+
+
+def _piece_ends(c: np.ndarray, h: np.ndarray):
+    """First derivative at the start and the end of every piece, (m, 2) each
+    (the same arithmetic as :func:`_derivs`, so the same bits)."""
+    d_start = np.ascontiguousarray(c[:, 2].T)  # P'(0) = c2 exactly
+    d_end = np.empty((len(h), 2))
+    for k in range(2):
+        r = c[k, 0] * (3.0 * h)
+        r += 2.0 * c[k, 1]
+        r *= h
+        r += c[k, 2]
+        d_end[:, k] = r
+    return d_start, d_end
+
+
+def _curvature_bounds(c: np.ndarray, h: np.ndarray):
+    """Lower and upper bounds of the signed curvature over every piece.
+
+    On a piece P(x) = a x³ + b x² + c x + d (x in [0, h]) the numerator of
+    κ = P' × P'' / |P'|³ is the quadratic −6(a×b)x² + 6(c×a)x + 2(c×b), whose
+    extremes on [0, h] are exact (ends and vertex); |P'| lies within
+    |P'(h/2)| ± (h/2)·max|P''| (P'' is linear, so its largest norm is at an
+    end).  Where that lower speed bound is 0 the bounds are infinite.
+    """
+    m = len(h)
+    lo = np.empty(m)
+    hi = np.empty(m)
+    long = np.empty(m)
+    knot = np.empty(m)
+    for s0 in range(0, m, _CHUNK):
+        s1 = min(s0 + _CHUNK, m)
+        hh = h[s0:s1]
+        ax, ay = c[0, 0, s0:s1], c[1, 0, s0:s1]
+        bx, by = c[0, 1, s0:s1], c[1, 1, s0:s1]
+        cx, cy = c[0, 2, s0:s1], c[1, 2, s0:s1]
+        q2 = -6.0 * (ax * by - ay * bx)
+        q1 = 6.0 * (cx * ay - cy * ax)
+        q0 = 2.0 * (cx * by - cy * bx)
+        n_end = (q2 * hh + q1) * hh + q0
+        with np.errstate(divide="ignore", invalid="ignore"):
+            xv = -q1 / (2.0 * q2)
+        xv = np.where(np.isfinite(xv), np.clip(xv, 0.0, hh), 0.0)
+        n_mid = (q2 * xv + q1) * xv + q0
+        n_max = np.maximum(np.maximum(q0, n_end), n_mid)
+        n_min = np.minimum(np.minimum(q0, n_end), n_mid)
+        half = 0.5 * hh
+        vx = (3.0 * ax * half + 2.0 * bx) * half + cx
+        vy = (3.0 * ay * half + 2.0 * by) * half + cy
+        v_mid = np.hypot(vx, vy)
+        acc = 2.0 * np.maximum(np.hypot(bx, by), np.hypot(3.0 * ax * hh + bx, 3.0 * ay * hh + by))
+        v_top = v_mid + acc * half
+        long[s0:s1] = v_top * hh
+        v_lo = np.maximum(v_mid - acc * half, 0.0) ** 3
+        v_hi = v_top ** 3
+        with np.errstate(divide="ignore", invalid="ignore"):
+            hi[s0:s1] = np.where(n_max > 0, n_max / v_lo, n_max / v_hi)
+            lo[s0:s1] = np.where(n_min < 0, n_min / v_lo, n_min / v_hi)
+            knot[s0:s1] = q0 / np.maximum(np.hypot(cx, cy) ** 3, 1e-300)
+    # 0/0 (a piece that stops and does not bend) stays unknown: infinite
+    hi[np.isnan(hi)] = np.inf
+    lo[np.isnan(lo)] = -np.inf
+    return lo, hi, long, knot
+
+
+def _piece_lengths(c: np.ndarray, h: np.ndarray, halves: int = 1, points: int = 10) -> np.ndarray:
+    """Length of every piece: ``points``-point Gauss-Legendre on ``halves`` sub-steps.
 
     ``c`` per coordinate, (2, 4, m).  One step is exact to rounding for the
     nearly constant speed of chord-parametrized pieces (the ellipse
     perimeter test holds it to 1e-8).
     """
-    nodes, weights = np.polynomial.legendre.leggauss(10)
+    nodes, weights = np.polynomial.legendre.leggauss(points)
     total = np.zeros(len(h))
-    for k in range(halves):
-        u = (k + (nodes + 1.0) / 2.0) / halves  # (10,) in [0, 1]
-        part = np.zeros(len(h))
-        for node, weight in zip(u, weights):
-            x = h * node
-            dx = (3.0 * c[0, 0] * x + 2.0 * c[0, 1]) * x + c[0, 2]
-            dy = (3.0 * c[1, 0] * x + 2.0 * c[1, 1]) * x + c[1, 2]
-            part += np.hypot(dx, dy) * (weight / 2.0)
-        total += part * h / halves
+    for s0 in range(0, len(h), _CHUNK):  # chunks keep the temporaries in cache
+        s1 = min(s0 + _CHUNK, len(h))
+        hh, cc = h[s0:s1], c[:, :, s0:s1]
+        for k in range(halves):
+            u = (k + (nodes + 1.0) / 2.0) / halves  # (10,) in [0, 1]
+            part = np.zeros(s1 - s0)
+            for node, weight in zip(u, weights):
+                x = hh * node
+                dx = (3.0 * cc[0, 0] * x + 2.0 * cc[0, 1]) * x + cc[0, 2]
+                dy = (3.0 * cc[1, 0] * x + 2.0 * cc[1, 1]) * x + cc[1, 2]
+                part += np.hypot(dx, dy) * (weight / 2.0)
+            total[s0:s1] += part * hh / halves
     return total
 
 
-def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True) -> Samples:
+#: Samples on a contour made of short pieces: at least one every
+#: length / GEOMETRIC_SAMPLES (as many as ``per_piece`` gives a contour of
+#: few pieces).
+GEOMETRIC_SAMPLES = 4096
+#: Largest turn of the tangent (rad) from one geometric sample to the next.
+MAX_TURN = 0.01
+#: A piece between two geometric samples is sampled on its own when its
+#: curvature bounds leave the samples' range by more than ENVELOPE_RTOL × the
+#: larger |κ| of the two plus NOISE_FACTOR × the curvature noise (the robust
+#: spread of κ's second differences from knot to knot, over √6).
+ENVELOPE_RTOL = 0.02
+NOISE_FACTOR = 6.0
+#: Rounds of checking the pieces against their samples before every piece
+#: is sampled on its own.
+_ROUNDS = 12
+
+
+def _base_samples(h, per_piece, own, pick, end_pieces):
+    """(piece, offset, is-a-piece-end) of the base samples, in order along the
+    contour: per_piece evenly in the parameter of each piece sampled on its
+    own, the start of each picked piece, each piece end in ``end_pieces``."""
+    counts = np.where(own, per_piece, pick.astype(np.int64))
+    idx = np.repeat(np.arange(len(h)), counts)
+    first = np.cumsum(counts) - counts
+    j = np.arange(len(idx)) - first[idx]
+    x = h[idx] * (j / per_piece)
+    # insert a piece's end after its last sample (no sort of the whole array)
+    at = (first + counts)[end_pieces]
+    idx = np.insert(idx, at, end_pieces)
+    x = np.insert(x, at, h[end_pieces])
+    endflag = np.insert(np.zeros(len(j), bool), at, True)
+    return idx, x, endflag
+
+
+def _geometric(c, h, per_piece, is_corner, end_pieces, bind, max_step):
+    """Which pieces get their own samples, the base samples, and which
+    pieces are short.
+
+    A piece no longer than half the geometric step there (at most
+    length / GEOMETRIC_SAMPLES and ``max_step``, and at most MAX_TURN / its
+    largest |κ|) is short.  A run of short pieces is sampled by geometry:
+    one sample at the start of the run, then one at the start of each piece
+    where the run's length counted in steps passes a whole number.  The
+    short pieces between two such samples (a group) get their own samples
+    after all when their curvature bounds (exact numerator, bounded speed:
+    :func:`_curvature_bounds`) show
+
+    * a bend of at least half ``bind`` (a limit of the cut may bind there);
+    * a left turn tighter than the tightest left turn sampled, or a right
+      turn tighter than the tightest right turn (unless below 1e-4 of the
+      largest |κ| sampled: straight for any cutting purpose);
+    * curvature outside the range of the two samples either side of the
+      group, beyond ENVELOPE_RTOL × the larger |κ| of the two plus
+      NOISE_FACTOR × the curvature noise.
+
+    A group sampled on its own keeps the samples at its two ends, so the
+    other groups' checks stand: one pass decides.
+    """
+    m = len(h)
+    lo, hi, long, knot = _curvature_bounds(c, h)
+    kmag = np.maximum(np.abs(lo), hi)
+    total = float(long.sum())
+    step = total / GEOMETRIC_SAMPLES
+    if max_step is not None and max_step > 0:
+        step = min(step, float(max_step))
+    with np.errstate(divide="ignore", invalid="ignore"):
+        step_here = np.minimum(step, MAX_TURN / kmag)
+        short = long <= 0.5 * step_here
+    if bind is not None and bind > 0:
+        short &= kmag < 0.5 * bind
+    own = ~short
+    if not short.any():
+        return (own, *_base_samples(h, per_piece, own, own, end_pieces), short)
+    # the curvature noise from knot to knot (robust: features are few)
+    noise = 0.0
+    if m > 2:
+        d2 = knot[2:] - 2.0 * knot[1:-1] + knot[:-2]
+        noise = 1.4826 * float(np.median(np.abs(d2))) / np.sqrt(6.0)
+    floor = NOISE_FACTOR * noise + 1e-9 / max(total, 1e-300)
+    # the picks: where the run's length in steps passes a whole number
+    with np.errstate(divide="ignore", invalid="ignore"):
+        w = np.where(short, long / step_here, 0.0)
+    mu = np.cumsum(w)
+    mu -= w
+    whole = np.floor(mu)
+    pick = np.r_[True, whole[1:] != whole[:-1]]
+    pick |= np.r_[True, own[:-1]] | is_corner[:m]
+    pick &= short
+    idx, x, endflag = _base_samples(h, per_piece, own, pick, end_pieces)
+    _, d1, d2s = _derivs(c, idx, x)
+    k = _curv(d1, d2s)
+    # the groups: short pieces from one pick to the next pick or own piece
+    cp = np.flatnonzero(short)
+    first = np.flatnonzero(pick[cp])  # each group's first place in cp
+    last = np.r_[first[1:], len(cp)] - 1
+    # (a gap in cp, own pieces, is always followed by a pick: every run of
+    # short pieces starts with one, so no group spans a gap)
+    g_lo = np.minimum.reduceat(lo[cp], first)
+    g_hi = np.maximum.reduceat(hi[cp], first)
+    p0, p1 = cp[first], cp[last]
+    # the samples either side: the group's first pick, and the end of its
+    # last piece where that is a sample, else the next piece's start
+    at_end = np.isin(p1, end_pieces)
+    q_piece = np.where(at_end, p1, p1 + 1)
+    q_x = np.where(at_end, h[p1], 0.0)
+    _, e1, e2 = _derivs(c, np.r_[p0, q_piece], np.r_[np.zeros(len(p0)), q_x])
+    ke = _curv(e1, e2)
+    ka, kb = ke[:len(p0)], ke[len(p0):]
+    tol = ENVELOPE_RTOL * np.maximum(np.abs(ka), np.abs(kb)) + floor
+    zero = max(1e-9 / max(total, 1e-300), 1e-4 * float(np.abs(k).max()))
+    left = max(float(k.max()), zero)
+    right = max(float(-k.min()), zero)
+    bad = (g_hi > np.maximum(ka, kb) + tol) | (g_lo < np.minimum(ka, kb) - tol)
+    bad |= (g_hi > left) | (-g_lo > right)
+    if bad.any():
+        # every piece of a bad group: from its first place in cp to its last
+        mark = np.zeros(len(cp) + 1, np.int64)
+        np.add.at(mark, first[bad], 1)
+        np.add.at(mark, last[bad] + 1, -1)
+        own[cp[np.cumsum(mark[:-1]) > 0]] = True
+        pick &= ~own
+        idx, x, endflag = _base_samples(h, per_piece, own, pick, end_pieces)
+    return own, idx, x, endflag, short
+
+
+def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True,
+                   bind: float | None = None, max_step: float | None = None) -> Samples:
     """Sample ``contour`` densely enough for the checks.
 
     Parameters
@@ -188,9 +387,16 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     contour : Contour
     per_piece : int or None
         Samples per cubic piece; None chooses 4 to 1024 so that there are at
-        least about 4096 in all.
+        least about 4096 in all, and samples runs of short pieces by their
+        geometry (see the module notes).  Given, every piece gets them.
     refine : bool
         Add the local maxima of |κ| found by golden-section search.
+    bind : float or None
+        Curvature (1/mm) from which some limit of the cut may bind (tool
+        reach, acceleration, block rate): a piece that may bend half as
+        tight is sampled on its own.
+    max_step : float or None
+        Longest step (mm) between samples placed by geometry.
 
     Returns
     -------
@@ -205,13 +411,13 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     m = len(breaks) - 1
     h = np.diff(breaks)
     closed = bool(contour.closed)
+    by_geometry = per_piece is None
     if per_piece is None:
         per_piece = int(np.clip(np.ceil(4096 / m), 4, 1024))
 
     # -- corners: listed ones plus any break where the tangent jumps ----------
     inner = np.arange(1, m)
-    _, d_end, _ = _derivs(c, np.arange(m), h)  # end of every piece
-    _, d_start, _ = _derivs(c, np.arange(m), np.zeros(m))  # start of every piece
+    d_start, d_end = _piece_ends(c, h)
     tin = d_end[inner - 1]
     tout = d_start[inner]
     turn_in = turn_angle(tin, tout)
@@ -227,18 +433,22 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
         seam_corner = False
     is_corner[0] = is_corner[m] = False
 
-    # -- base samples: per_piece per piece, plus piece ends at corners --------
-    j = np.arange(per_piece) / per_piece
-    idx = np.repeat(np.arange(m), per_piece)
-    x = (h[:, None] * j[None, :]).ravel()
+    # -- base samples: per_piece on each piece sampled on its own, one every
+    # geometric step on runs of short pieces, plus piece ends at corners ----
     end_pieces = np.flatnonzero(is_corner[1:m]) if m > 1 else np.zeros(0, int)  # piece p ends at corner p+1
     end_pieces = np.r_[end_pieces, m - 1]
-    # the base samples are in (piece, offset) order: insert a piece's end
-    # after its last sample (no sort of the whole array)
-    at = (end_pieces + 1) * per_piece
-    idx = np.insert(idx, at, end_pieces)
-    x = np.insert(x, at, h[end_pieces])
-    endflag = np.insert(np.zeros(m * per_piece, bool), at, True)
+    own = np.ones(m, bool)
+    if by_geometry and m > 1:
+        own, idx, x, endflag, short = _geometric(c, h, per_piece, is_corner, end_pieces, bind, max_step)
+        # short pieces: 3 Gauss points are exact to rounding on so short a bend
+        piece_len = np.empty(m)
+        piece_len[~short] = _piece_lengths(c[:, :, ~short], h[~short])
+        piece_len[short] = _piece_lengths(c[:, :, short], h[short], points=3)
+    else:
+        idx, x, endflag = _base_samples(h, per_piece, own, own, end_pieces)
+        piece_len = _piece_lengths(c, h)
+    cum = np.r_[0.0, np.cumsum(piece_len)]
+    geometric = int(np.count_nonzero(~own))
 
     if refine:
         _, d1, d2 = _derivs(c, idx, x)
@@ -259,8 +469,6 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     tangent = d1 / np.maximum(speed, 1e-300)[:, None]
 
     # -- arc length: trapezoid inside pieces, rescaled to exact piece lengths --
-    piece_len = _piece_lengths(c, h)
-    cum = np.r_[0.0, np.cumsum(piece_len)]
     dt = np.diff(x)
     seg = 0.5 * (speed[1:] + speed[:-1]) * dt
     seg[idx[1:] != idx[:-1]] = 0.0
@@ -269,8 +477,9 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     partial -= np.repeat(partial[first], np.diff(np.r_[first, len(idx)]))
     # the trapezoid over the whole piece, closed up with the piece's end speed
     last = np.r_[first[1:] - 1, len(idx) - 1]
-    sp_end = np.hypot(d_end[:, 0], d_end[:, 1])
-    total = partial[last] + 0.5 * (speed[last] + sp_end[idx[last]]) * (h[idx[last]] - x[last])
+    d_last = d_end[idx[last]]
+    sp_end = np.hypot(d_last[:, 0], d_last[:, 1])
+    total = partial[last] + 0.5 * (speed[last] + sp_end) * (h[idx[last]] - x[last])
     scale = np.ones(m)
     ok = total > 0
     pieces_here = idx[first]
@@ -294,4 +503,4 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
         corner[0] = corner[-1] = True
         turn[-1] = seam_turn
     t = breaks[idx] + x
-    return Samples(t, p, s, kappa, tangent, turn, corner, closed, float(cum[m]))
+    return Samples(t, p, s, kappa, tangent, turn, corner, closed, float(cum[m]), geometric)
