@@ -227,3 +227,20 @@ def test_feed_plan_and_tight_spots_match_four_samples_per_piece(monkeypatch, dia
     got = np.array([p[2] for p in rep.inflections])
     was = np.array([p[2] for p in old.inflections])
     assert np.abs(got - was).max() < 1e-3
+
+
+def test_tool_center_length_on_noisy_short_pieces_is_the_contour_length_plus_2_pi_r():
+    # (sources: turning-tangents, farouki-neff-1990) the tool-center path
+    # of a closed counter-clockwise contour cut outside with radius r,
+    # where the tool reaches everywhere, is ∫(1 + rκ) ds = L + 2πr.  10^5
+    # points with 0.1 µm of noise, fitted exactly, make κ wiggle by about
+    # its own size from piece to piece: samples a geometric step apart
+    # must not read that wiggle into the length.
+    rng = np.random.default_rng(7)
+    pts = _cam(100_000) + rng.normal(0.0, 1e-7, (100_000, 2))
+    c = fit(pts, closed=True)
+    rep = check(c, FAST, Tool(2.0), Cut(side="outside"))
+    assert not rep.tight_spots
+    S = sample_contour(c, **sampling_limits(FAST, Tool(2.0), Cut(side="outside")))
+    assert S.geometric > 50_000
+    assert rep.path_length == pytest.approx(c.length + 2 * np.pi * 1.0, rel=1e-9)

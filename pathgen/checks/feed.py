@@ -292,6 +292,17 @@ def speed_limits(samples, machine: Machine, tool: Tool, cut: Cut, *, sign=None) 
     # the arc of radius r round each corner that points at the tool.
     g = np.where(reach, 0.0, np.maximum(gap, 0.0))
     step = np.diff(S.s) * 0.5 * (g[1:] + g[:-1])
+    if d != 0 and getattr(S, "geometric", 0):
+        # samples a geometric step apart: the trapezoid on κ would miss what
+        # κ does in between (noise bends the length), but ∫κ ds is the
+        # tangent's turn, so ∫(1 − dκ) ds = Δs − d·Δθ exactly where the tool
+        # reaches both ends (the step turns by at most about 0.015 rad)
+        from ..geometry import turn_angle
+
+        ds = np.diff(S.s)
+        exact = ds - d * turn_angle(S.tangent[:-1], S.tangent[1:])
+        use = (ds > 0) & (g[:-1] > 0) & (g[1:] > 0)
+        step = np.where(use, np.maximum(exact, 0.0), step)
     if d != 0:
         firsts = np.flatnonzero(pair_first & convex_corner)
         inner = firsts[firsts < len(step)]

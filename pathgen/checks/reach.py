@@ -264,7 +264,9 @@ def _narrowest_disc(S, sign, most: int = 1500) -> float:
     contour points more than two sample spacings apart along the contour
     (closer ones measure the curvature, which is counted exactly).
 
-    Pairs are searched on at most ``most`` evenly spread samples; around the
+    Pairs are searched on at most ``most`` samples evenly spread in index
+    (in arc length where runs of short pieces were sampled by geometry,
+    the samples then being uneven); around the
     16 narrowest, the point and its contact are searched again, on finer
     and finer samples down to every one (the cost stays about most²
     whatever the number of samples)."""
@@ -274,6 +276,12 @@ def _narrowest_disc(S, sign, most: int = 1500) -> float:
     normal = sign * np.stack([-S.tangent[:, 1], S.tangent[:, 0]], axis=1)
     step = max(1, -(-n_all // most))
     sub = np.arange(0, n_all, step)
+    if getattr(S, "geometric", 0) and step > 1:
+        # uneven samples: spread the search evenly in arc length, and let
+        # the windows round a pair reach the next search sample either side
+        sub = np.unique(np.searchsorted(S.s, np.linspace(0.0, S.length, most, endpoint=False)))
+        sub = sub[sub < n_all]
+        step = int(np.diff(np.r_[sub, sub[0] + n_all if S.closed else n_all - 1]).max())
     skip = 2.0 * S.length / len(sub)
     args = (S.length, S.closed, skip)
     rho = _disc_radii(S.xy[sub], normal[sub], S.xy[sub], S.s[sub], S.s[sub], *args)

@@ -205,24 +205,32 @@ def _curvature_bounds(c: np.ndarray, h: np.ndarray):
         q0 = 2.0 * (cx * by - cy * bx)
         n_end = (q2 * hh + q1) * hh + q0
         with np.errstate(divide="ignore", invalid="ignore"):
-            xv = -q1 / (2.0 * q2)
-        xv = np.where(np.isfinite(xv), np.clip(xv, 0.0, hh), 0.0)
+            xv = q1 / (-2.0 * q2)
+        np.maximum(xv, 0.0, out=xv)  # NaN (0/0) stays NaN
+        np.minimum(xv, hh, out=xv)
+        xv[np.isnan(xv)] = 0.0
         n_mid = (q2 * xv + q1) * xv + q0
         n_max = np.maximum(np.maximum(q0, n_end), n_mid)
         n_min = np.minimum(np.minimum(q0, n_end), n_mid)
         half = 0.5 * hh
-        vx = (3.0 * ax * half + 2.0 * bx) * half + cx
-        vy = (3.0 * ay * half + 2.0 * by) * half + cy
-        v_mid = np.hypot(vx, vy)
-        acc = 2.0 * np.maximum(np.hypot(bx, by), np.hypot(3.0 * ax * hh + bx, 3.0 * ay * hh + by))
-        v_top = v_mid + acc * half
+        a3x, a3y = 3.0 * ax, 3.0 * ay
+        vx = (a3x * half + 2.0 * bx) * half + cx
+        vy = (a3y * half + 2.0 * by) * half + cy
+        v_mid = np.sqrt(vx * vx + vy * vy)
+        ex, ey = a3x * hh + bx, a3y * hh + by
+        slack = np.maximum(bx * bx + by * by, ex * ex + ey * ey)
+        np.sqrt(slack, out=slack)
+        slack *= hh  # (h/2)·max|P''|, |P''| = 2·|b + 3a·x|
+        v_top = v_mid + slack
         long[s0:s1] = v_top * hh
-        v_lo = np.maximum(v_mid - acc * half, 0.0) ** 3
-        v_hi = v_top ** 3
+        v_lo = np.maximum(v_mid - slack, 0.0)
+        v_lo = v_lo * v_lo * v_lo
+        v_hi = v_top * v_top * v_top
         with np.errstate(divide="ignore", invalid="ignore"):
-            hi[s0:s1] = np.where(n_max > 0, n_max / v_lo, n_max / v_hi)
-            lo[s0:s1] = np.where(n_min < 0, n_min / v_lo, n_min / v_hi)
-            knot[s0:s1] = q0 / np.maximum(np.hypot(cx, cy) ** 3, 1e-300)
+            hi[s0:s1] = n_max / np.where(n_max > 0, v_lo, v_hi)
+            lo[s0:s1] = n_min / np.where(n_min < 0, v_lo, v_hi)
+            sp = np.sqrt(cx * cx + cy * cy)
+            knot[s0:s1] = q0 / np.maximum(sp * sp * sp, 1e-300)
     # 0/0 (a piece that stops and does not bend) stays unknown: infinite
     hi[np.isnan(hi)] = np.inf
     lo[np.isnan(lo)] = -np.inf
@@ -241,13 +249,14 @@ def _piece_lengths(c: np.ndarray, h: np.ndarray, halves: int = 1, points: int = 
     for s0 in range(0, len(h), _CHUNK):  # chunks keep the temporaries in cache
         s1 = min(s0 + _CHUNK, len(h))
         hh, cc = h[s0:s1], c[:, :, s0:s1]
+        a3x, a3y, b2x, b2y = 3.0 * cc[0, 0], 3.0 * cc[1, 0], 2.0 * cc[0, 1], 2.0 * cc[1, 1]
         for k in range(halves):
-            u = (k + (nodes + 1.0) / 2.0) / halves  # (10,) in [0, 1]
+            u = (k + (nodes + 1.0) / 2.0) / halves  # (points,) in [0, 1]
             part = np.zeros(s1 - s0)
             for node, weight in zip(u, weights):
                 x = hh * node
-                dx = (3.0 * cc[0, 0] * x + 2.0 * cc[0, 1]) * x + cc[0, 2]
-                dy = (3.0 * cc[1, 0] * x + 2.0 * cc[1, 1]) * x + cc[1, 2]
+                dx = (a3x * x + b2x) * x + cc[0, 2]
+                dy = (a3y * x + b2y) * x + cc[1, 2]
                 part += np.hypot(dx, dy) * (weight / 2.0)
             total[s0:s1] += part * hh / halves
     return total
@@ -440,10 +449,12 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     own = np.ones(m, bool)
     if by_geometry and m > 1:
         own, idx, x, endflag, short = _geometric(c, h, per_piece, is_corner, end_pieces, bind, max_step)
-        # short pieces: 3 Gauss points are exact to rounding on so short a bend
-        piece_len = np.empty(m)
-        piece_len[~short] = _piece_lengths(c[:, :, ~short], h[~short])
-        piece_len[short] = _piece_lengths(c[:, :, short], h[short], points=3)
+        # short pieces: 3 Gauss points are exact to rounding on so short a
+        # bend (they are the many); the others get 10 as below
+        piece_len = _piece_lengths(c, h, points=3)
+        longer = np.flatnonzero(~short)
+        if longer.size:
+            piece_len[longer] = _piece_lengths(np.ascontiguousarray(c[:, :, longer]), h[longer])
     else:
         idx, x, endflag = _base_samples(h, per_piece, own, own, end_pieces)
         piece_len = _piece_lengths(c, h)
