@@ -1,17 +1,26 @@
-"""Dense samples along a contour for the checks.
+"""Samples along a contour for the checks, sized by its geometry.
 
-Every check works on one set of samples: a few per cubic piece, evenly
-spaced in the piece's parameter, plus each local maximum of |κ| found by a
-golden-section search (so the tightest point of every bend is a sample and
-no tight spot hides between samples), plus both sides of every sharp
-corner (two samples at the same arc length, one per piece).  A corner is
-a break where the tangent direction jumps by more than 1e-6 rad (listed
-in ``Contour.corners`` or not; a listed break without a jump is smooth).
+Every check works on one set of samples.  A piece sampled on its own gets
+a few samples evenly spaced in its parameter, plus each local maximum of
+|κ| inside it found by a golden-section search (so the tightest point of
+every bend is a sample and no tight spot hides between samples).  Runs of
+short pieces (dense points) are sampled by geometry: one sample, on a
+knot, every geometric step (length/4096, ``max_step``, 0.01 rad of turn),
+and a short piece keeps samples of its own where its curvature bounds
+(computed once for all pieces from their cubic coefficients) show a
+feature the step would miss, a bend at which a limit may bind (``bind``)
+or a turn tighter than the tightest sampled: see :func:`_geometric` and
+docs/report.md, "The guarantee".  Both sides of every sharp corner are
+samples (two at the same arc length, one per piece).  A corner is a
+break where the tangent direction jumps by more than 1e-6 rad (listed in
+``Contour.corners`` or not; a listed break without a jump is smooth).
 
 Arc length at the samples: the trapezoid rule on the speed |P'(t)| inside
 each piece, rescaled so that each piece's total equals its length from
-10-point Gauss-Legendre; the error is second order in the
-sample step and never accumulates from piece to piece.
+10-point Gauss-Legendre (3-point on short pieces, exact to rounding on
+so short a bend); the error is second order in the sample step and never
+accumulates from piece to piece.  At a geometric sample (a knot) the arc
+length is the sum of the piece lengths before it.
 """
 
 from __future__ import annotations
@@ -166,18 +175,48 @@ def _refine_maxima(c, h, idx, x, kabs, iterations: int = 30):
 # -- per-piece facts, all pieces at once -----------------------------------------
 
 
-def _piece_ends(c: np.ndarray, h: np.ndarray):
-    """First derivative at the start and the end of every piece, (m, 2) each
-    (the same arithmetic as :func:`_derivs`, so the same bits)."""
-    d_start = np.ascontiguousarray(c[:, 2].T)  # P'(0) = c2 exactly
-    d_end = np.empty((len(h), 2))
+def _end_derivative(c: np.ndarray, h: np.ndarray, pieces: np.ndarray) -> np.ndarray:
+    """First derivative at the end of ``pieces``, (k, 2) (the same arithmetic
+    as :func:`_derivs`, so the same bits)."""
+    hp = h[pieces]
+    out = np.empty((len(pieces), 2))
     for k in range(2):
-        r = c[k, 0] * (3.0 * h)
-        r += 2.0 * c[k, 1]
-        r *= h
-        r += c[k, 2]
-        d_end[:, k] = r
-    return d_start, d_end
+        r = c[k, 0].take(pieces) * (3.0 * hp)
+        r += 2.0 * c[k, 1].take(pieces)
+        r *= hp
+        r += c[k, 2].take(pieces)
+        out[:, k] = r
+    return out
+
+
+def _break_turns(c: np.ndarray, h: np.ndarray):
+    """Breaks 1..m-1 where the tangent turns by more than CORNER_MIN_ANGLE,
+    and the turn there (radians, + left).
+
+    In chunks: the tangent at a piece's end against the next one's start
+    (P'(0) = c2); only where |cross| > dot·5e-7 or dot <= 0 (a turn of at
+    least that) is the angle itself taken, with :func:`turn_angle`.
+    """
+    m = len(h)
+    found, turns = [], []
+    for s0 in range(0, m - 1, _CHUNK):
+        s1 = min(s0 + _CHUNK, m - 1)
+        hh = h[s0:s1]
+        ex = (c[0, 0, s0:s1] * (3.0 * hh) + 2.0 * c[0, 1, s0:s1]) * hh + c[0, 2, s0:s1]
+        ey = (c[1, 0, s0:s1] * (3.0 * hh) + 2.0 * c[1, 1, s0:s1]) * hh + c[1, 2, s0:s1]
+        nx, ny = c[0, 2, s0 + 1:s1 + 1], c[1, 2, s0 + 1:s1 + 1]
+        cross = ex * ny - ey * nx
+        dot = ex * nx + ey * ny
+        cand = np.flatnonzero((dot <= 0) | (np.abs(cross) > 5e-7 * dot))
+        if cand.size:
+            p = s0 + cand
+            turn = turn_angle(_end_derivative(c, h, p), c[:, 2, p + 1].T)
+            keep = np.abs(turn) > CORNER_MIN_ANGLE
+            found.append(p[keep] + 1)
+            turns.append(turn[keep])
+    if not found:
+        return np.zeros(0, np.int64), np.zeros(0)
+    return np.concatenate(found), np.concatenate(turns)
 
 
 def _curvature_bounds(c: np.ndarray, h: np.ndarray):
@@ -297,8 +336,8 @@ def _base_samples(h, per_piece, own, pick, end_pieces):
 
 
 def _geometric(c, h, per_piece, is_corner, end_pieces, bind, max_step):
-    """Which pieces get their own samples, the base samples, and which
-    pieces are short.
+    """How many pieces are sampled by geometry, the base samples (piece,
+    offset, is-a-piece-end) and every piece's length.
 
     A piece no longer than half the geometric step there (at most
     length / GEOMETRIC_SAMPLES and ``max_step``, and at most MAX_TURN / its
@@ -322,47 +361,66 @@ def _geometric(c, h, per_piece, is_corner, end_pieces, bind, max_step):
     """
     m = len(h)
     lo, hi, long, knot = _curvature_bounds(c, h)
-    kmag = np.maximum(np.abs(lo), hi)
     total = float(long.sum())
     step = total / GEOMETRIC_SAMPLES
     if max_step is not None and max_step > 0:
         step = min(step, float(max_step))
-    with np.errstate(divide="ignore", invalid="ignore"):
-        step_here = np.minimum(step, MAX_TURN / kmag)
-        short = long <= 0.5 * step_here
-    if bind is not None and bind > 0:
-        short &= kmag < 0.5 * bind
-    own = ~short
-    if not short.any():
-        return (own, *_base_samples(h, per_piece, own, own, end_pieces), short)
+    half_bind = 0.5 * bind if bind is not None and bind > 0 else np.inf
+    # in chunks (a run of short pieces starts afresh at each chunk, one
+    # sample more per chunk): short pieces, picks, groups, piece lengths
+    piece_len = np.empty(m)
+    own_parts, groups = [], []
+    for s0 in range(0, m, _CHUNK):
+        s1 = min(s0 + _CHUNK, m)
+        lo_c, hi_c, long_c = lo[s0:s1], hi[s0:s1], long[s0:s1]
+        kmag = np.maximum(-lo_c, hi_c)  # max |κ| (hi >= lo)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            step_here = np.minimum(step, MAX_TURN / kmag)
+            short = (long_c <= 0.5 * step_here) & (kmag < half_bind)
+        # short pieces: 3 Gauss points are exact to rounding on so short a
+        # bend; the others get 10
+        piece_len[s0:s1] = _piece_lengths(c[:, :, s0:s1], h[s0:s1], points=3)
+        own_c = np.flatnonzero(~short)
+        if own_c.size:
+            p = own_c + s0
+            piece_len[p] = _piece_lengths(np.ascontiguousarray(c[:, :, p]), h[p])
+            own_parts.append(p)
+        if own_c.size == len(short):
+            continue
+        # the picks: where the run's length in steps passes a whole number
+        with np.errstate(divide="ignore", invalid="ignore"):
+            w = np.where(short, long_c / step_here, 0.0)
+        mu = np.cumsum(w)
+        mu -= w
+        whole = np.floor(mu)
+        pick = np.empty(len(short), bool)
+        pick[0] = True
+        np.not_equal(whole[1:], whole[:-1], out=pick[1:])
+        pick[1:] |= ~short[:-1]
+        pick |= is_corner[s0:s1]
+        pick &= short
+        # the groups: short pieces from one pick to the next pick or own
+        # piece (a gap in cp is always followed by a pick: every run of
+        # short pieces starts with one, so no group spans a gap)
+        cp = np.flatnonzero(short)
+        first = np.flatnonzero(pick[cp])
+        last = np.r_[first[1:], len(cp)] - 1
+        groups.append((cp[first] + s0, cp[last] + s0, np.minimum.reduceat(lo_c[cp], first),
+                       np.maximum.reduceat(hi_c[cp], first)))
+    own = np.concatenate(own_parts) if own_parts else np.zeros(0, np.int64)
+    j = np.arange(per_piece) / per_piece
+    if not groups:
+        return 0, *_samples_of(h, own, j, own[:0], end_pieces), piece_len
+    p0, p1, g_lo, g_hi = (np.concatenate(g) for g in zip(*groups))
     # the curvature noise from knot to knot (robust: features are few)
     noise = 0.0
     if m > 2:
-        d2 = knot[2:] - 2.0 * knot[1:-1] + knot[:-2]
-        noise = 1.4826 * float(np.median(np.abs(d2))) / np.sqrt(6.0)
+        d2 = knot[2:] - 2.0 * knot[1:-1]
+        d2 += knot[:-2]
+        np.abs(d2, out=d2)
+        noise = 1.4826 * float(np.median(d2, overwrite_input=True)) / np.sqrt(6.0)
     floor = NOISE_FACTOR * noise + 1e-9 / max(total, 1e-300)
-    # the picks: where the run's length in steps passes a whole number
-    with np.errstate(divide="ignore", invalid="ignore"):
-        w = np.where(short, long / step_here, 0.0)
-    mu = np.cumsum(w)
-    mu -= w
-    whole = np.floor(mu)
-    pick = np.r_[True, whole[1:] != whole[:-1]]
-    pick |= np.r_[True, own[:-1]] | is_corner[:m]
-    pick &= short
-    idx, x, endflag = _base_samples(h, per_piece, own, pick, end_pieces)
-    _, d1, d2s = _derivs(c, idx, x)
-    k = _curv(d1, d2s)
-    # the groups: short pieces from one pick to the next pick or own piece
-    cp = np.flatnonzero(short)
-    first = np.flatnonzero(pick[cp])  # each group's first place in cp
-    last = np.r_[first[1:], len(cp)] - 1
-    # (a gap in cp, own pieces, is always followed by a pick: every run of
-    # short pieces starts with one, so no group spans a gap)
-    g_lo = np.minimum.reduceat(lo[cp], first)
-    g_hi = np.maximum.reduceat(hi[cp], first)
-    p0, p1 = cp[first], cp[last]
-    # the samples either side: the group's first pick, and the end of its
+    # the samples either side of each group: its pick, and the end of its
     # last piece where that is a sample, else the next piece's start
     at_end = np.isin(p1, end_pieces)
     q_piece = np.where(at_end, p1, p1 + 1)
@@ -370,21 +428,35 @@ def _geometric(c, h, per_piece, is_corner, end_pieces, bind, max_step):
     _, e1, e2 = _derivs(c, np.r_[p0, q_piece], np.r_[np.zeros(len(p0)), q_x])
     ke = _curv(e1, e2)
     ka, kb = ke[:len(p0)], ke[len(p0):]
-    tol = ENVELOPE_RTOL * np.maximum(np.abs(ka), np.abs(kb)) + floor
+    # the tightest turns sampled: the picks, piece ends and own pieces
+    idx_o, x_o, _ = _samples_of(h, own, j, own[:0], end_pieces)
+    _, o1, o2 = _derivs(c, idx_o, x_o)
+    k = np.r_[ke, _curv(o1, o2)]
     zero = max(1e-9 / max(total, 1e-300), 1e-4 * float(np.abs(k).max()))
     left = max(float(k.max()), zero)
     right = max(float(-k.min()), zero)
+    tol = ENVELOPE_RTOL * np.maximum(np.abs(ka), np.abs(kb)) + floor
     bad = (g_hi > np.maximum(ka, kb) + tol) | (g_lo < np.minimum(ka, kb) - tol)
     bad |= (g_hi > left) | (-g_lo > right)
-    if bad.any():
-        # every piece of a bad group: from its first place in cp to its last
-        mark = np.zeros(len(cp) + 1, np.int64)
-        np.add.at(mark, first[bad], 1)
-        np.add.at(mark, last[bad] + 1, -1)
-        own[cp[np.cumsum(mark[:-1]) > 0]] = True
-        pick &= ~own
-        idx, x, endflag = _base_samples(h, per_piece, own, pick, end_pieces)
-    return own, idx, x, endflag, short
+    if bad.any():  # every piece of a bad group gets its own samples
+        n_in = p1[bad] - p0[bad] + 1
+        start = np.repeat(p0[bad], n_in)
+        start += np.arange(int(n_in.sum())) - np.repeat(np.cumsum(n_in) - n_in, n_in)
+        own = np.sort(np.r_[own, start])
+    geometric = m - len(own)
+    return geometric, *_samples_of(h, own, j, p0[~bad], end_pieces), piece_len
+
+
+def _samples_of(h, own, j, picks, end_pieces):
+    """(piece, offset, is-a-piece-end) in order along the contour: offsets
+    ``j`` × h on the pieces ``own`` (sorted), the start of each pick, the
+    end of each piece in ``end_pieces``."""
+    per = len(j)
+    idx = np.r_[np.repeat(own, per), picks, end_pieces]
+    x = np.r_[(h[own][:, None] * j[None, :]).ravel(), np.zeros(len(picks)), h[end_pieces]]
+    endflag = np.r_[np.zeros(len(own) * per + len(picks), bool), np.ones(len(end_pieces), bool)]
+    order = np.lexsort((x, idx))
+    return idx[order], x[order], endflag[order]
 
 
 def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True,
@@ -425,17 +497,15 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
         per_piece = int(np.clip(np.ceil(4096 / m), 4, 1024))
 
     # -- corners: listed ones plus any break where the tangent jumps ----------
-    inner = np.arange(1, m)
-    d_start, d_end = _piece_ends(c, h)
-    tin = d_end[inner - 1]
-    tout = d_start[inner]
-    turn_in = turn_angle(tin, tout)
+    # (a listed corner whose tangent does not jump is a smooth join)
+    at_break, turn_at = _break_turns(c, h)
     is_corner = np.zeros(m + 1, bool)
-    # a listed corner whose tangent does not jump is a smooth join
-    is_corner[inner] = np.abs(turn_in) > CORNER_MIN_ANGLE
+    is_corner[at_break] = True
+    turn_in = np.zeros(max(m - 1, 0))  # the turn at break p + 1, at corners
+    turn_in[at_break - 1] = turn_at
     seam_turn = 0.0
     if closed:
-        a, b = d_end[-1], d_start[0]
+        a, b = _end_derivative(c, h, np.array([m - 1]))[0], c[:, 2, 0]
         seam_turn = float(turn_angle(a, b))
         seam_corner = abs(seam_turn) > CORNER_MIN_ANGLE
     else:
@@ -446,20 +516,15 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     # geometric step on runs of short pieces, plus piece ends at corners ----
     end_pieces = np.flatnonzero(is_corner[1:m]) if m > 1 else np.zeros(0, int)  # piece p ends at corner p+1
     end_pieces = np.r_[end_pieces, m - 1]
-    own = np.ones(m, bool)
+    geometric = 0
     if by_geometry and m > 1:
-        own, idx, x, endflag, short = _geometric(c, h, per_piece, is_corner, end_pieces, bind, max_step)
-        # short pieces: 3 Gauss points are exact to rounding on so short a
-        # bend (they are the many); the others get 10 as below
-        piece_len = _piece_lengths(c, h, points=3)
-        longer = np.flatnonzero(~short)
-        if longer.size:
-            piece_len[longer] = _piece_lengths(np.ascontiguousarray(c[:, :, longer]), h[longer])
+        geometric, idx, x, endflag, piece_len = _geometric(c, h, per_piece, is_corner, end_pieces, bind,
+                                                           max_step)
     else:
+        own = np.ones(m, bool)
         idx, x, endflag = _base_samples(h, per_piece, own, own, end_pieces)
         piece_len = _piece_lengths(c, h)
     cum = np.r_[0.0, np.cumsum(piece_len)]
-    geometric = int(np.count_nonzero(~own))
 
     if refine:
         _, d1, d2 = _derivs(c, idx, x)
@@ -488,7 +553,7 @@ def sample_contour(contour, *, per_piece: int | None = None, refine: bool = True
     partial -= np.repeat(partial[first], np.diff(np.r_[first, len(idx)]))
     # the trapezoid over the whole piece, closed up with the piece's end speed
     last = np.r_[first[1:] - 1, len(idx) - 1]
-    d_last = d_end[idx[last]]
+    d_last = _end_derivative(c, h, idx[last])
     sp_end = np.hypot(d_last[:, 0], d_last[:, 1])
     total = partial[last] + 0.5 * (speed[last] + sp_end) * (h[idx[last]] - x[last])
     scale = np.ones(m)
