@@ -124,7 +124,7 @@ def test_a_bump_that_binds_nothing_and_is_not_the_tightest_turn_is_still_sampled
 
 def test_a_short_tight_notch_among_a_million_pieces_is_found_with_its_radius():
     # r(θ) = 60 − 0.3·exp(−(θ/w)²): at θ = 0, r' = 0 and r'' = 0.6/w², so
-    # κ = (r − r'')/r² (sources: curvature, polar form): w is chosen for a
+    # κ = (r − r'')/r² (sources: curvature; its polar form): w is chosen for a
     # concave radius of 1 mm, about 1.5 mm wide, among 10^6 points 0.38 µm
     # apart.  A 6 mm tool outside cannot reach into it (tool radius 3 > 1).
     n = 1_000_000
