@@ -7,7 +7,11 @@ not the absolute numbers):
    noise), with the share spent fitting for scale;
 2. the acceleration passes as cumulative minima against the plain
    sample-by-sample loop (results compared before timing);
-3. ``feeds_for_moves`` on 10³ … 10⁵ blocks.
+3. ``feeds_for_moves`` on 10³ … 10⁵ blocks;
+4. ``check`` on the cam of ``speed.py`` at 10⁵ and 10⁶ points (10⁵ only
+   with --quick) with its samples sized by the geometry against 4 samples
+   per piece (the sampling before), interleaved, medians: time, samples,
+   and the report's text compared.
 
 Run:  python benchmarks/checks.py [--quick]
 """
@@ -15,6 +19,8 @@ Run:  python benchmarks/checks.py [--quick]
 from __future__ import annotations
 
 import argparse
+import statistics
+import time
 
 import numpy as np
 
@@ -86,6 +92,38 @@ def main(argv=None):
         t = median_time(lambda: feeds_for_moves(kind, start, end, center, feed=2500.0,
                                                  machine=machine), repeat)
         print(f"{k:>8} {t:>8.4f} {1e6 * t / k:>9.2f}")
+
+
+    geometric_against_per_piece((100_000,) if args.quick else (100_000, 1_000_000), repeat)
+
+
+def geometric_against_per_piece(sizes, repeat):
+    import pathgen.checks.sampling as sampling
+    from speed import outline
+
+    real = sampling.sample_contour
+    machine, tool, cut = pathgen.Machine(), pathgen.Tool(6.0), pathgen.Cut()
+    print("\ncheck() on the cam: samples by geometry against 4 per piece (tool 6 mm outside)")
+    print(f"{'points':>9} {'geometric s':>12} {'4/piece s':>10} {'ratio':>6} {'samples':>9} {'4/piece':>9} "
+          f"{'same text':>10}")
+    for n in sizes:
+        contour = pathgen.fit(outline(n), closed=True)
+        contour.area  # computed once, as the pipeline does
+        times = {"geo": [], "old": []}
+        texts = {}
+        for _ in range(repeat):  # interleaved
+            for key in times:
+                sampling.sample_contour = real if key == "geo" else (lambda c, **kw: real(c, per_piece=4))
+                t0 = time.perf_counter()
+                texts[key] = pathgen.check(contour, machine, tool, cut).to_text()
+                times[key].append(time.perf_counter() - t0)
+        sampling.sample_contour = real
+        from pathgen.checks.feed import sampling_limits
+
+        count = len(real(contour, **sampling_limits(machine, tool, cut)))
+        geo, old = statistics.median(times["geo"]), statistics.median(times["old"])
+        print(f"{n:>9} {geo:>12.3f} {old:>10.3f} {old / geo:>6.1f} {count:>9} {4 * (len(contour.breaks) - 1):>9} "
+              f"{'yes' if texts['geo'] == texts['old'] else 'NO':>10}")
 
 
 if __name__ == "__main__":

@@ -51,6 +51,7 @@ __all__ = [
     "segment_profile",
     "chord_length",
     "cut_sign",
+    "sampling_limits",
 ]
 
 
@@ -291,6 +292,17 @@ def speed_limits(samples, machine: Machine, tool: Tool, cut: Cut, *, sign=None) 
     # the arc of radius r round each corner that points at the tool.
     g = np.where(reach, 0.0, np.maximum(gap, 0.0))
     step = np.diff(S.s) * 0.5 * (g[1:] + g[:-1])
+    if d != 0 and getattr(S, "geometric", 0):
+        # samples a geometric step apart: the trapezoid on κ would miss what
+        # κ does in between (noise bends the length), but ∫κ ds is the
+        # tangent's turn, so ∫(1 − dκ) ds = Δs − d·Δθ exactly where the tool
+        # reaches both ends (the step turns by at most about 0.015 rad)
+        from ..geometry import turn_angle
+
+        ds = np.diff(S.s)
+        exact = ds - d * turn_angle(S.tangent[:-1], S.tangent[1:])
+        use = (ds > 0) & (g[:-1] > 0) & (g[1:] > 0)
+        step = np.where(use, np.maximum(exact, 0.0), step)
     if d != 0:
         firsts = np.flatnonzero(pair_first & convex_corner)
         inner = firsts[firsts < len(step)]
@@ -300,6 +312,28 @@ def speed_limits(samples, machine: Machine, tool: Tool, cut: Cut, *, sign=None) 
             step[-1] += r * abs(turn[-1])
     return SpeedLimits(S, d, gap, Rc, step, v_prog, v_accel, v_block, v_limit, reach,
                        concave_corner)
+
+
+def sampling_limits(machine: Machine, tool: Tool, cut: Cut) -> dict:
+    """How finely the checks must sample for this cut (keywords of
+    :func:`pathgen.checks.sampling.sample_contour`).
+
+    ``bind``: the smallest |κ| (1/mm) at which a limit can bind on the
+    tool-center path.  The acceleration limit binds below the radius
+    R_a = v²/a, the block rate below R_b with B·2√(e(2R_b − e)) = v (so
+    R_b = ((v/2B)²/e + e)/2), v the programmed feed capped by the machine's;
+    the path radius is 1/|κ| − r where the contour bends toward the tool,
+    so both bind from |κ| = 1/(max(R_a, R_b) + r) on, and the tool's reach
+    (|κ| ≥ 1/r) lies beyond.  ``max_step``: r/32, the spacing of the
+    contour points the gouge test needs (None without a tool).
+    """
+    v = min(cut.feed, machine.max_feed) / 60.0
+    r = tool.radius if side_sign(cut.side) else 0.0
+    e = cut.tolerance
+    r_accel = v * v / machine.max_accel
+    r_block = ((v / (2.0 * machine.block_rate)) ** 2 / e + e) / 2.0 if e > 0 else 0.0
+    reach = max(r_accel, r_block) + r
+    return {"bind": 1.0 / reach if reach > 0 else np.inf, "max_step": r / 32.0 if r > 0 else None}
 
 
 def plan_from_limits(lim: SpeedLimits, machine: Machine, cut: Cut) -> FeedPlan:
@@ -353,7 +387,8 @@ def plan_feed(contour, machine=None, tool=None, cut=None) -> FeedPlan:
     from .sampling import sample_contour
 
     machine, tool, cut = tool_cut(machine, tool, cut)
-    lim = speed_limits(sample_contour(contour), machine, tool, cut, sign=cut_sign(contour, cut))
+    S = sample_contour(contour, **sampling_limits(machine, tool, cut))
+    lim = speed_limits(S, machine, tool, cut, sign=cut_sign(contour, cut))
     return plan_from_limits(lim, machine, cut)
 
 

@@ -15,7 +15,7 @@ import math
 
 import numpy as np
 
-__all__ = ["radius_extremes", "inflections", "largest_tool_diameter", "gouges", "material_left"]
+__all__ = ["radius_extremes", "inflections", "place_inflections", "largest_tool_diameter", "gouges", "material_left"]
 
 #: A tool position cuts into the contour when a contour point lies closer
 #: than r·(1 − GOUGE_RTOL) to it.
@@ -94,6 +94,42 @@ def inflections(samples, size: float, *, min_bow: float = 0.0) -> np.ndarray:
     order = np.argsort(s, kind="stable")
     s, before, after = s[order], np.concatenate(before)[order], np.concatenate(after)[order]
     return _cancel_wiggles(S, s, before, after, corner_count, max(WIGGLE_BOW * size, min_bow))
+
+
+def place_inflections(contour, samples, found: np.ndarray, points: int = 257) -> np.ndarray:
+    """Inflections found on samples placed by geometry, placed on the contour.
+
+    Where runs of short pieces have a sample every geometric step (see
+    :mod:`pathgen.checks.sampling`), κ interpolated between samples places
+    a zero to within a fraction of the step only: each inflection is
+    placed again where the tangent angle turns back (its extremum), on
+    ``points`` evenly spread parameters from two samples before it to one
+    after it.  The angle is the integral of κ, so noise in κ hardly moves
+    that extremum.  Unchanged when every piece has its own samples, or
+    where the window holds a corner or shows no extremum inside.
+    """
+    S = samples
+    found = np.asarray(found, dtype=float)
+    if found.size == 0 or not getattr(S, "geometric", 0):
+        return found
+    n = len(S)
+    i = np.searchsorted(S.s, found)
+    a = np.maximum(i - 2, 0)
+    b = np.minimum(i + 1, n - 1)
+    u = np.linspace(0.0, 1.0, points)
+    t = S.t[a, None] + (S.t[b] - S.t[a])[:, None] * u[None, :]
+    d = np.asarray(contour(t.ravel(), nu=1)).reshape(len(found), points, 2)
+    th = np.unwrap(np.arctan2(d[..., 1], d[..., 0]), axis=1)
+    ends_hi = np.maximum(th[:, 0], th[:, -1])
+    ends_lo = np.minimum(th[:, 0], th[:, -1])
+    rise = th.max(axis=1) - ends_hi
+    fall = ends_lo - th.min(axis=1)
+    j = np.where(rise >= fall, th.argmax(axis=1), th.argmin(axis=1))
+    corners = np.r_[0, np.cumsum(S.corner)]
+    ok = (np.maximum(rise, fall) > 0) & (j > 0) & (j < points - 1) & (corners[b + 1] == corners[a])
+    t_new = t[np.arange(len(found)), j]
+    out = np.where(ok, np.interp(t_new, S.t, S.s), found)
+    return np.sort(out)
 
 
 #: A wiggle between two curvature sign changes that bows less than this
@@ -238,7 +274,9 @@ def _narrowest_disc(S, sign, most: int = 1500) -> float:
     contour points more than two sample spacings apart along the contour
     (closer ones measure the curvature, which is counted exactly).
 
-    Pairs are searched on at most ``most`` evenly spread samples; around the
+    Pairs are searched on at most ``most`` samples evenly spread in index
+    (in arc length where runs of short pieces were sampled by geometry,
+    the samples then being uneven); around the
     16 narrowest, the point and its contact are searched again, on finer
     and finer samples down to every one (the cost stays about most²
     whatever the number of samples)."""
@@ -248,6 +286,12 @@ def _narrowest_disc(S, sign, most: int = 1500) -> float:
     normal = sign * np.stack([-S.tangent[:, 1], S.tangent[:, 0]], axis=1)
     step = max(1, -(-n_all // most))
     sub = np.arange(0, n_all, step)
+    if getattr(S, "geometric", 0) and step > 1:
+        # uneven samples: spread the search evenly in arc length, and let
+        # the windows round a pair reach the next search sample either side
+        sub = np.unique(np.searchsorted(S.s, np.linspace(0.0, S.length, most, endpoint=False)))
+        sub = sub[sub < n_all]
+        step = int(np.diff(np.r_[sub, sub[0] + n_all if S.closed else n_all - 1]).max())
     skip = 2.0 * S.length / len(sub)
     args = (S.length, S.closed, skip)
     rho = _disc_radii(S.xy[sub], normal[sub], S.xy[sub], S.s[sub], S.s[sub], *args)
@@ -313,13 +357,23 @@ def gouges(samples, d: float) -> np.ndarray:
     # Many contour points lie just beyond r from each center, which makes a
     # nearest-point search on a dense contour slow; contour points every
     # r/32 or closer are enough to see a gouge deeper than about r/8000.
-    spacing = S.length / max(len(S) - 1, 1)
-    every = max(1, int((r / 32.0) / max(spacing, 1e-300)))
-    ref = S.xy[::every]
-    # tool positions every r/256 or closer; a sample between two tested
-    # positions gouges when either of them does
-    step = max(1, int((r / 256.0) / max(spacing, 1e-300)))
-    tested = np.r_[np.arange(0, len(S), step), len(S) - 1] if step > 1 else np.arange(len(S))
+    if getattr(S, "geometric", 0):
+        # uneven samples (runs of short pieces sampled by geometry, their
+        # step at most r/32 in a check): pick by arc length, the first
+        # sample in each r/64 (r/512) of it, so that contour points lie
+        # r/32 apart or closer and tool positions r/256 or closer (or every
+        # sample where the samples are farther apart)
+        ref = S.xy[_first_in_bins(S.s, r / 64.0)]
+        tested = np.unique(np.r_[_first_in_bins(S.s, r / 512.0), len(S) - 1])
+        step = 1 if len(tested) == len(S) else 2
+    else:
+        spacing = S.length / max(len(S) - 1, 1)
+        every = max(1, int((r / 32.0) / max(spacing, 1e-300)))
+        ref = S.xy[::every]
+        # tool positions every r/256 or closer; a sample between two tested
+        # positions gouges when either of them does
+        step = max(1, int((r / 256.0) / max(spacing, 1e-300)))
+        tested = np.r_[np.arange(0, len(S), step), len(S) - 1] if step > 1 else np.arange(len(S))
     dist = nearest_distance(ref, centers[tested], bound)  # numpy when small, else a KD-tree
     hit = dist < bound
     if step == 1:
@@ -328,6 +382,14 @@ def gouges(samples, d: float) -> np.ndarray:
     lo = np.minimum(np.searchsorted(tested, pos, side="right") - 1, len(tested) - 1)
     hi = np.minimum(lo + 1, len(tested) - 1)
     return hit[lo] | hit[hi]
+
+
+def _first_in_bins(s: np.ndarray, width: float) -> np.ndarray:
+    """Index of the first of the sorted arc lengths ``s`` in each bin of
+    ``width`` that holds any (so consecutive picks are less than two bins
+    apart, or as far apart as the samples themselves)."""
+    b = np.floor(s / width)
+    return np.flatnonzero(np.r_[True, b[1:] != b[:-1]])
 
 
 def _window(s0: float, s1: float, margin: float, length: float, closed: bool):

@@ -21,7 +21,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .._options import CAUTION, MM_PER_INCH, UNITS, check_option
-from .feed import FeedPlan, tool_cut, cut_sign, plan_from_limits, speed_limits
+from .feed import FeedPlan, tool_cut, cut_sign, plan_from_limits, sampling_limits, speed_limits
 from .machine import Cut, Machine, Tool
 
 __all__ = ["check", "CheckReport", "TightSpot", "RadiusAt", "REASONS", "CAUTION", "REPORT_VERSION"]
@@ -307,11 +307,11 @@ def check(contour, machine=None, tool=None, cut=None, *, noise_reference=None) -
     >>> check(hole, Machine(), Tool(6), Cut(side="inside")).tool_cannot_reach
     False
     """
-    from .reach import inflections, largest_tool_diameter, material_left, radius_extremes
+    from .reach import inflections, largest_tool_diameter, material_left, place_inflections, radius_extremes
     from .sampling import sample_contour
 
     machine, tool, cut = tool_cut(machine, tool, cut)
-    S, kinks = _smooth_kinks(sample_contour(contour))
+    S, kinks = _smooth_kinks(sample_contour(contour, **sampling_limits(machine, tool, cut)))
     closed = S.closed
     area = orientation = None
     if closed:
@@ -340,7 +340,7 @@ def check(contour, machine=None, tool=None, cut=None, *, noise_reference=None) -
     rmin = min((v for v in (rl, rr) if v is not None), key=lambda v: v.radius, default=None)
     firsts = np.flatnonzero(S.corner & (S.turn != 0))
     corners = tuple((*at(i), math.degrees(float(S.turn[i]))) for i in firsts)
-    infl_s = inflections(S, size, min_bow=_noise_bow(contour))
+    infl_s = place_inflections(contour, S, inflections(S, size, min_bow=_noise_bow(contour)))
     if infl_s.size:
         t_infl = np.interp(infl_s, S.s, S.t)
         p_infl = contour(t_infl)
