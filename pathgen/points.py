@@ -710,9 +710,20 @@ def _merge_repeats(p, tol):
     if n < 2:
         return None
     d = np.hypot(*np.diff(p, axis=0).T)
-    cand = (np.flatnonzero(d <= tol) + 1).tolist()
-    if not cand:
+    close = np.flatnonzero(d <= tol) + 1
+    if len(close) == 0:
         return None
+    # the usual case in one pass: close points apart from each other, each
+    # one's neighbours far from one another, so every close point is judged
+    # against its kept predecessor and its successor is kept (what the loop
+    # below finds then, point for point)
+    if close[-1] < n - 1 and (len(close) == 1 or np.diff(close).min() > 1):
+        a, b = p[close - 1], p[close + 1]
+        if np.all(np.hypot(b[:, 0] - a[:, 0], b[:, 1] - a[:, 1]) > tol):
+            keep = np.ones(n, bool)
+            keep[close] = False
+            return keep
+    cand = close.tolist()
     import bisect
 
     keep = np.ones(n, bool)

@@ -367,3 +367,38 @@ def test_crowded_points_warned():
     assert o.warnings == ()
     c = fit_outline(o)
     assert np.abs(np.hypot(*c(np.linspace(*c.domain, 20001)).T) - 20.0).max() < 1e-4
+
+
+def test_repeats_merged_in_one_pass_as_the_point_by_point_rule_does():
+    # Derived (the merge rule itself): a point closer than tol to the last
+    # point kept is dropped. The one-pass shortcut for isolated close points
+    # must give the same points as the rule applied one point at a time, on
+    # dense walks with steps around tol (alternating close and far steps,
+    # runs of close steps, close last points).
+    from pathgen.points import _merge_repeats
+
+    def by_rule(p, tol):
+        keep, last = [True], p[0]
+        for q in p[1:]:
+            keep.append(bool(np.hypot(*(q - last)) > tol))
+            if keep[-1]:
+                last = q
+        return np.array(keep)
+
+    rng = np.random.default_rng(21)
+    for case in range(300):
+        n = int(rng.integers(2, 60))
+        steps = rng.uniform(0.2, 1.8, n - 1) if case % 3 else np.where(rng.random(n - 1) < 0.5, 0.6, 1.4)
+        ang = rng.uniform(0, 2 * np.pi, n - 1)
+        p = np.vstack([[0.0, 0.0], np.cumsum(np.c_[steps * np.cos(ang), steps * np.sin(ang)], axis=0)])
+        got = _merge_repeats(p, 1.0)
+        assert np.array_equal(np.ones(n, bool) if got is None else got, by_rule(p, 1.0))
+    # dense points along a gentle curve, every other step short: the shape of
+    # a scan written finer than the merge distance (the one-pass case)
+    for case in range(50):
+        n = int(rng.integers(3, 400))
+        steps = np.where(np.arange(n - 1) % 2 == case % 2, rng.uniform(0.3, 0.99, n - 1), rng.uniform(1.01, 1.5, n - 1))
+        ang = np.cumsum(rng.normal(0, 0.05, n - 1))
+        p = np.vstack([[0.0, 0.0], np.cumsum(np.c_[steps * np.cos(ang), steps * np.sin(ang)], axis=0)])
+        got = _merge_repeats(p, 1.0)
+        assert got is not None and np.array_equal(got, by_rule(p, 1.0))
