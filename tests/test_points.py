@@ -402,3 +402,11 @@ def test_repeats_merged_in_one_pass_as_the_point_by_point_rule_does():
         p = np.vstack([[0.0, 0.0], np.cumsum(np.c_[steps * np.cos(ang), steps * np.sin(ang)], axis=0)])
         got = _merge_repeats(p, 1.0)
         assert got is not None and np.array_equal(got, by_rule(p, 1.0))
+    # runs of 1 to 4 short steps (0.55-0.99) between longer ones: every other
+    # point of a run goes, as long as the points around it lie apart
+    for case in range(100):
+        pattern = np.concatenate([np.r_[np.full(int(rng.integers(1, 5)), 0.0), 1.0] for _ in range(40)])
+        steps = np.where(pattern == 0.0, rng.uniform(0.55, 0.99, len(pattern)), rng.uniform(1.01, 1.6, len(pattern)))
+        ang = np.cumsum(rng.normal(0, 0.3 if case % 2 else 0.02, len(pattern)))
+        p = np.vstack([[0.0, 0.0], np.cumsum(np.c_[steps * np.cos(ang), steps * np.sin(ang)], axis=0)])
+        assert np.array_equal(_merge_repeats(p, 1.0), by_rule(p, 1.0))
