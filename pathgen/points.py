@@ -725,9 +725,25 @@ def _merge_repeats(p, tol):
     if n < 2:
         return None
     d = np.hypot(*np.diff(p, axis=0).T)
-    cand = (np.flatnonzero(d <= tol) + 1).tolist()
-    if not cand:
+    close = np.flatnonzero(d <= tol) + 1
+    if len(close) == 0:
         return None
+    # the usual case in one pass.  In a run of consecutive close points
+    # s, s+1, ..., each close to its predecessor, the rule drops s (close to
+    # s-1, kept), keeps s+1 when it lies farther than tol from s-1, drops
+    # s+2, and so on: every other one.  That holds when each dropped point's
+    # two neighbours lie farther than tol apart (checked, all at once);
+    # otherwise the point-by-point loop below decides.
+    first = np.concatenate([[True], np.diff(close) > 1])
+    start = np.maximum.accumulate(np.where(first, np.arange(len(close)), 0))
+    drop = close[(np.arange(len(close)) - start) % 2 == 0]
+    inner = drop[drop < n - 1]
+    a, b = p[inner - 1], p[inner + 1]
+    if np.all(np.hypot(b[:, 0] - a[:, 0], b[:, 1] - a[:, 1]) > tol):
+        keep = np.ones(n, bool)
+        keep[drop] = False
+        return keep
+    cand = close.tolist()
     import bisect
 
     keep = np.ones(n, bool)

@@ -411,3 +411,45 @@ def test_noise_loops_are_told_from_a_crossing_outline():
     c8 = crossing(eight, step=32)
     assert c8 is not None and not c8.local
     assert np.hypot(c8.x, c8.y) < 0.01
+
+def test_repeats_merged_in_one_pass_as_the_point_by_point_rule_does():
+    # Derived (the merge rule itself): a point closer than tol to the last
+    # point kept is dropped. The one-pass shortcut for isolated close points
+    # must give the same points as the rule applied one point at a time, on
+    # dense walks with steps around tol (alternating close and far steps,
+    # runs of close steps, close last points).
+    from pathgen.points import _merge_repeats
+
+    def by_rule(p, tol):
+        keep, last = [True], p[0]
+        for q in p[1:]:
+            keep.append(bool(np.hypot(*(q - last)) > tol))
+            if keep[-1]:
+                last = q
+        return np.array(keep)
+
+    rng = np.random.default_rng(21)
+    for case in range(300):
+        n = int(rng.integers(2, 60))
+        steps = rng.uniform(0.2, 1.8, n - 1) if case % 3 else np.where(rng.random(n - 1) < 0.5, 0.6, 1.4)
+        ang = rng.uniform(0, 2 * np.pi, n - 1)
+        p = np.vstack([[0.0, 0.0], np.cumsum(np.c_[steps * np.cos(ang), steps * np.sin(ang)], axis=0)])
+        got = _merge_repeats(p, 1.0)
+        assert np.array_equal(np.ones(n, bool) if got is None else got, by_rule(p, 1.0))
+    # dense points along a gentle curve, every other step short: the shape of
+    # a scan written finer than the merge distance (the one-pass case)
+    for case in range(50):
+        n = int(rng.integers(3, 400))
+        steps = np.where(np.arange(n - 1) % 2 == case % 2, rng.uniform(0.3, 0.99, n - 1), rng.uniform(1.01, 1.5, n - 1))
+        ang = np.cumsum(rng.normal(0, 0.05, n - 1))
+        p = np.vstack([[0.0, 0.0], np.cumsum(np.c_[steps * np.cos(ang), steps * np.sin(ang)], axis=0)])
+        got = _merge_repeats(p, 1.0)
+        assert got is not None and np.array_equal(got, by_rule(p, 1.0))
+    # runs of 1 to 4 short steps (0.55-0.99) between longer ones: every other
+    # point of a run goes, as long as the points around it lie apart
+    for case in range(100):
+        pattern = np.concatenate([np.r_[np.full(int(rng.integers(1, 5)), 0.0), 1.0] for _ in range(40)])
+        steps = np.where(pattern == 0.0, rng.uniform(0.55, 0.99, len(pattern)), rng.uniform(1.01, 1.6, len(pattern)))
+        ang = np.cumsum(rng.normal(0, 0.3 if case % 2 else 0.02, len(pattern)))
+        p = np.vstack([[0.0, 0.0], np.cumsum(np.c_[steps * np.cos(ang), steps * np.sin(ang)], axis=0)])
+        assert np.array_equal(_merge_repeats(p, 1.0), by_rule(p, 1.0))
