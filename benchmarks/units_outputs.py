@@ -72,9 +72,10 @@ def _cases(gen: Path):
     for u, tool, d in (("mm", "6", ["--depth", "6", "--step-down", "3"]),
                        ("inch", "0.25", ["--depth", "0.25", "--step-down", "0.125"])):
         base = [str(_plate(gen, u)), "--tool-diameter", tool, *d]
-        yield f"plate.{u}", base
-        yield f"plate.{u}.tabs", base + ["--tabs", "2"]
-        yield f"plate.{u}.lines", base + ["--moves", "lines", "--lead", "line"]
+        # "plate_dxf", not "plate": the sample plate.csv's files are named "plate.*"
+        yield f"plate_dxf.{u}", base
+        yield f"plate_dxf.{u}.tabs", base + ["--tabs", "2"]
+        yield f"plate_dxf.{u}.lines", base + ["--moves", "lines", "--lead", "line"]
 
 
 def write_all(out: Path) -> None:

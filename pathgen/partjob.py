@@ -322,11 +322,12 @@ def _replay_part(material, tool_mm: float, tol_mm: float, specs=(), plans=(), ou
         if bad:
             raise InternalCheckError("internal check failed: the written part program, read back: "
                                      + "; ".join(bad) + f" (chord tolerance {tol_mm:g} mm); nothing was written")
-        if out is not None:
-            out.update(facts)
-        from .verify.part import part_header_lines
+        from .verify.part import part_header_lines, shift_lines
 
-        return lines + part_header_lines(facts, units)
+        said = lines + part_header_lines(facts, units)
+        if out is not None:  # the figures name the lines of the file, which has these lines more in its header
+            out.update(shift_lines(facts, len(said)))
+        return said
 
     return check
 

@@ -61,3 +61,16 @@ def star_contour(seed, n=150, amplitude=2.5, harmonics=6):
     r = 20.0 + sum(rng.uniform(-amplitude, amplitude) * np.cos(k * th + rng.uniform(0, 6))
                    for k in range(1, harmonics + 1))
     return fit(np.c_[r * np.cos(th), r * np.sin(th)], closed=True)
+
+
+def inch_plate_dxf(path):
+    """A 4 x 3 inch rectangle in a drawing that declares inch ($INSUNITS = 1,
+    the DXF reference's header variable, as ezdxf's documented doc.units
+    writes it); returns the path."""
+    import ezdxf
+
+    doc = ezdxf.new("R2010")
+    doc.units = ezdxf.units.IN
+    doc.modelspace().add_lwpolyline([(0, 0), (4, 0), (4, 3), (0, 3)], close=True)
+    doc.saveas(path)
+    return path

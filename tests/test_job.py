@@ -139,13 +139,9 @@ def test_options_and_keywords_together_are_refused():
 def test_a_drawings_declared_units_and_options_built_without_it(tmp_path):
     # DXF $INSUNITS = 1 is inches (the DXF reference, header variables, as
     # ezdxf's documented doc.units writes it)
-    import ezdxf
+    from conftest import inch_plate_dxf
 
-    doc = ezdxf.new("R2010")
-    doc.units = ezdxf.units.IN
-    doc.modelspace().add_lwpolyline([(0, 0), (4, 0), (4, 3), (0, 3)], close=True)
-    p = tmp_path / "plate.dxf"
-    doc.saveas(p)
+    p = inch_plate_dxf(tmp_path / "plate.dxf")
     assert JobOptions.from_user(p).units == "inch"  # read from the drawing
     with pytest.raises(InputError, match=r"declares its units as inch .* the options are in mm"):
         run(p, JobOptions.from_user(tool_diameter=0.25))

@@ -91,13 +91,9 @@ def test_a_drawings_units_win_and_a_disagreeing_units_option_is_an_error(tmp_pat
     # a 4 x 3 inch rectangle drawn in an inch drawing ($INSUNITS = 1, DXF
     # reference via ezdxf's documented doc.units): read as inch without
     # --units; --units mm is an error naming both
-    import ezdxf
+    from conftest import inch_plate_dxf
 
-    doc = ezdxf.new("R2010")
-    doc.units = ezdxf.units.IN
-    doc.modelspace().add_lwpolyline([(0, 0), (4, 0), (4, 3), (0, 3)], close=True)
-    p = tmp_path / "plate.dxf"
-    doc.saveas(p)
+    p = inch_plate_dxf(tmp_path / "plate.dxf")
     status, out, err = call("check", p, "--json")
     assert status == 0, err
     import json

@@ -401,22 +401,30 @@ def test_plate_program_cuts_each_outline_once_on_its_side_holes_first(tmp_path, 
     assert '"outline_count": 6' in data and '"rapid_length"' in data
 
 
-@pytest.fixture(scope="module")
-def plate_program(tmp_path_factory):
-    """The plate cut 2 mm deep with the 6 mm tool, written once for the
-    tests that read the same program (a part job takes seconds)."""
-    d = tmp_path_factory.mktemp("plate")
-    run(plate_dxf(d / "plate.dxf"), tool_diameter=TOOL, depth=2.0, gcode=d / "p.nc", report=d / "p.json")
+def _plate_job(d):
+    """The plate cut 2 mm deep with the 6 mm tool: program,
+    report and drawing (with the tool path) written into ``d``."""
+    run(plate_dxf(d / "plate.dxf"), tool_diameter=TOOL, depth=2.0, gcode=d / "p.nc",
+        report=d / "p.json", dxf=d / "p.dxf")
     return d
 
 
-def test_part_program_same_bytes_twice(tmp_path, plate_program):
-    import shutil
+@pytest.fixture(scope="module")
+def plate_program(tmp_path_factory):
+    """The plate job, written once for the tests that read the same files
+    (a part job takes seconds)."""
+    return _plate_job(tmp_path_factory.mktemp("plate"))
 
-    path = shutil.copy(plate_program / "plate.dxf", tmp_path / "plate.dxf")  # the same drawing
-    run(path, tool_diameter=TOOL, depth=2.0, gcode=tmp_path / "p.nc", report=tmp_path / "p.json")
+
+@pytest.fixture(scope="module")
+def plate_program_again(tmp_path_factory):
+    """The same job run a second time, from its own copy of the drawing."""
+    return _plate_job(tmp_path_factory.mktemp("plate_again"))
+
+
+def test_part_program_same_bytes_twice(plate_program, plate_program_again):
     for name in ("p.nc", "p.json", "p.txt"):
-        assert (tmp_path / name).read_bytes() == (plate_program / name).read_bytes()
+        assert (plate_program_again / name).read_bytes() == (plate_program / name).read_bytes()
 
 
 # -- tabs (common practice: uncut bridges on flat stretches, the tool rises over them) -----------
@@ -698,15 +706,12 @@ def test_part_program_is_replayed_from_its_text(plate_program):
     assert all(len(ln) <= 256 for ln in head)
 
 
-def test_part_drawing_is_the_same_bytes_every_run(tmp_path):
+def test_part_drawing_is_the_same_bytes_every_run(plate_program, plate_program_again):
     # same input, same output: no creation dates, random GUIDs or time
     # stamps in the part's DXF (common practice for reproducible files)
-    src = plate_dxf(tmp_path / "plate.dxf")
-    outs = []
-    for k in range(2):
-        run(src, tool_diameter=6.0, depth=3.0, step_down=1.5, dxf=tmp_path / f"out{k}.dxf")
-        outs.append((tmp_path / f"out{k}.dxf").read_bytes())
-    assert outs[0] == outs[1]
+    first, second = (d / "p.dxf" for d in (plate_program, plate_program_again))
+    assert b"TOOLPATH" in first.read_bytes()  # the drawing carries the tool path too
+    assert first.read_bytes() == second.read_bytes()
 
 
 def test_a_part_scanned_densely_with_noise_is_cut(tmp_path):

@@ -297,3 +297,29 @@ def test_part_report_text_says_the_caution_once(plate_program):
     text = res.report.to_text()
     assert text.count(CAUTION) == 1 and text.rstrip("\n").endswith(CAUTION)
     assert "program as written: replayed deviation" in text  # each outline keeps its replayed figures
+
+
+def test_the_report_names_the_lines_of_the_written_file(plate_program):
+    # the replay runs before the header gains its replayed figures; the
+    # lines the report names must still be the file's: read back by the
+    # test interpreter (NISTIR 6556; sources: nistir-6556), the flat cutting
+    # moves between an outline's first and last line follow that outline's
+    # tool-center curve (|distance| = r, the distance functions above)
+    src, nc, res = plate_program
+    data = json.loads(nc.with_name("plate.report.json").read_text())
+    prog = gr.read(nc.read_text())
+    by_line = {m.line: m for m in prog.moves}
+    feats = dict(_features())
+    assert len(data["outlines"]) == 6
+    for row in data["outlines"]:
+        a, b = row["program"]["lines"]
+        assert a in by_line and b in by_line, (row["number"], a, b)  # moves, not header lines
+        assert by_line[a].g != 0 and by_line[b].g != 0  # feed moves, where the outline's cutting starts and ends
+        flat = [m for m in prog.moves if a <= m.line <= b and m.g != 0 and None not in m.start
+                and m.start[2] == m.end[2] < 0]
+        ends = np.array([m.end[:2] for m in flat])
+        on = np.abs(np.abs(feats[row["number"]](ends)) - RADIUS) <= 0.05
+        assert len(flat) >= 4 and on.mean() > 0.5, (row["number"], a, b)
+        if row["program"]["tabs"] is not None:  # the stretches over the tabs: at the tab top
+            for k in row["program"]["tabs"]["lines"]:
+                assert by_line[k].end[2] == pytest.approx(-3.0 + 1.0, abs=1e-6)

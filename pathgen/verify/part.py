@@ -34,7 +34,7 @@ import numpy as np
 from .check import _facts
 from .replay import _Moves, _in_plane, tool_center_polyline
 
-__all__ = ["cutting_runs", "replay_part", "verify_part", "PartOutlineSpec"]
+__all__ = ["cutting_runs", "replay_part", "shift_lines", "verify_part", "PartOutlineSpec"]
 
 
 @dataclass(frozen=True, eq=False)
@@ -199,6 +199,33 @@ def replay_part(program, specs, *, tool_radius: float, tolerance: float, machine
                              "the part may have come loose")
     return {"outlines": rows, "stray_runs": stray, "order": order,
             "time": program_time(program, machine) if machine is not None else None}
+
+
+def shift_lines(facts: dict, n: int) -> dict:
+    """:func:`replay_part`'s figures with every line number moved ``n``
+    lines down: a program's header gains the replay's own comment lines
+    after the replay, and the figures must name the lines of the file."""
+    import re
+
+    def move(v):
+        return None if v is None else int(v) + n
+
+    rows = []
+    for row in facts["outlines"]:
+        row = dict(row)
+        if row.get("lines") is not None:
+            row["lines"] = [move(v) for v in row["lines"]]
+        if "deviation_worst_line" in row:
+            row["deviation_worst_line"] = move(row["deviation_worst_line"])
+        if row.get("gouges"):
+            row["gouges"] = [dict(g, line=move(g["line"])) for g in row["gouges"]]
+        if isinstance(row.get("clearance"), dict) and "line" in row["clearance"]:
+            row["clearance"] = dict(row["clearance"], line=move(row["clearance"]["line"]))
+        if isinstance(row.get("tabs"), dict) and row["tabs"].get("lines") is not None:
+            row["tabs"] = dict(row["tabs"], lines=[move(v) for v in row["tabs"]["lines"]])
+        rows.append(row)
+    order = [re.sub(r"\bline (\d+)", lambda m: f"line {int(m.group(1)) + n}", t) for t in facts["order"]]
+    return {**facts, "outlines": rows, "stray_runs": [move(v) for v in facts["stray_runs"]], "order": order}
 
 
 def deepest_intrusion(program, material, tool_radius: float):
