@@ -579,7 +579,7 @@ def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict, units:
     """The check run on the program's text before it is renamed into place:
     read back, measured against the part; its figures go into ``out`` and
     its header lines speak ``units`` (the program's)."""
-    from .verify.check import Moves, check_program, header_lines
+    from .verify.check import Moves, check_program, header_lines, shift_facts
 
     offset = float(tp.info.get("offset", 0.0))  # the toolpath is mm
     radius = 0.5 * (tool_mm or 0.0)
@@ -587,8 +587,9 @@ def _replay(contour, tp, tool_mm, side, tol_mm, plan, machine, out: dict, units:
     def check(text):
         facts = check_program(text, contour, offset=offset, tool_radius=radius, side=side, tolerance=tol_mm,
                               expected=Moves.from_toolpath(tp), budget=plan, machine=machine)
-        out.update(facts)
-        return header_lines(facts, units)
+        said = header_lines(facts, units)
+        out.update(shift_facts(facts, len(said)))  # the lines of the file as written
+        return said
 
     return check
 
@@ -599,7 +600,7 @@ def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: 
     read back with G41/G42, the part line's deviation, the entry and exit,
     the arcs toward the tool and the swept tool disc; figures into ``out``."""
     from .errors import InternalCheckError
-    from .verify.check import header_lines
+    from .verify.check import header_lines, shift_facts
     from .verify.compensated import compensated_facts, part_line_moves
     from .verify.reader import read_gcode
 
@@ -627,8 +628,9 @@ def _replay_compensated(contour, tp, tool_mm, side, tol_mm, plan, machine, out: 
         if bad:
             raise InternalCheckError("internal check failed: the written compensated program, read back: "
                                      + "; ".join(bad) + f" (chord tolerance {tol_mm:g} mm); nothing was written")
-        out.update(facts)
-        return header_lines(facts, units)
+        said = header_lines(facts, units)
+        out.update(shift_facts(facts, len(said)))  # the lines of the file as written
+        return said
 
     return check
 

@@ -346,3 +346,24 @@ def test_the_header_lines_shown_in_docs_gcode_are_the_real_ones(tmp_path):
     assert len(shown) == 3
     for line in shown:
         assert line in written
+
+
+def test_the_report_names_the_lines_of_the_written_program(tmp_path):
+    # the replay's figures name lines of the file as written: the header
+    # gains the replay's own comment lines after the replay, and a line
+    # number 4 short pointed at the wrong move (the move read back there,
+    # under the G-code word rules of ISO 6983-1, passes through the stated
+    # point of smallest clearance)
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parent.parent
+    nc = tmp_path / "bracket.nc"
+    run(root / "samples" / "bracket.csv", tool_diameter=6.0, gcode=nc, report=tmp_path / "b.report.json")
+    data = json.loads((tmp_path / "b.report.json").read_text())["program"]
+    prog = gr.read(nc.read_text())
+    by_line = {m.line: m for m in prog.moves}
+    cl = data["clearance"]
+    move = by_line[cl["line"]]
+    pts = gr.sample(move, 0.01)
+    assert np.hypot(*(pts[:, :2] - np.array(cl["at"][:2])).T).min() < 0.02
+    assert data["deviation_worst_line"] in by_line

@@ -234,6 +234,28 @@ def clearance_words(cl: dict, tolerance: float, units: str) -> str:
             f"{_num(_u(tolerance, u))} {u} tolerance" + ("" if word == "within" else ": a gouge"))
 
 
+def shift_facts(facts: dict, n: int) -> dict:
+    """The replay's figures with every line number moved ``n`` lines down:
+    the header gains the replay's own comment lines after the replay, and
+    the figures must name the lines of the file as written."""
+    def move(v):
+        return None if v is None else int(v) + n
+
+    out = dict(facts)
+    if out.get("deviation_worst_line") is not None:
+        out["deviation_worst_line"] = move(out["deviation_worst_line"])
+    out["gouges"] = [dict(g, line=move(g["line"])) for g in out.get("gouges") or []]
+    if isinstance(out.get("clearance"), dict):
+        out["clearance"] = dict(out["clearance"], line=move(out["clearance"].get("line")))
+    c = out.get("compensation")
+    if isinstance(c, dict):
+        c = dict(c, problems=[dict(p, line=move(p["line"])) for p in c.get("problems") or []])
+        if "swept_line" in c:
+            c["swept_line"] = move(c["swept_line"])
+        out["compensation"] = c
+    return out
+
+
 def summary_lines(facts: dict, units: str) -> list[str]:
     """Plain lines for the report's text and the command line."""
     return [ln[0].upper() + ln[1:] + "." for ln in header_lines(facts, units)]
