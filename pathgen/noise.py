@@ -239,10 +239,11 @@ def _pseudo_residuals(p, closed, lag, chords=None):
     return e[np.isfinite(e)]
 
 
-def _parameter(p, closed, span):
+def chord_parameter(points, closed: bool, span: int) -> np.ndarray:
     """Chord-length parameter of the points (closed: n + 1 values, the last
     closing the loop), measured on chords ``span`` points long and spread
     evenly over the points between (``span`` = 1: plain chord length)."""
+    p = np.asarray(points, dtype=np.float64)
     n = len(p)
     if span <= 1:
         seg = np.hypot(*np.diff(np.vstack([p, p[:1]]) if closed else p, axis=0).T)
@@ -263,19 +264,13 @@ def chord_span(sigma: float, spacing: float, n: int) -> int:
     return int(min(max(math.ceil(sigma / (0.01 * spacing)), 2), max(n // 64, 2)))
 
 
-def chord_parameter(points, closed: bool, span: int) -> np.ndarray:
-    """The parameter of the points from chords ``span`` points long, spread
-    evenly over the points between (closed: n + 1 values)."""
-    return _parameter(np.asarray(points, dtype=np.float64), closed, span)
-
-
 def _pseudo_residuals_span(p, closed, lag, span):
     """:func:`_pseudo_residuals` for points so close that their noise shows
     in the short chords: the parameter from chords ``span`` points long, and
     the normal from a chord reaching ``span`` points beyond the run at each
     end."""
     n = len(p)
-    t = _parameter(p, closed, span)
+    t = chord_parameter(p, closed, span)
     m = span if span > 1 else 0
     if closed:
         i = np.arange(n)

@@ -531,20 +531,19 @@ def _curvature_noise_rule(t, y, S, winv, sigma, lam, f, gamma, rhs, periodic, wa
         normal = np.abs(r[:, 0] * d1[:, 1] - r[:, 1] * d1[:, 0]) / np.where(sp > 0, sp, 1.0)
         free = winv > 0
         rms = float(np.sqrt(np.mean(normal[free] ** 2))) if free.any() else 0.0
-        return share, float(normal.max()), rms
+        return share, float(normal.max()), rms, float((r * r).sum())
 
-    share, worst0, _ = state(lam, gamma)
+    share, worst0, _, _ = state(lam, gamma)
     # the largest of n Gaussian distances is about σ·√(2 ln 2n) (from memory)
     worst_cap = CURVATURE_NOISE_GUARD * max(worst0, sigma * math.sqrt(2.0 * math.log(2.0 * len(y))))
     steps = 0
     while share > wanted and steps < _CURVATURE_STEPS:
         lam2 = lam * 4.0
         gamma2 = _solve(S, lam2, y, rhs)
-        share2, worst2, rms2 = state(lam2, gamma2)
+        share2, worst2, rms2, f2 = state(lam2, gamma2)
         if worst2 > worst_cap or rms2 > CURVATURE_NOISE_GUARD * sigma:
             break
-        r = lam2 * winv[:, None] * _q_apply(S, gamma2)
-        lam, gamma, share, f = lam2, gamma2, share2, float((r * r).sum())
+        lam, gamma, share, f = lam2, gamma2, share2, f2
         steps += 1
     return lam, f, gamma, share, steps
 

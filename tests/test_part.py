@@ -802,4 +802,4 @@ def test_a_convex_part_cut_outside_takes_any_tool(tmp_path):
     res = run(tmp_path / "plate.dxf", tool_diameter=6.0)
     by_side = dict(zip(res.sides, res.reports))
     assert by_side["outside"].largest_tool_diameter is None
-    assert by_side["inside"].largest_tool_diameter == pytest.approx(10.0, rel=1e-3)  # the hole's diameter
+    assert by_side["inside"].largest_tool_diameter == pytest.approx(10.0, rel=1e-3)  # the hole's diameter, 2r (handbook)

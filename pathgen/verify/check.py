@@ -244,9 +244,10 @@ def shift_facts(facts: dict, n: int) -> dict:
     out = dict(facts)
     if out.get("deviation_worst_line") is not None:
         out["deviation_worst_line"] = move(out["deviation_worst_line"])
-    out["gouges"] = [dict(g, line=move(g["line"])) for g in out.get("gouges") or []]
-    if isinstance(out.get("clearance"), dict):
-        out["clearance"] = dict(out["clearance"], line=move(out["clearance"].get("line")))
+    if out.get("gouges"):
+        out["gouges"] = [dict(g, line=move(g["line"])) for g in out["gouges"]]
+    if isinstance(out.get("clearance"), dict) and "line" in out["clearance"]:
+        out["clearance"] = dict(out["clearance"], line=move(out["clearance"]["line"]))
     c = out.get("compensation")
     if isinstance(c, dict):
         c = dict(c, problems=[dict(p, line=move(p["line"])) for p in c.get("problems") or []])

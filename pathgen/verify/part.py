@@ -210,17 +210,13 @@ def shift_lines(facts: dict, n: int) -> dict:
     def move(v):
         return None if v is None else int(v) + n
 
+    from .check import shift_facts
+
     rows = []
     for row in facts["outlines"]:
-        row = dict(row)
+        row = shift_facts(row, n)  # worst line, gouges, clearance: as for one outline
         if row.get("lines") is not None:
             row["lines"] = [move(v) for v in row["lines"]]
-        if "deviation_worst_line" in row:
-            row["deviation_worst_line"] = move(row["deviation_worst_line"])
-        if row.get("gouges"):
-            row["gouges"] = [dict(g, line=move(g["line"])) for g in row["gouges"]]
-        if isinstance(row.get("clearance"), dict) and "line" in row["clearance"]:
-            row["clearance"] = dict(row["clearance"], line=move(row["clearance"]["line"]))
         if isinstance(row.get("tabs"), dict) and row["tabs"].get("lines") is not None:
             row["tabs"] = dict(row["tabs"], lines=[move(v) for v in row["tabs"]["lines"]])
         rows.append(row)
